@@ -1,0 +1,381 @@
+"""The ``netdim`` command line: argument parsing, exit codes and wiring; no numerics.
+
+Exit codes: 0 success, 1 runtime failure, 2 bad usage or bad input,
+3 a compare gate failed.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import re
+import sys
+import tempfile
+import time
+import traceback
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+from .errors import UserError
+
+__all__ = ["build_parser", "main"]
+
+EXIT_OK, EXIT_RUNTIME, EXIT_USAGE, EXIT_GATE = 0, 1, 2, 3
+
+ZOO = Path(__file__).resolve().parent.parent / "model_zoo"
+
+
+def _positive_int(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got '{text}'") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"must be at least 1, got {v}")
+    return v
+
+
+def _seed(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a non-negative whole number, got '{text}'") from None
+    if v < 0:
+        raise argparse.ArgumentTypeError(f"must be ≥ 0, got {v}")
+    return v
+
+
+def _add_common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+    p.add_argument("--quiet", "-q", action="store_true", help="print nothing but errors")
+
+
+def _add_model_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("model loading")
+    g.add_argument("--torch-class", metavar="MODULE:CLASS", help="class to rebuild a state-dict file")
+    g.add_argument("--torch-args", metavar="JSON", help="constructor keyword arguments for --torch-class, as JSON")
+    g.add_argument("--input-shape", metavar="D1,D2,...", help="non-batch input shape of a Torch file, e.g. 1,8,8")
+    g.add_argument(
+        "--trust-pickle",
+        action="store_true",
+        help="allow loading a whole pickled Torch module (runs code from the file: only for files you trust)",
+    )
+
+
+def _add_design_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("inputs and design")
+    src = g.add_mutually_exclusive_group()
+    src.add_argument("--inputs", metavar="SPEC.toml", help="input spec file: names and laws of the inputs")
+    src.add_argument("--law", help="every input N(0, 1) ('normal') or U[0, 1] ('uniform'); default normal")
+    g.add_argument("--dim", type=_positive_int, help="number of inputs of a Python callable")
+    g.add_argument("--points", type=int, default=1024, help="points N per randomization, a power of two (default 1024)")
+    g.add_argument("--replicates", type=int, default=8, help="independent randomizations R (default 8)")
+    g.add_argument("--seed", type=_seed, help="seed for the randomizations (default: fresh, recorded in the report)")
+    g.add_argument("--sampler", default="sobol", help="'sobol' (scrambled Sobol' points, default) or 'mc'")
+    g.add_argument(
+        "--estimator",
+        default="jansen",
+        help="'jansen' (every index, N(d+2) evaluations; default) or 'fast' (mean dimension only, 2N)",
+    )
+    g.add_argument("--checkpoint", metavar="PATH", help="save finished work there and resume from it")
+
+
+def _add_output_options(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("report")
+    g.add_argument("--json", metavar="PATH", help="write the JSON report there (default: under reports/)")
+    g.add_argument("--no-save", action="store_true", help="do not save the JSON report")
+    g.add_argument("--format", default="text", choices=("text", "markdown", "json"), help="what to print")
+    g.add_argument("--all-outputs", action="store_true", help="detail every output, not just the first few")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of ``netdim``."""
+    parser = argparse.ArgumentParser(
+        prog="netdim",
+        description="Audit a trained model by its ANOVA structure: mean dimension and Sobol' indices "
+        "of every output and hidden unit, with confidence intervals from randomized quasi-Monte Carlo.",
+    )
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+
+    a = sub.add_parser("audit", help="measure a model's outputs and hidden layers")
+    a.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
+    _add_design_options(a)
+    a.add_argument(
+        "--layers", default="activations", help="hidden layers: activations (default), all, none, or NAME,NAME"
+    )
+    a.add_argument(
+        "--unit-detail",
+        metavar="LAYER",
+        action="append",
+        default=[],
+        help="also rank inputs for every unit of this layer (costs d sums per unit)",
+    )
+    _add_model_options(a)
+    _add_output_options(a)
+    _add_common(a)
+
+    lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
+    lay.add_argument("model", metavar="MODEL")
+    lay.add_argument("--dim", type=_positive_int, help="number of inputs of a Python callable")
+    lay.add_argument("--inputs", metavar="SPEC.toml", help="input spec (for names and a state-dict class)")
+    _add_model_options(lay)
+    _add_common(lay)
+
+    s = sub.add_parser("show", help="print a saved JSON report again")
+    s.add_argument("report", metavar="REPORT.json")
+    s.add_argument("--format", default="text", choices=("text", "markdown"))
+    s.add_argument("--all-outputs", action="store_true")
+    _add_common(s)
+
+    dm = sub.add_parser("demo", help="audit the bundled greenhouse surrogate")
+    dm.add_argument("--points", type=int, default=1024)
+    dm.add_argument("--replicates", type=int, default=8)
+    dm.add_argument("--seed", type=_seed, default=2026)
+    dm.add_argument("--no-save", action="store_true")
+    dm.add_argument("--json", metavar="PATH")
+    _add_common(dm)
+    return parser
+
+
+# -- helpers -------------------------------------------------------------------
+
+
+def _json_arg(text: str | None, what: str) -> dict[str, Any]:
+    if not text:
+        return {}
+    try:
+        v = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise UserError(f"{what} must be a JSON object like '{{\"hidden\": 32}}'; got '{text}' ({exc}).") from exc
+    if not isinstance(v, dict):
+        raise UserError(f"{what} must be a JSON object like '{{\"hidden\": 32}}'; got '{text}'.")
+    return v
+
+
+def _shape_arg(text: str | None) -> tuple[int, ...] | None:
+    if not text:
+        return None
+    try:
+        shape = tuple(int(s) for s in text.split(","))
+    except ValueError:
+        raise UserError(f"--input-shape must be whole numbers separated by commas, e.g. 1,8,8; got '{text}'.") from None
+    if not shape or min(shape) < 1:
+        raise UserError(f"--input-shape must be positive whole numbers, got '{text}'.")
+    return shape
+
+
+def _spec(args: argparse.Namespace):
+    from .inputs import load_spec, uniform_spec
+
+    if getattr(args, "inputs", None):
+        return load_spec(args.inputs)
+    return uniform_spec(getattr(args, "law", None) or "normal")
+
+
+def _open(args: argparse.Namespace, spec):
+    from .models.open import open_model
+
+    kwargs: dict[str, Any] = {"dim": args.dim if args.dim is not None else spec.dim}
+    torch_class = args.torch_class or spec.model.get("class")
+    if torch_class:
+        kwargs["torch_class"] = torch_class
+        kwargs["torch_arguments"] = _json_arg(args.torch_args, "--torch-args") or spec.model.get("arguments", {})
+    if args.trust_pickle:
+        kwargs["trust"] = True
+    shape = _shape_arg(args.input_shape) or (tuple(spec.model["input_shape"]) if "input_shape" in spec.model else None)
+    if shape is not None:
+        kwargs["input_shape"] = shape
+    return open_model(args.model, **kwargs)
+
+
+def _console(quiet: bool):
+    from .report import make_console
+
+    return make_console(file=open(os.devnull, "w") if quiet else None)
+
+
+def _print_result(result, args: argparse.Namespace) -> None:
+    if args.quiet:
+        return
+    fmt = getattr(args, "format", "text")
+    if fmt == "json":
+        print(json.dumps(result.to_dict(), indent=2))
+        return
+    if fmt == "markdown":
+        from .report import audit_markdown
+
+        print(audit_markdown(result))
+        return
+    from .report import render_audit
+
+    render_audit(result, _console(False), all_outputs=getattr(args, "all_outputs", False))
+
+
+def _default_report_path(source: str) -> Path:
+    stem = re.sub(r"[^A-Za-z0-9_.-]+", "_", Path(source.split(":")[-1]).stem or "model").strip("_") or "model"
+    return Path("reports") / f"{stem}-{time.strftime('%Y%m%d-%H%M%S')}.json"
+
+
+def _save(result, args: argparse.Namespace) -> Path | None:
+    """Write the JSON report; if the chosen place fails, keep it in a temp file."""
+    if getattr(args, "no_save", False) and not args.json:
+        return None
+    path = Path(args.json) if args.json else _default_report_path(result.model.get("source", "model"))
+    text = json.dumps(result.to_dict(), indent=2)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        path.write_text(text, encoding="utf-8")
+        return path
+    except OSError as exc:
+        fd, tmp = tempfile.mkstemp(prefix="netdim-report-", suffix=".json")
+        with os.fdopen(fd, "w", encoding="utf-8") as f:
+            f.write(text)
+        raise UserError(
+            f"The report could not be written to '{path}' ({exc.strerror or exc}). Nothing is lost: "
+            f"it was saved to '{tmp}' instead. Choose a writable place with --json PATH."
+        ) from exc
+
+
+class _Bar:
+    """Progress bar on stderr for a run (nothing when stderr is not a terminal or --quiet)."""
+
+    def __init__(self, args: argparse.Namespace, total: int) -> None:
+        from .report import RunProgress
+
+        self._bar = RunProgress(total, enabled=not args.quiet)
+
+    def __enter__(self) -> _Bar:
+        self._bar.__enter__()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self._bar.__exit__(*exc)
+
+    def advance(self, n: int, phase: str) -> None:
+        self._bar.advance(n, phase=phase)
+
+
+def _progress(args: argparse.Namespace, total: int) -> _Bar:
+    return _Bar(args, total)
+
+
+# -- commands ------------------------------------------------------------------
+
+
+def cmd_audit(args: argparse.Namespace) -> int:
+    from .studies import execute, prepare
+
+    spec = _spec(args)
+    model = _open(args, spec)
+    setup = prepare(
+        model,
+        spec,
+        points=args.points,
+        replicates=args.replicates,
+        seed=args.seed,
+        sampler=args.sampler,
+        estimator=args.estimator,
+        layers=args.layers,
+        unit_detail=[n for item in args.unit_detail for n in item.split(",") if n],
+    )
+    with _progress(args, setup.evaluations) as bar:
+        result = execute(setup, progress=bar.advance, checkpoint=args.checkpoint)
+    _print_result(result, args)
+    saved = _save(result, args)
+    if saved is not None and not args.quiet and args.format == "text":
+        print(f"Report saved to {saved}")
+    return EXIT_OK
+
+
+def cmd_layers(args: argparse.Namespace) -> int:
+    from .report.signature import render_signature
+
+    spec = _spec(args)
+    model = _open(args, spec)
+    if not args.quiet:
+        render_signature(model, _console(False))
+    return EXIT_OK
+
+
+def cmd_show(args: argparse.Namespace) -> int:
+    from .results import AuditResult
+
+    path = Path(args.report)
+    if not path.is_file():
+        raise UserError(f"The report '{args.report}' does not exist or is not a file.")
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+        result = AuditResult.from_dict(data)
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise UserError(f"'{args.report}' is not a JSON file: {exc}.") from exc
+    except (KeyError, TypeError, ValueError) as exc:
+        raise UserError(f"'{args.report}' is not a netdim report this version can read: {exc}.") from exc
+    _print_result(result, args)
+    return EXIT_OK
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    from .inputs import load_spec
+    from .models.open import open_model
+    from .studies import execute, prepare
+
+    model_path = ZOO / "greenhouse_v1.onnx"
+    spec_path = ZOO / "greenhouse_v1.toml"
+    if not model_path.exists() or not spec_path.exists():
+        raise UserError(
+            f"The bundled greenhouse model is missing from {ZOO}. Reinstall netdim from its source "
+            "folder, or rebuild the zoo with `python -m model_zoo.build`."
+        )
+    spec = load_spec(spec_path)
+    model = open_model(str(model_path))
+    setup = prepare(model, spec, points=args.points, replicates=args.replicates, seed=args.seed)
+    with _progress(args, setup.evaluations) as bar:
+        result = execute(setup, progress=bar.advance)
+    args.format, args.all_outputs = "text", True
+    _print_result(result, args)
+    saved = _save(result, args)
+    if not args.quiet:
+        if saved is not None:
+            print(f"Report saved to {saved}")
+        print(
+            "Next: compare with the retrained surrogate\n"
+            f"  netdim compare {model_path} {ZOO / 'greenhouse_v2.onnx'} --inputs {spec_path}\n"
+            "or ask which inputs to pre-integrate or freeze\n"
+            f"  netdim advise {model_path} --inputs {spec_path}"
+        )
+    return EXIT_OK
+
+
+COMMANDS = {"audit": cmd_audit, "layers": cmd_layers, "show": cmd_show, "demo": cmd_demo}
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run ``netdim``; return the exit code."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    debug = getattr(args, "debug", False)
+    try:
+        return COMMANDS[args.command](args)
+    except UserError as exc:
+        if debug:
+            traceback.print_exc()
+        print(f"netdim: error: {exc.message}", file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print(
+            "netdim: interrupted. Work saved in a --checkpoint file (if one was given) resumes with the same command.",
+            file=sys.stderr,
+        )
+        return 130
+    except Exception as exc:
+        if debug:
+            traceback.print_exc()
+        print(
+            f"netdim: unexpected failure: {type(exc).__name__}: {exc}. This is not a problem with your "
+            "input as far as netdim can tell; run again with --debug for the traceback and report it.",
+            file=sys.stderr,
+        )
+        return EXIT_RUNTIME

@@ -1,0 +1,450 @@
+"""Marginal laws of the inputs and the TOML input-spec file.
+
+Inputs are independent; each feature has a marginal law with an inverse CDF
+(used to map uniform design points) and a Gauss quadrature rule (used for
+pre-integration). Laws come from :mod:`scipy.stats`; Gauss nodes from
+:mod:`numpy.polynomial`.
+
+The input spec is a TOML file of netdim's own design::
+
+    title = "Greenhouse surrogate"      # optional
+
+    [inputs]
+    law = "uniform"                     # default law of every feature not listed
+    low = 0.0
+    high = 1.0
+    count = 8                           # optional, checked against the model
+    names = ["a", "b"]                  # optional, in model input order
+
+    [[inputs.feature]]                  # without `names`: the features, in order
+    name = "outside_temperature"        # with `names`: overrides by name
+    law = "uniform"
+    low = -5.0
+    high = 30.0
+    unit = "°C"
+
+    [outputs]
+    names = ["inside_temperature", "inside_humidity"]
+    units = ["°C", "%"]
+
+    [model]                             # for state-dict files
+    class = "package.module:Class"
+    arguments = { hidden = 32 }
+
+Laws and their parameters: ``normal`` (mean, sd), ``uniform`` (low, high),
+``lognormal`` (log_mean, log_sd), ``triangular`` (low, mode, high).
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from scipy import stats
+
+from .errors import UserError, suggest
+
+__all__ = [
+    "LAWS",
+    "InputSpec",
+    "Law",
+    "law_from_dict",
+    "load_spec",
+    "parse_spec",
+    "uniform_spec",
+]
+
+
+@dataclass(frozen=True)
+class Law:
+    """A marginal law: one of :data:`LAWS` with its parameters.
+
+    Parameters
+    ----------
+    kind : str
+        ``"normal"``, ``"uniform"``, ``"lognormal"`` or ``"triangular"``.
+    params : dict
+        The law's parameters (see :data:`LAWS`).
+    """
+
+    kind: str
+    params: dict[str, float] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        if self.kind not in LAWS:
+            raise ValueError(f"unknown law {self.kind!r}; valid laws: {', '.join(LAWS)}." + suggest(self.kind, LAWS))
+        names, defaults = LAWS[self.kind]
+        full = {**defaults, **{k: float(v) for k, v in self.params.items()}}
+        unknown = set(full) - set(names)
+        if unknown:
+            bad = sorted(unknown)[0]
+            raise ValueError(
+                f"law {self.kind!r} has no parameter {bad!r}; its parameters: {', '.join(names)}." + suggest(bad, names)
+            )
+        for k in names:
+            if k not in full:
+                raise ValueError(f"law {self.kind!r} needs the parameter {k!r}.")
+            if not math.isfinite(full[k]):
+                raise ValueError(f"law {self.kind!r}: parameter {k!r} must be finite, got {full[k]}.")
+        _check_params(self.kind, full)
+        object.__setattr__(self, "params", {k: full[k] for k in names})
+
+    @property
+    def dist(self) -> Any:
+        """The frozen :mod:`scipy.stats` distribution."""
+        p = self.params
+        if self.kind == "normal":
+            return stats.norm(loc=p["mean"], scale=p["sd"])
+        if self.kind == "uniform":
+            return stats.uniform(loc=p["low"], scale=p["high"] - p["low"])
+        if self.kind == "lognormal":
+            return stats.lognorm(s=p["log_sd"], scale=math.exp(p["log_mean"]))
+        lo, mode, hi = p["low"], p["mode"], p["high"]
+        return stats.triang(c=(mode - lo) / (hi - lo), loc=lo, scale=hi - lo)
+
+    def ppf(self, u: np.ndarray) -> np.ndarray:
+        """Inverse CDF: map uniform points in (0, 1) to this law."""
+        return self.dist.ppf(u)
+
+    def quadrature(self, m: int) -> tuple[np.ndarray, np.ndarray]:
+        """An ``m``-point Gauss rule for this law: nodes and weights summing to 1.
+
+        Gauss–Hermite (probabilists') for the normal law and, through
+        ``exp``, the lognormal law; Gauss–Legendre for the uniform law; for the
+        triangular law, Gauss–Legendre on each side of the mode (``m`` nodes
+        in all), so that the kink of its density falls between panels.
+        """
+        if m < 1:
+            raise ValueError(f"a quadrature rule needs at least 1 node, got {m}.")
+        p = self.params
+        if self.kind in ("normal", "lognormal"):
+            z, w = np.polynomial.hermite_e.hermegauss(m)
+            w = w / w.sum()
+            if self.kind == "normal":
+                return p["mean"] + p["sd"] * z, w
+            return np.exp(p["log_mean"] + p["log_sd"] * z), w
+        if self.kind == "uniform":
+            t, w = np.polynomial.legendre.leggauss(m)
+            return p["low"] + (p["high"] - p["low"]) * (t + 1) / 2, w / w.sum()
+        # triangular: integrate the density on [low, mode] and [mode, high]
+        lo, mode, hi = p["low"], p["mode"], p["high"]
+        nodes, weights = [], []
+        m1 = max(1, round(m * (mode - lo) / (hi - lo))) if mode > lo else 0
+        m1 = min(m1, m - 1) if mode < hi else m
+        for a, b, k in ((lo, mode, m1), (mode, hi, m - m1)):
+            if k == 0 or b <= a:
+                continue
+            t, w = np.polynomial.legendre.leggauss(k)
+            x = a + (b - a) * (t + 1) / 2
+            nodes.append(x)
+            weights.append(w * (b - a) / 2 * self.dist.pdf(x))
+        x, w = np.concatenate(nodes), np.concatenate(weights)
+        return x, w / w.sum()
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"law": self.kind, **self.params}
+
+    def describe(self) -> str:
+        args = ", ".join(f"{v:g}" for v in self.params.values())
+        return f"{self.kind}({args})"
+
+
+def _check_params(kind: str, p: dict[str, float]) -> None:
+    if kind == "normal" and p["sd"] <= 0:
+        raise ValueError(f"normal law: sd must be > 0, got {p['sd']:g}.")
+    if kind == "lognormal" and p["log_sd"] <= 0:
+        raise ValueError(f"lognormal law: log_sd must be > 0, got {p['log_sd']:g}.")
+    if kind in ("uniform", "triangular") and not p["low"] < p["high"]:
+        raise ValueError(f"{kind} law: low must be < high, got low={p['low']:g}, high={p['high']:g}.")
+    if kind == "triangular" and not p["low"] <= p["mode"] <= p["high"]:
+        raise ValueError(
+            f"triangular law: mode must lie in [low, high], got low={p['low']:g}, "
+            f"mode={p['mode']:g}, high={p['high']:g}."
+        )
+
+
+#: Valid laws: parameter names in order, and their defaults.
+LAWS: dict[str, tuple[tuple[str, ...], dict[str, float]]] = {
+    "normal": (("mean", "sd"), {"mean": 0.0, "sd": 1.0}),
+    "uniform": (("low", "high"), {"low": 0.0, "high": 1.0}),
+    "lognormal": (("log_mean", "log_sd"), {"log_mean": 0.0, "log_sd": 1.0}),
+    "triangular": (("low", "mode", "high"), {}),
+}
+
+_FEATURE_META = ("name", "unit", "note")
+_INPUT_KEYS = ("law", "count", "names", "feature")
+_TOP_KEYS = ("title", "inputs", "outputs", "model")
+_OUTPUT_KEYS = ("names", "units")
+_MODEL_KEYS = ("class", "arguments", "input_shape")
+
+
+def law_from_dict(d: dict[str, Any], where: str = "") -> Law:
+    """Build a :class:`Law` from ``{"law": kind, **params}`` (extra keys ignored by caller)."""
+    kind = d.get("law", "normal")
+    names = LAWS.get(kind, ((), {}))[0]
+    params = {k: v for k, v in d.items() if k in names}
+    try:
+        return Law(kind, params)
+    except (ValueError, TypeError) as exc:
+        raise UserError(f"{where}{exc}") from exc
+
+
+@dataclass(frozen=True)
+class InputSpec:
+    """Names and laws of the d inputs, and optional output names.
+
+    Attributes
+    ----------
+    names : list of str or None
+        Feature names (``None``: take the model's own).
+    laws : list of Law or None
+        One law per feature (``None``: every feature takes ``default``).
+    default : Law
+        Law of features without an explicit one.
+    count : int or None
+        Number of features, when the spec fixes it.
+    units : list of str
+        Physical unit per feature ("" when not given).
+    outputs : list of str or None
+        Names of the flattened output units.
+    output_units : list of str or None
+    model : dict
+        The ``[model]`` table (``class``, ``arguments``, ``input_shape``).
+    source : str
+        File the spec came from, or a description.
+    """
+
+    names: list[str] | None = None
+    laws: list[Law] | None = None
+    default: Law = field(default_factory=lambda: Law("normal"))
+    count: int | None = None
+    units: list[str] = field(default_factory=list)
+    outputs: list[str] | None = None
+    output_units: list[str] | None = None
+    model: dict[str, Any] = field(default_factory=dict)
+    source: str = ""
+    title: str = ""
+
+    @property
+    def dim(self) -> int | None:
+        """Number of features fixed by the spec, or None."""
+        if self.count is not None:
+            return self.count
+        if self.laws is not None:
+            return len(self.laws)
+        if self.names is not None:
+            return len(self.names)
+        return None
+
+    def resolve(self, d: int | None, default_names: list[str] | None = None) -> tuple[list[str], list[Law]]:
+        """Names and laws for a model with ``d`` features.
+
+        Raises
+        ------
+        UserError
+            When the spec's feature count differs from the model's, or ``d`` is
+            unknown on both sides.
+        """
+        own = self.dim
+        where = f"The input spec {self.source}" if self.source else "The input spec"
+        if d is None:
+            d = own
+        if d is None:
+            raise UserError(
+                f"{where} does not say how many inputs there are and the model does not either: "
+                "give --dim D, or `count = D` (or the features) under [inputs] in the spec."
+            )
+        if own is not None and own != d:
+            raise UserError(
+                f"{where} describes {own} input features but the model takes {d}. "
+                "Make `count`, `names` or the [[inputs.feature]] entries match the model's input."
+            )
+        names = self.names or default_names or [f"x{i}" for i in range(d)]
+        if len(names) != d:
+            names = [f"x{i}" for i in range(d)]
+        laws = self.laws or [self.default] * d
+        return list(names), list(laws)
+
+
+def uniform_spec(law: str = "normal") -> InputSpec:
+    """The spec of ``--law normal|uniform``: every input N(0, 1) or U[0, 1]."""
+    if law not in ("normal", "uniform"):
+        raise UserError(
+            f"Unknown law '{law}' for --law; valid choices: normal, uniform."
+            + suggest(law, ["normal", "uniform"])
+            + " Other laws (lognormal, triangular) can be set in an input spec file."
+        )
+    return InputSpec(default=Law(law), source=f"--law {law}")
+
+
+def _unknown_keys(table: dict[str, Any], valid: tuple[str, ...], where: str) -> None:
+    for key in table:
+        if key not in valid:
+            raise UserError(
+                f"{where}: unknown key '{key}'." + suggest(key, valid) + f" Valid keys: {', '.join(valid)}."
+            )
+
+
+def _feature_law(entry: dict[str, Any], default: Law | None, where: str) -> Law | None:
+    law_keys = {k for k in entry if k not in _FEATURE_META}
+    if not law_keys:
+        return default
+    kind = entry.get("law")
+    if kind is None:
+        if default is None:
+            raise UserError(f'{where}: parameters are given but no `law`; add law = "normal" or similar.')
+        kind = default.kind
+    if not isinstance(kind, str) or kind not in LAWS:
+        raise UserError(f"{where}: unknown law {kind!r}; valid laws: {', '.join(LAWS)}." + suggest(str(kind), LAWS))
+    valid = (*_FEATURE_META, "law", *LAWS[kind][0])
+    _unknown_keys(entry, valid, where)
+    params = {k: entry[k] for k in LAWS[kind][0] if k in entry}
+    for k, v in params.items():
+        if isinstance(v, bool) or not isinstance(v, (int, float)):
+            raise UserError(f"{where}: `{k}` must be a number, got {v!r}.")
+    if default is not None and kind == default.kind:
+        params = {**default.params, **params}
+    try:
+        return Law(kind, params)
+    except ValueError as exc:
+        raise UserError(f"{where}: {exc}") from exc
+
+
+def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
+    """Validate a parsed TOML document and build an :class:`InputSpec`.
+
+    Parameters
+    ----------
+    data : dict
+        The document, as returned by :func:`tomllib.loads`.
+    source : str
+        File name used in error messages.
+
+    Raises
+    ------
+    UserError
+        Naming the file, the key or feature, and what is wrong.
+    """
+    where = f"Input spec '{source}'" if source else "Input spec"
+    if not isinstance(data, dict):
+        raise UserError(f"{where}: the document must be a TOML table.")
+    _unknown_keys(data, _TOP_KEYS, where)
+    inputs = data.get("inputs", {})
+    if not isinstance(inputs, dict):
+        raise UserError(f"{where}: [inputs] must be a table.")
+    all_params = {p for names, _ in LAWS.values() for p in names}
+    _unknown_keys(inputs, (*_INPUT_KEYS, *sorted(all_params)), f"{where}, [inputs]")
+
+    default_entry = {k: v for k, v in inputs.items() if k not in ("count", "names", "feature")}
+    if default_entry and "law" not in default_entry:
+        raise UserError(f"{where}, [inputs]: law parameters are given but no `law`.")
+    default = _feature_law(default_entry, None, f"{where}, [inputs]") or Law("normal")
+
+    count = inputs.get("count")
+    if count is not None and (isinstance(count, bool) or not isinstance(count, int) or count < 1):
+        raise UserError(f"{where}, [inputs]: `count` must be a whole number ≥ 1, got {count!r}.")
+    names = inputs.get("names")
+    if names is not None:
+        if not isinstance(names, list) or not all(isinstance(n, str) and n for n in names):
+            raise UserError(f"{where}, [inputs]: `names` must be a list of non-empty strings.")
+        if len(set(names)) != len(names):
+            dup = next(n for n in names if names.count(n) > 1)
+            raise UserError(f"{where}, [inputs]: feature name '{dup}' appears twice in `names`.")
+        if count is not None and count != len(names):
+            raise UserError(f"{where}, [inputs]: `count` is {count} but `names` lists {len(names)}.")
+
+    entries = inputs.get("feature", [])
+    if not isinstance(entries, list) or not all(isinstance(e, dict) for e in entries):
+        raise UserError(f"{where}: features must be given as [[inputs.feature]] tables.")
+    laws: list[Law] | None = None
+    units: list[str] = []
+    if entries:
+        seen: set[str] = set()
+        for i, e in enumerate(entries):
+            name = e.get("name")
+            if not isinstance(name, str) or not name:
+                raise UserError(f"{where}, feature #{i + 1}: every [[inputs.feature]] needs a `name`.")
+            if name in seen:
+                raise UserError(f"{where}: feature '{name}' is listed twice.")
+            seen.add(name)
+        if names is None:
+            if count is not None and count != len(entries):
+                raise UserError(
+                    f"{where}: `count` is {count} but {len(entries)} [[inputs.feature]] entries are "
+                    "listed. Without `names`, list every feature (or add `names` to override some)."
+                )
+            names = [e["name"] for e in entries]
+            laws = [_feature_law(e, default, f"{where}, feature '{e['name']}'") for e in entries]
+            units = [str(e.get("unit", "")) for e in entries]
+        else:
+            laws = [default] * len(names)
+            units = [""] * len(names)
+            for e in entries:
+                if e["name"] not in names:
+                    raise UserError(f"{where}: feature '{e['name']}' is not in `names`." + suggest(e["name"], names))
+                k = names.index(e["name"])
+                laws[k] = _feature_law(e, default, f"{where}, feature '{e['name']}'")
+                units[k] = str(e.get("unit", ""))
+
+    outputs = data.get("outputs", {})
+    if not isinstance(outputs, dict):
+        raise UserError(f"{where}: [outputs] must be a table.")
+    _unknown_keys(outputs, _OUTPUT_KEYS, f"{where}, [outputs]")
+    out_names = outputs.get("names")
+    if out_names is not None and (
+        not isinstance(out_names, list) or not all(isinstance(n, str) and n for n in out_names)
+    ):
+        raise UserError(f"{where}, [outputs]: `names` must be a list of non-empty strings.")
+    out_units = outputs.get("units")
+    if out_units is not None and out_names is not None and len(out_units) != len(out_names):
+        raise UserError(f"{where}, [outputs]: `units` and `names` must have the same length.")
+
+    model = data.get("model", {})
+    if not isinstance(model, dict):
+        raise UserError(f"{where}: [model] must be a table.")
+    _unknown_keys(model, _MODEL_KEYS, f"{where}, [model]")
+    if "arguments" in model and not isinstance(model["arguments"], dict):
+        raise UserError(f"{where}, [model]: `arguments` must be a table, e.g. arguments = {{ hidden = 32 }}.")
+
+    return InputSpec(
+        names=names,
+        laws=laws,
+        default=default,
+        count=count,
+        units=units,
+        outputs=out_names,
+        output_units=out_units,
+        model=dict(model),
+        source=source,
+        title=str(data.get("title", "")),
+    )
+
+
+def load_spec(path: str | Path) -> InputSpec:
+    """Read and validate an input-spec TOML file.
+
+    Raises
+    ------
+    UserError
+        Missing file, TOML syntax error (with line and column), or an invalid spec.
+    """
+    p = Path(path)
+    if not p.exists():
+        raise UserError(f"The input spec file '{path}' does not exist. Check the path given to --inputs.")
+    if p.is_dir():
+        raise UserError(f"'{path}' is a folder; --inputs needs a TOML file.")
+    try:
+        text = p.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise UserError(f"The input spec file '{path}' could not be read as UTF-8 text: {exc}.") from exc
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise UserError(
+            f"The input spec file '{path}' is not valid TOML: {exc}. Fix the syntax at that place."
+        ) from exc
+    return parse_spec(data, source=str(path))
