@@ -117,6 +117,26 @@ def build_parser() -> argparse.ArgumentParser:
     _add_output_options(a)
     _add_common(a)
 
+    c = sub.add_parser("compare", help="compare two model versions on the same points, with pipeline gates")
+    c.add_argument("old", metavar="OLD", help="the current model (file or package.module:function)")
+    c.add_argument("new", metavar="NEW", help="the candidate model (file or package.module:function)")
+    _add_design_options(c)
+    c.add_argument("--layers", default="activations", help="hidden layers to compare (same name and size in both)")
+    c.add_argument("--output-map", metavar="OLD=NEW,...", help="pair outputs by name or index when they differ")
+    c.add_argument("--top-k", type=_positive_int, default=3, help="size of the leading-input sets compared (3)")
+    c.add_argument("--independent", action="store_true",
+                   help="use independent points for the two sides (wider intervals; for checking the pairing)")
+    g = c.add_argument_group("gates (exit code 3 when one fails)")
+    g.add_argument("--max-dimension-rise", type=float, metavar="X",
+                   help="fail when any output's ν rises by more than X (judged on the interval's lower end)")
+    g.add_argument("--min-rank-agreement", type=float, metavar="T",
+                   help="fail when the Kendall τ of any output's total-index ranking falls below T")
+    g.add_argument("--max-index-shift", type=float, metavar="S",
+                   help="fail when any input's total index moves by more than S (interval end nearest 0)")
+    _add_model_options(c)
+    _add_output_options(c)
+    _add_common(c)
+
     lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
     lay.add_argument("model", metavar="MODEL")
     lay.add_argument("--dim", type=_positive_int, help="number of inputs of a Python callable")
@@ -175,7 +195,7 @@ def _spec(args: argparse.Namespace):
     return uniform_spec(getattr(args, "law", None) or "normal")
 
 
-def _open(args: argparse.Namespace, spec):
+def _open(args: argparse.Namespace, spec, ref: str | None = None):
     from .models.open import open_model
 
     kwargs: dict[str, Any] = {"dim": args.dim if args.dim is not None else spec.dim}
@@ -188,7 +208,7 @@ def _open(args: argparse.Namespace, spec):
     shape = _shape_arg(args.input_shape) or (tuple(spec.model["input_shape"]) if "input_shape" in spec.model else None)
     if shape is not None:
         kwargs["input_shape"] = shape
-    return open_model(args.model, **kwargs)
+    return open_model(ref or args.model, **kwargs)
 
 
 def _console(quiet: bool):
@@ -203,6 +223,15 @@ def _print_result(result, args: argparse.Namespace) -> None:
     fmt = getattr(args, "format", "text")
     if fmt == "json":
         print(json.dumps(result.to_dict(), indent=2))
+        return
+    kind = getattr(result, "kind", "audit")
+    if kind == "comparison":
+        from .report.comparison import comparison_markdown, render_comparison
+
+        if fmt == "markdown":
+            print(comparison_markdown(result))
+        else:
+            render_comparison(result, _console(False))
         return
     if fmt == "markdown":
         from .report import audit_markdown
@@ -223,7 +252,9 @@ def _save(result, args: argparse.Namespace) -> Path | None:
     """Write the JSON report; if the chosen place fails, keep it in a temp file."""
     if getattr(args, "no_save", False) and not args.json:
         return None
-    path = Path(args.json) if args.json else _default_report_path(result.model.get("source", "model"))
+    source = result.to_dict()["model"]
+    source = source["new"]["source"] if "new" in source else source.get("source", "model")
+    path = Path(args.json) if args.json else _default_report_path(source)
     text = json.dumps(result.to_dict(), indent=2)
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
@@ -290,6 +321,40 @@ def cmd_audit(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_compare(args: argparse.Namespace) -> int:
+    from .comparison import Gates, compare_models, parse_output_map
+
+    spec = _spec(args)
+    old, new = _open(args, spec, args.old), _open(args, spec, args.new)
+    output_map = None
+    if args.output_map:
+        from .studies import prepare
+
+        names = [prepare(m, spec, points=2, replicates=2, seed=0, layers="none").output_names for m in (old, new)]
+        output_map = parse_output_map(args.output_map, *names)
+    gates = Gates(args.max_dimension_rise, args.min_rank_agreement, args.max_index_shift)
+    per = 2 if args.estimator == "fast" else old.input.units + 2
+    from .design import round_points
+
+    total = 2 * round_points(max(args.points, 1)) * max(args.replicates, 1) * per
+    with _progress(args, total) as bar:
+        result = compare_models(
+            old, new, spec, points=args.points, replicates=args.replicates, seed=args.seed,
+            sampler=args.sampler, estimator=args.estimator, layers=args.layers, output_map=output_map,
+            gates=gates, top_k=args.top_k, paired=not args.independent,
+            progress=lambda n, ph: bar.advance(2 * n if not args.independent else n, ph),
+        )
+    _print_result(result, args)
+    saved = _save(result, args)
+    if saved is not None and not args.quiet and args.format == "text":
+        print(f"Report saved to {saved}")
+    if not result.passed:
+        failed = ", ".join(g.name for g in result.gates if not g.passed)
+        print(f"netdim: gate failed: {failed}", file=sys.stderr)
+        return EXIT_GATE
+    return EXIT_OK
+
+
 def cmd_layers(args: argparse.Namespace) -> int:
     from .report.signature import render_signature
 
@@ -301,14 +366,18 @@ def cmd_layers(args: argparse.Namespace) -> int:
 
 
 def cmd_show(args: argparse.Namespace) -> int:
-    from .results import AuditResult
+    from .results import AuditResult, ComparisonResult
 
     path = Path(args.report)
     if not path.is_file():
         raise UserError(f"The report '{args.report}' does not exist or is not a file.")
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
-        result = AuditResult.from_dict(data)
+        kinds = {"audit": AuditResult, "comparison": ComparisonResult}
+        kind = data.get("kind", "audit") if isinstance(data, dict) else "audit"
+        if kind not in kinds:
+            raise ValueError(f"unknown report kind '{kind}'")
+        result = kinds[kind].from_dict(data)
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise UserError(f"'{args.report}' is not a JSON file: {exc}.") from exc
     except (KeyError, TypeError, ValueError) as exc:
@@ -349,7 +418,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-COMMANDS = {"audit": cmd_audit, "layers": cmd_layers, "show": cmd_show, "demo": cmd_demo}
+COMMANDS = {"audit": cmd_audit, "compare": cmd_compare, "layers": cmd_layers, "show": cmd_show, "demo": cmd_demo}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -186,7 +186,7 @@ def prepare(
     return Setup(model, names, laws, out_names, chosen, design, estimator, groups, blk, notices, spec)
 
 
-def _interval(v: np.ndarray) -> list[Estimate]:
+def intervals(v: np.ndarray) -> list[Estimate]:
     est, lo, hi, se = t_interval(v, LEVEL, axis=0)
     return [
         Estimate(float(a), float(b), float(c), float(s))
@@ -195,7 +195,7 @@ def _interval(v: np.ndarray) -> list[Estimate]:
 
 
 @dataclass
-class _Stats:
+class GroupStats:
     """Per-randomization arrays of one group, shape (R, ...)."""
 
     mean: np.ndarray
@@ -206,7 +206,7 @@ class _Stats:
     inert: np.ndarray
 
     @classmethod
-    def of(cls, accs: list[Accumulator], sampler: str) -> _Stats:
+    def of(cls, accs: list[Accumulator], sampler: str) -> GroupStats:
         reps = [a.estimates(ddof=0 if sampler == "sobol" else 1) for a in accs]
         mean = np.array([r.mean for r in reps])
         var = np.array([r.variance for r in reps])
@@ -223,11 +223,11 @@ class _Stats:
             return np.where(var > 0, num / np.where(var > 0, var, 1.0), np.nan)
 
 
-def _outputs(stats: _Stats, names: list[str], features: list[str]) -> list[OutputResult]:
-    means, variances = _interval(stats.mean), _interval(stats.var)
-    nus = _interval(stats.ratio(stats.total_sum))
-    tot = [_interval(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
-    fo = [_interval(x) for x in stats.ratio(stats.first).transpose(1, 0, 2)] if stats.first is not None else None
+def output_results(stats: GroupStats, names: list[str], features: list[str]) -> list[OutputResult]:
+    means, variances = intervals(stats.mean), intervals(stats.var)
+    nus = intervals(stats.ratio(stats.total_sum))
+    tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
+    fo = [intervals(x) for x in stats.ratio(stats.first).transpose(1, 0, 2)] if stats.first is not None else None
     results = []
     for k, name in enumerate(names):
         inert = bool(stats.inert[k])
@@ -249,11 +249,11 @@ def _outputs(stats: _Stats, names: list[str], features: list[str]) -> list[Outpu
     return results
 
 
-def _layer(info: LayerInfo, stats: _Stats, features: list[str]) -> LayerResult:
+def layer_result(info: LayerInfo, stats: GroupStats, features: list[str]) -> LayerResult:
     unit_names = index_names(info.name, info.shape)
-    variances = _interval(stats.var)
-    nus = _interval(stats.ratio(stats.total_sum))
-    tot = [_interval(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
+    variances = intervals(stats.var)
+    nus = intervals(stats.ratio(stats.total_sum))
+    tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
     units = []
     for u, name in enumerate(unit_names):
         inert = bool(stats.inert[u])
@@ -272,7 +272,7 @@ def _layer(info: LayerInfo, stats: _Stats, features: list[str]) -> LayerResult:
     nu_live = np.array([nus[u].estimate for u in np.flatnonzero(live)])
     # variance-weighted mean of nu = sum of all total indices / sum of variances, per randomization
     weighted = stats.total_sum[:, live].sum(axis=1) / stats.var[:, live].sum(axis=1) if live.any() else None
-    w = _interval(weighted)[0] if weighted is not None else None
+    w = intervals(weighted)[0] if weighted is not None else None
     q = (lambda p: float(np.quantile(nu_live, p))) if len(nu_live) else (lambda p: float("nan"))
     summary: dict[str, Any] = {
         "units": len(unit_names),
@@ -286,6 +286,47 @@ def _layer(info: LayerInfo, stats: _Stats, features: list[str]) -> LayerResult:
         "nu_weighted_ci_high": w.ci_high if w else float("nan"),
     }
     return LayerResult(info.name, info.op, tuple(info.shape), summary, units)
+
+
+def inputs_info(setup: Setup) -> list[dict[str, Any]]:
+    """Names, laws and units of the inputs, as the JSON report lists them."""
+    units = list(setup.spec.units) if setup.spec.units else [""] * len(setup.names)
+    return [
+        {"name": n, **law.to_dict(), **({"unit": u} if u else {})}
+        for n, law, u in zip(setup.names, setup.laws, units, strict=True)
+    ]
+
+
+def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
+    """The design of a run, as the JSON report records it."""
+    return {
+        "points": setup.design.points,
+        "replicates": setup.design.replicates,
+        "seed": setup.design.seed,
+        "sampler": setup.design.sampler,
+        "estimator": setup.estimator,
+        "evaluations": setup.evaluations,
+        "block": setup.block,
+        "interval": f"Student-t over {setup.design.replicates} independent randomizations, {LEVEL:.0%}",
+        "level": LEVEL,
+        "seconds": round(seconds, 3),
+    }
+
+
+def model_info(setup: Setup) -> dict[str, Any]:
+    """Where the model came from and its signature, as the JSON report records it."""
+    model = setup.model
+    info: dict[str, Any] = {
+        "source": model.source,
+        "format": model.format,
+        "input": {"name": model.input.name, "shape": list(model.input.shape)},
+        "outputs": [{"name": t.name, "shape": list(t.shape)} for t in model.outputs],
+    }
+    if setup.spec.title:
+        info["title"] = setup.spec.title
+    if setup.spec.output_units:
+        info["output_units"] = list(setup.spec.output_units)
+    return info
 
 
 def execute(
@@ -309,37 +350,12 @@ def execute(
         executor=executor,
     )
     seconds = time.perf_counter() - t0
-    outputs = _outputs(_Stats.of(accs[OUTPUTS], setup.design.sampler), setup.output_names, setup.names)
-    layers = [_layer(x, _Stats.of(accs["layer:" + x.name], setup.design.sampler), setup.names) for x in setup.layers]
-    model = setup.model
-    units = list(setup.spec.units) if setup.spec.units else [""] * len(setup.names)
-    inputs = [
-        {"name": n, **law.to_dict(), **({"unit": u} if u else {})}
-        for n, law, u in zip(setup.names, setup.laws, units, strict=True)
+    outputs = output_results(GroupStats.of(accs[OUTPUTS], setup.design.sampler), setup.output_names, setup.names)
+    layers = [
+        layer_result(x, GroupStats.of(accs["layer:" + x.name], setup.design.sampler), setup.names) for x in setup.layers
     ]
-    design = {
-        "points": setup.design.points,
-        "replicates": setup.design.replicates,
-        "seed": setup.design.seed,
-        "sampler": setup.design.sampler,
-        "estimator": setup.estimator,
-        "evaluations": setup.evaluations,
-        "block": setup.block,
-        "interval": f"Student-t over {setup.design.replicates} independent randomizations, {LEVEL:.0%}",
-        "level": LEVEL,
-        "seconds": round(seconds, 3),
-    }
-    info = {
-        "source": model.source,
-        "format": model.format,
-        "input": {"name": model.input.name, "shape": list(model.input.shape)},
-        "outputs": [{"name": t.name, "shape": list(t.shape)} for t in model.outputs],
-    }
-    if setup.spec.title:
-        info["title"] = setup.spec.title
-    if setup.spec.output_units:
-        info["output_units"] = list(setup.spec.output_units)
-    return AuditResult(info, inputs, design, outputs, layers, list(setup.notices))
+    design = design_info(setup, seconds)
+    return AuditResult(model_info(setup), inputs_info(setup), design, outputs, layers, list(setup.notices))
 
 
 def audit_model(

@@ -18,3 +18,13 @@ def bad_shape(x):
 
 
 NOT_CALLABLE = 3
+
+
+def additive6(x):
+    """Σ_j a_j x_j with a = (1, 2, 3, 1, 2, 3): additive, variance 28 under N(0, I)."""
+    return x @ np.array([1.0, 2.0, 3.0, 1.0, 2.0, 3.0])
+
+
+def additive6_plus_product(x):
+    """additive6 + 2 x0 x1 x2: adds a pure three-way term of variance 4 under N(0, I)."""
+    return additive6(x) + 2.0 * x[:, 0] * x[:, 1] * x[:, 2]

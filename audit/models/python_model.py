@@ -7,6 +7,8 @@ The callable takes an (n, d) float64 array and returns an array of shape
 from __future__ import annotations
 
 import importlib
+import os
+import sys
 from collections.abc import Callable, Sequence
 
 import numpy as np
@@ -25,6 +27,8 @@ def import_reference(ref: str, what: str = "Python reference") -> object:
             f"The {what} '{ref}' is not of the form 'package.module:name'. Write the "
             "importable module, a colon, then the attribute, e.g. 'model_zoo.greenhouse:simulate'."
         )
+    if os.getcwd() not in sys.path:  # the console script does not put the working folder on the path
+        sys.path.insert(0, os.getcwd())
     try:
         module = importlib.import_module(module_name)
     except Exception as exc:  # any import failure is the user's module

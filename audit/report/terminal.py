@@ -231,10 +231,7 @@ def _outputs_table(result: AuditResult, ascii_only: bool) -> _FittedTable:
     ]
     rows: list[list[str | Text]] = []
     for r in output_rows(result):
-        if r.nu.startswith("inert"):
-            nu = Text(r.nu, style="dim")
-        else:
-            nu = Text.assemble((r.nu, "bold"), " ", r.nu_interval)
+        nu = Text(r.nu, style="dim") if r.nu.startswith("inert") else Text.assemble((r.nu, "bold"), " ", r.nu_interval)
         rows.append([r.name, r.variance, nu, r.additive_share, r.leading])
     return _FittedTable(columns, rows, ascii_only)
 

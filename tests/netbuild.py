@@ -1,0 +1,293 @@
+"""Tiny networks for the model-backend tests, saved into a temporary folder.
+
+Torch networks are exported to ONNX (the TorchScript-based exporter, which
+needs no extra packages), TorchScript, ``torch.export`` programs (.pt2), state
+dicts and whole pickles. Hand-made ONNX graphs (built with ``onnx.helper``)
+cover operators one by one and the broken files the error tests need.
+"""
+
+from __future__ import annotations
+
+import warnings
+from pathlib import Path
+
+import numpy as np
+import onnx
+import torch
+from onnx import TensorProto, helper, numpy_helper
+from scipy.special import erf
+
+__all__ = [
+    "OPSET",
+    "TinyCNN",
+    "TinyMLP",
+    "export_all",
+    "ops_graph",
+    "ops_reference",
+    "save_onnx",
+    "two_input_graph",
+]
+
+OPSET = 17
+
+
+class TinyMLP(torch.nn.Module):
+    """d -> hidden (Tanh) -> hidden (ReLU) -> k; submodules ``net.0`` ... ``net.4``."""
+
+    def __init__(self, d: int = 3, hidden: int = 5, k: int = 2, inplace: bool = False) -> None:
+        super().__init__()
+        self.net = torch.nn.Sequential(
+            torch.nn.Linear(d, hidden),
+            torch.nn.Tanh(),
+            torch.nn.Linear(hidden, hidden),
+            torch.nn.ReLU(inplace=inplace),
+            torch.nn.Linear(hidden, k),
+        )
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        return self.net(x)
+
+
+class TinyCNN(torch.nn.Module):
+    """A (1, 8, 8) image -> conv (2 channels) -> ReLU -> pool -> Linear -> Sigmoid, d = 64."""
+
+    def __init__(self, channels: int = 2, k: int = 3) -> None:
+        super().__init__()
+        self.conv = torch.nn.Conv2d(1, channels, 3, padding=1)
+        self.act = torch.nn.ReLU()
+        self.pool = torch.nn.MaxPool2d(2)
+        self.fc = torch.nn.Linear(channels * 16, k)
+        self.out = torch.nn.Sigmoid()
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        h = self.pool(self.act(self.conv(x)))
+        h = h.reshape(h.shape[0], -1)  # exports as Shape/Gather/Concat/Reshape arithmetic
+        return self.out(self.fc(h))
+
+
+class TwiceReLU(torch.nn.Module):
+    """Uses one activation module twice (such a module is not offered as a layer)."""
+
+    def __init__(self, d: int = 3) -> None:
+        super().__init__()
+        self.a = torch.nn.Linear(d, 4)
+        self.b = torch.nn.Linear(4, 2)
+        self.act = torch.nn.ReLU()
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        return self.act(self.b(self.act(self.a(x))))
+
+
+class TwoInputs(torch.nn.Module):
+    """forward(a, b): not supported by netdim."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(3, 1)
+
+    def forward(self, a: torch.Tensor, b: torch.Tensor) -> torch.Tensor:
+        return self.lin(a + b)
+
+
+def seeded(cls: type[torch.nn.Module], seed: int = 0, **kwargs: object) -> torch.nn.Module:
+    """An instance of ``cls`` with weights drawn from a fixed seed, in eval mode."""
+    torch.manual_seed(seed)
+    return cls(**kwargs).eval()
+
+
+def export_all(
+    net: torch.nn.Module, example: torch.Tensor, folder: Path, stem: str = "net"
+) -> dict[str, Path]:
+    """Save ``net`` in every format netdim reads; return {kind: path}.
+
+    Kinds: ``onnx`` (dynamic batch), ``onnx_fixed`` (batch fixed at len(example)),
+    ``torchscript``, ``pt2`` (dynamic batch), ``pt2_fixed``, ``state_dict``,
+    ``pickle`` (whole module).
+    """
+    folder.mkdir(parents=True, exist_ok=True)
+    paths = {kind: folder / f"{stem}_{kind}{ext}" for kind, ext in _SUFFIXES.items()}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        axes = {"x": {0: "batch"}, "y": {0: "batch"}}
+        for key, dynamic in (("onnx", axes), ("onnx_fixed", None)):
+            torch.onnx.export(
+                net,
+                (example,),
+                str(paths[key]),
+                dynamo=False,
+                input_names=["x"],
+                output_names=["y"],
+                dynamic_axes=dynamic,
+                opset_version=OPSET,
+            )
+        torch.jit.script(net).save(str(paths["torchscript"]))
+        batch = torch.export.Dim("batch")
+        program = torch.export.export(net, (example,), dynamic_shapes=({0: batch},))
+        torch.export.save(program, str(paths["pt2"]))
+        torch.export.save(torch.export.export(net, (example,)), str(paths["pt2_fixed"]))
+        torch.save(net.state_dict(), paths["state_dict"])
+        torch.save(net, paths["pickle"])
+    return paths
+
+
+_SUFFIXES = {
+    "onnx": ".onnx",
+    "onnx_fixed": ".onnx",
+    "torchscript": ".pt",
+    "pt2": ".pt2",
+    "pt2_fixed": ".pt2",
+    "state_dict": ".pt",
+    "pickle": ".pt",
+}
+
+
+# -- hand-made ONNX graphs ------------------------------------------------------------------
+
+
+def save_onnx(graph: onnx.GraphProto, path: Path, opset: int = OPSET) -> Path:
+    model = helper.make_model(graph, opset_imports=[helper.make_opsetid("", opset)])
+    model.ir_version = 8
+    onnx.save(model, str(path))
+    return path
+
+
+def _init(name: str, array: np.ndarray) -> onnx.TensorProto:
+    return numpy_helper.from_array(np.asarray(array, dtype=np.float32), name)
+
+
+def ops_weights(seed: int = 0) -> dict[str, np.ndarray]:
+    """Weights of :func:`ops_graph`, float32."""
+    rng = np.random.default_rng(seed)
+    shapes = {"W": (2, 1, 3, 3), "B": (2,), "G": (6, 32), "g": (6,), "M": (6, 5), "m": (5,),
+              "P": (5, 3)}  # fmt: skip
+    return {k: rng.normal(size=s).astype(np.float32) * 0.5 for k, s in shapes.items()}
+
+
+def ops_graph(path: Path, seed: int = 0) -> Path:
+    """x (N,1,4,4) -> Conv -> Relu -> Flatten -> Gemm -> Tanh -> MatMul -> Add -> Sigmoid
+    -> Erf -> MatMul -> Softmax -> y (N,3). Hidden tensors are named after their op."""
+    w = ops_weights(seed)
+    nodes = [
+        helper.make_node("Conv", ["x", "W", "B"], ["conv"], pads=[1, 1, 1, 1]),
+        helper.make_node("Relu", ["conv"], ["relu"]),
+        helper.make_node("Flatten", ["relu"], ["flat"], axis=1),
+        helper.make_node("Gemm", ["flat", "G", "g"], ["gemm"], transB=1),
+        helper.make_node("Tanh", ["gemm"], ["tanh"]),
+        helper.make_node("MatMul", ["tanh", "M"], ["matmul"]),
+        helper.make_node("Add", ["matmul", "m"], ["add"]),
+        helper.make_node("Sigmoid", ["add"], ["sigmoid"]),
+        helper.make_node("Erf", ["sigmoid"], ["erf"]),
+        helper.make_node("MatMul", ["erf", "P"], ["logits"]),
+        helper.make_node("Softmax", ["logits"], ["y"], axis=-1),
+    ]
+    graph = helper.make_graph(
+        nodes,
+        "ops",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 1, 4, 4])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 3])],
+        [_init(k, v) for k, v in w.items()],
+    )
+    return save_onnx(graph, path)
+
+
+def ops_reference(x: np.ndarray, seed: int = 0) -> dict[str, np.ndarray]:
+    """Every tensor of :func:`ops_graph` computed with numpy in float64, flattened per row."""
+    w = {k: v.astype(np.float64) for k, v in ops_weights(seed).items()}
+    n = len(x)
+    img = np.pad(x.reshape(n, 4, 4), ((0, 0), (1, 1), (1, 1)))
+    conv = np.zeros((n, 2, 4, 4))
+    for c in range(2):  # cross-correlation, as ONNX Conv defines it
+        for i in range(3):
+            for j in range(3):
+                conv[:, c] += w["W"][c, 0, i, j] * img[:, i : i + 4, j : j + 4]
+        conv[:, c] += w["B"][c]
+    out = {"conv": conv.reshape(n, -1)}
+    out["relu"] = np.maximum(out["conv"], 0.0)
+    out["flat"] = out["relu"]
+    out["gemm"] = out["flat"] @ w["G"].T + w["g"]
+    out["tanh"] = np.tanh(out["gemm"])
+    out["matmul"] = out["tanh"] @ w["M"]
+    out["add"] = out["matmul"] + w["m"]
+    out["sigmoid"] = 1.0 / (1.0 + np.exp(-out["add"]))
+    out["erf"] = erf(out["sigmoid"])
+    out["logits"] = out["erf"] @ w["P"]
+    e = np.exp(out["logits"] - out["logits"].max(axis=1, keepdims=True))
+    out["y"] = e / e.sum(axis=1, keepdims=True)
+    return out
+
+
+def linear_graph(
+    path: Path, *, batch: int | str = "N", dtype: int = TensorProto.FLOAT
+) -> Path:
+    """y = x @ A + c for x (batch, 3), y (batch, 2); A = [[1,2],[3,4],[5,6]], c = [0.5, -1]."""
+    a = np.arange(1, 7, dtype=np.float32).reshape(3, 2)
+    c = np.array([0.5, -1.0], dtype=np.float32)
+    nodes = [
+        helper.make_node("MatMul", ["x", "A"], ["h"]),
+        helper.make_node("Add", ["h", "c"], ["y"]),
+    ]
+    inits = [_init("A", a), _init("c", c)]
+    if dtype != TensorProto.FLOAT:
+        nodes.insert(0, helper.make_node("Cast", ["x"], ["xf"], to=TensorProto.FLOAT))
+        nodes[1].input[0] = "xf"
+    graph = helper.make_graph(
+        nodes,
+        "linear",
+        [helper.make_tensor_value_info("x", dtype, [batch, 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, [batch, 2])],
+        inits,
+    )
+    return save_onnx(graph, path)
+
+
+def two_input_graph(path: Path) -> Path:
+    graph = helper.make_graph(
+        [helper.make_node("Add", ["a", "b"], ["y"])],
+        "two",
+        [
+            helper.make_tensor_value_info("a", TensorProto.FLOAT, ["N", 3]),
+            helper.make_tensor_value_info("b", TensorProto.FLOAT, ["N", 3]),
+        ],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 3])],
+    )
+    return save_onnx(graph, path)
+
+
+def unknown_op_graph(path: Path) -> Path:
+    graph = helper.make_graph(
+        [helper.make_node("Frobnicate", ["x"], ["y"], domain="org.example.nowhere")],
+        "custom",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 3])],
+    )
+    model = helper.make_model(
+        graph,
+        opset_imports=[
+            helper.make_opsetid("", OPSET),
+            helper.make_opsetid("org.example.nowhere", 1),
+        ],
+    )
+    model.ir_version = 8
+    onnx.save(model, str(path))
+    return path
+
+
+def external_data_graph(path: Path, location: str) -> Path:
+    """:func:`linear_graph`'s model with ``A`` stored in the file ``location`` (relative to
+    the model's folder; written there, wherever that is)."""
+    a = np.arange(1, 7, dtype=np.float32).reshape(3, 2)
+    target = path.parent / location
+    target.parent.mkdir(parents=True, exist_ok=True)
+    target.write_bytes(a.tobytes())
+    tensor = onnx.TensorProto(name="A", data_type=TensorProto.FLOAT, dims=[3, 2])
+    tensor.data_location = TensorProto.EXTERNAL
+    for key, value in (("location", location), ("offset", "0"), ("length", str(a.nbytes))):
+        tensor.external_data.add(key=key, value=value)
+    graph = helper.make_graph(
+        [helper.make_node("MatMul", ["x", "A"], ["h"]), helper.make_node("Add", ["h", "c"], ["y"])],
+        "external",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 2])],
+        [tensor, _init("c", np.array([0.5, -1.0]))],
+    )
+    return save_onnx(graph, path)
