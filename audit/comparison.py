@@ -199,6 +199,7 @@ def compare_models(
             so.estimator,
             progress=progress,
             feature_names=so.names,
+            dtype=so.dtype if so.dtype == sn.dtype else np.float64,
         )
     else:
         accs = {}
@@ -207,7 +208,13 @@ def compare_models(
                 engine.Group("layer:" + x.name, x.units, False) for x in st.layers
             ]
             part = engine.run(
-                st.evaluator(), st.design, st.groups, st.estimator, progress=progress, feature_names=st.names
+                st.evaluator(),
+                st.design,
+                st.groups,
+                st.estimator,
+                progress=progress,
+                feature_names=st.names,
+                dtype=st.dtype,
             )
             accs[tag] = part[OUTPUTS]
             for x in common:

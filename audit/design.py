@@ -33,6 +33,8 @@ __all__ = ["SAMPLERS", "Block", "Design", "resolve_seed", "round_points"]
 SAMPLERS = ("sobol", "mc")
 
 _MAXDIM = qmc.Sobol.MAXDIM
+#: Uniform points are kept in [EPS, 1 - EPS] before the inverse CDF (normal law: |x| ≤ 7.03 sd).
+EPS = 1e-12
 
 
 def round_points(n: int) -> int:
@@ -123,6 +125,7 @@ class Design:
         children = np.random.SeedSequence(self.seed).spawn(self.replicates)
         self._rep_seeds = [int(c.generate_state(1, np.uint64)[0]) for c in children]
         self._groups = _group_laws(self.laws)
+        self._engines: dict[tuple[int, int], qmc.Sobol] = {}
 
     def rep_seed(self, rep: int) -> int:
         """The int seed of randomization ``rep``."""
@@ -137,9 +140,26 @@ class Design:
             rng = np.random.default_rng([seed, start])
             return rng.random((n, 2 * self.d))
         if 2 * self.d <= _MAXDIM:
-            return _sobol_rows(2 * self.d, seed, start, n)
+            return self._sobol_rows(2 * self.d, seed, start, n)
         sa, sb = np.random.SeedSequence(seed).generate_state(2, np.uint64)
-        return np.hstack([_sobol_rows(self.d, int(sa), start, n), _sobol_rows(self.d, int(sb), start, n)])
+        return np.hstack([self._sobol_rows(self.d, int(sa), start, n), self._sobol_rows(self.d, int(sb), start, n)])
+
+    def _sobol_rows(self, dim: int, seed: int, start: int, n: int) -> np.ndarray:
+        """Rows of a seeded scrambled Sobol' engine; engines are kept, so consecutive blocks cost no rescrambling."""
+        engine = self._engines.get((dim, seed))
+        if engine is None or engine.num_generated > start:
+            engine = qmc.Sobol(dim, scramble=True, rng=np.random.default_rng(seed))
+            if len(self._engines) >= 4:  # one or two engines per randomization in use at a time
+                self._engines.clear()
+            self._engines[(dim, seed)] = engine
+        if engine.num_generated < start:
+            engine.fast_forward(start - engine.num_generated)
+        return engine.random(n)
+
+    def __getstate__(self) -> dict:
+        state = dict(self.__dict__)
+        state["_engines"] = {}  # engines are rebuilt where the design is sent (another process)
+        return state
 
     def block(self, rep: int, start: int, n: int) -> Block:
         """Rows ``[start, start + n)`` of A and B for randomization ``rep``."""
@@ -148,7 +168,12 @@ class Design:
         return Block(rep, start, x[:, : self.d], x[:, self.d :])
 
     def map(self, u: np.ndarray) -> np.ndarray:
-        """Map uniform points (n, d) or (n, 2d) through the laws, column by column."""
+        """Map uniform points (n, d) or (n, 2d) through the laws, column by column.
+
+        Points are clipped to ``[EPS, 1 - EPS]`` first: scrambled Sobol' coordinates are
+        multiples of 2^-30 and can be exactly 0, where an unbounded law's inverse CDF is infinite.
+        """
+        u = np.clip(u, EPS, 1 - EPS)
         x = np.empty_like(u)
         for law, cols in self._groups:
             c = cols if u.shape[1] == self.d else np.concatenate([cols, cols + self.d])
@@ -165,10 +190,3 @@ def _group_laws(laws: Sequence[Law]) -> list[tuple[Law, np.ndarray]]:
         groups.setdefault(key, []).append(j)
         first.setdefault(key, law)
     return [(first[k], np.array(v)) for k, v in groups.items()]
-
-
-def _sobol_rows(dim: int, seed: int, start: int, n: int) -> np.ndarray:
-    engine = qmc.Sobol(dim, scramble=True, rng=np.random.default_rng(seed))
-    if start:
-        engine.fast_forward(start)
-    return engine.random(n)

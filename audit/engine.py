@@ -45,8 +45,9 @@ Progress = Callable[[int, str], None]
 
 #: Default share of available memory a run may use for its blocks.
 MEMORY_SHARE = 0.25
-#: Largest block (points per task); smaller blocks give finer progress and checkpoints.
-MAX_BLOCK = 1 << 14
+#: Most model rows (points × rows per point) one task evaluates: bounds peak memory
+#: independently of N, and keeps progress and checkpoints fine-grained.
+MAX_ROWS = 1 << 16
 
 
 @dataclass(frozen=True)
@@ -114,9 +115,9 @@ def plan_block(points: int, d: int, units: int, estimator: str, budget: int | No
     """
     budget = int(budget if budget is not None else MEMORY_SHARE * available_memory())
     per = _bytes_per_point(d, units, estimator)
-    n = max(1, budget // per)
+    n = max(1, min(budget // per, MAX_ROWS // _rows_per_point(d, estimator)))
     n = 1 << (int(n).bit_length() - 1)
-    return int(min(n, points, MAX_BLOCK))
+    return int(min(n, points))
 
 
 def estimate_memory(design: Design, groups: Sequence[Group], estimator: str, block: int) -> int:
@@ -136,15 +137,14 @@ def make_tasks(points: int, replicates: int, block: int) -> list[Task]:
 
 
 def _stack_jansen(A: np.ndarray, B: np.ndarray) -> np.ndarray:
+    """Rows A, B, then A_B^{(j)} for j = 0..d-1, as one (n (d + 2), d) array."""
     n, d = A.shape
-    X = np.empty(((d + 2) * n, d))
-    X[:n] = A
-    X[n : 2 * n] = B
-    for j in range(d):
-        rows = X[(2 + j) * n : (3 + j) * n]
-        rows[:] = A
-        rows[:, j] = B[:, j]
-    return X
+    X = np.empty((d + 2, n, d), dtype=A.dtype)
+    X[0], X[1] = A, B
+    X[2:] = A
+    j = np.arange(d)
+    X[2 + j, :, j] = B.T
+    return X.reshape((d + 2) * n, d)
 
 
 def _check_finite(name: str, y: np.ndarray, X: np.ndarray, names: Sequence[str] | None) -> None:
@@ -172,12 +172,17 @@ def run_task(
     estimator: str,
     task: Task,
     feature_names: Sequence[str] | None = None,
+    dtype: type = np.float64,
 ) -> dict[str, Accumulator]:
-    """Evaluate one task and return one accumulator per group."""
+    """Evaluate one task and return one accumulator per group.
+
+    ``dtype`` is the type of the rows handed to the evaluator: float32 for a network
+    stored in float32 saves building (and casting) a float64 copy of every row.
+    """
     if estimator not in ESTIMATORS:
         raise ValueError(f"unknown estimator {estimator!r}; valid choices: {', '.join(ESTIMATORS)}.")
     block = design.block(task.rep, task.start, task.n)
-    A, B, n, d = block.A, block.B, block.n, design.d
+    A, B, n, d = block.A.astype(dtype, copy=False), block.B.astype(dtype, copy=False), block.n, design.d
     if estimator == "jansen":
         X = _stack_jansen(A, B)
     else:
@@ -271,6 +276,7 @@ def run(
     checkpoint_seconds: float = 30.0,
     feature_names: Sequence[str] | None = None,
     executor: Callable[[Sequence[Task]], object] | None = None,
+    dtype: type = np.float64,
 ) -> dict[str, list[Accumulator]]:
     """Run every task and merge accumulators per group and randomization.
 
@@ -290,6 +296,8 @@ def run(
         task fails) and resume from it when it exists.
     feature_names : sequence of str, optional
         For messages about non-finite values.
+    dtype : numpy float type
+        Type of the rows handed to the evaluator (see :func:`run_task`).
     executor : callable, optional
         Maps the pending tasks to an iterable of ``(task, accumulators)`` as they
         finish (e.g. a dask cluster); default runs them here, in order.
@@ -340,7 +348,7 @@ def run(
 
     def local(ts: Sequence[Task]):
         for t in ts:
-            yield t, run_task(evaluator, design, groups, estimator, t, feature_names)
+            yield t, run_task(evaluator, design, groups, estimator, t, feature_names, dtype)
 
     results = (executor or local)(pending)
     last_save = time.monotonic()

@@ -44,7 +44,7 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
-from scipy import stats
+from scipy import special, stats
 
 from .errors import UserError, suggest
 
@@ -107,7 +107,19 @@ class Law:
         return stats.triang(c=(mode - lo) / (hi - lo), loc=lo, scale=hi - lo)
 
     def ppf(self, u: np.ndarray) -> np.ndarray:
-        """Inverse CDF: map uniform points in (0, 1) to this law."""
+        """Inverse CDF: map uniform points in (0, 1) to this law.
+
+        The normal, lognormal and uniform laws call :func:`scipy.special.ndtri` (what
+        ``scipy.stats.norm.ppf`` computes) or an affine map directly, skipping the
+        frozen distribution's argument checks on this hot path.
+        """
+        p = self.params
+        if self.kind == "uniform":
+            return p["low"] + (p["high"] - p["low"]) * u
+        if self.kind == "normal":
+            return p["mean"] + p["sd"] * special.ndtri(u)
+        if self.kind == "lognormal":
+            return np.exp(p["log_mean"] + p["log_sd"] * special.ndtri(u))
         return self.dist.ppf(u)
 
     def quadrature(self, m: int) -> tuple[np.ndarray, np.ndarray]:

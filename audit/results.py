@@ -269,6 +269,12 @@ class AuditResult:
 
     kind = "audit"
 
+    def __rich__(self) -> Any:
+        """Render as the terminal report (rich consoles and Jupyter notebooks)."""
+        from .report.terminal import renderable
+
+        return renderable(self)
+
     def output(self, name: str) -> OutputResult:
         for o in self.outputs:
             if o.name == name:
@@ -430,6 +436,12 @@ class ComparisonResult:
     notices: list[str] = field(default_factory=list)
 
     kind = "comparison"
+
+    def __rich__(self) -> Any:
+        """Render as the comparison report (rich consoles and Jupyter notebooks)."""
+        from .report.comparison import renderable
+
+        return renderable(self)
 
     @property
     def passed(self) -> bool:

@@ -88,6 +88,11 @@ class Setup:
     spec: InputSpec
 
     @property
+    def dtype(self) -> type:
+        """Row type for the evaluator: float32 for networks stored in float32."""
+        return np.float32 if self.model.input.dtype == "float32" else np.float64
+
+    @property
     def evaluations(self) -> int:
         per = self.design.d + 2 if self.estimator == "jansen" else 2
         return self.design.points * self.design.replicates * per
@@ -348,6 +353,7 @@ def execute(
         checkpoint=checkpoint,
         feature_names=setup.names,
         executor=executor,
+        dtype=setup.dtype,
     )
     seconds = time.perf_counter() - t0
     outputs = output_results(GroupStats.of(accs[OUTPUTS], setup.design.sampler), setup.output_names, setup.names)

@@ -55,3 +55,9 @@ def test_round_points_and_seeds():
     assert resolve_seed(np.random.default_rng(1)) == resolve_seed(np.random.default_rng(1))
     with pytest.raises(ValueError):
         resolve_seed(-1)
+
+
+def test_a_zero_coordinate_maps_to_a_finite_value():
+    d = Design([Law("normal")], 4, 1, seed=1)
+    x = d.map(np.array([[0.0, 0.5], [1.0, 0.25]]))
+    assert np.all(np.isfinite(x))
