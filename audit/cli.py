@@ -80,6 +80,14 @@ def _add_design_options(p: argparse.ArgumentParser) -> None:
         help="'jansen' (every index, N(d+2) evaluations; default) or 'fast' (mean dimension only, 2N)",
     )
     g.add_argument("--checkpoint", metavar="PATH", help="save finished work there and resume from it")
+    g.add_argument(
+        "--memory-limit", type=float, metavar="GIB", help="memory the run may use (default: what is available)"
+    )
+    g.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        help="run the work on dask.distributed: 'local', 'local:N' (N worker processes) or a scheduler address",
+    )
 
 
 def _add_output_options(p: argparse.ArgumentParser) -> None:
@@ -124,15 +132,30 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--layers", default="activations", help="hidden layers to compare (same name and size in both)")
     c.add_argument("--output-map", metavar="OLD=NEW,...", help="pair outputs by name or index when they differ")
     c.add_argument("--top-k", type=_positive_int, default=3, help="size of the leading-input sets compared (3)")
-    c.add_argument("--independent", action="store_true",
-                   help="use independent points for the two sides (wider intervals; for checking the pairing)")
+    c.add_argument(
+        "--independent",
+        action="store_true",
+        help="use independent points for the two sides (wider intervals; for checking the pairing)",
+    )
     g = c.add_argument_group("gates (exit code 3 when one fails)")
-    g.add_argument("--max-dimension-rise", type=float, metavar="X",
-                   help="fail when any output's ν rises by more than X (judged on the interval's lower end)")
-    g.add_argument("--min-rank-agreement", type=float, metavar="T",
-                   help="fail when the Kendall τ of any output's total-index ranking falls below T")
-    g.add_argument("--max-index-shift", type=float, metavar="S",
-                   help="fail when any input's total index moves by more than S (interval end nearest 0)")
+    g.add_argument(
+        "--max-dimension-rise",
+        type=float,
+        metavar="X",
+        help="fail when any output's ν rises by more than X (judged on the interval's lower end)",
+    )
+    g.add_argument(
+        "--min-rank-agreement",
+        type=float,
+        metavar="T",
+        help="fail when the Kendall τ of any output's total-index ranking falls below T",
+    )
+    g.add_argument(
+        "--max-index-shift",
+        type=float,
+        metavar="S",
+        help="fail when any input's total index moves by more than S (interval end nearest 0)",
+    )
     _add_model_options(c)
     _add_output_options(c)
     _add_common(c)
@@ -311,9 +334,21 @@ def cmd_audit(args: argparse.Namespace) -> int:
         estimator=args.estimator,
         layers=args.layers,
         unit_detail=[n for item in args.unit_detail for n in item.split(",") if n],
+        memory_limit=None if args.memory_limit is None else int(args.memory_limit * 2**30),
     )
-    with _progress(args, setup.evaluations) as bar:
-        result = execute(setup, progress=bar.advance, checkpoint=args.checkpoint)
+    client = None
+    if getattr(args, "cluster", None):
+        from .cluster import connect
+
+        client = connect(args.cluster)
+    try:
+        with _progress(args, setup.evaluations) as bar:
+            result = execute(setup, progress=bar.advance, checkpoint=args.checkpoint, executor=client)
+    finally:
+        if client is not None:
+            client.close()
+            if args.cluster.startswith("local"):
+                client.cluster.close()
     _print_result(result, args)
     saved = _save(result, args)
     if saved is not None and not args.quiet and args.format == "text":
@@ -339,9 +374,19 @@ def cmd_compare(args: argparse.Namespace) -> int:
     total = 2 * round_points(max(args.points, 1)) * max(args.replicates, 1) * per
     with _progress(args, total) as bar:
         result = compare_models(
-            old, new, spec, points=args.points, replicates=args.replicates, seed=args.seed,
-            sampler=args.sampler, estimator=args.estimator, layers=args.layers, output_map=output_map,
-            gates=gates, top_k=args.top_k, paired=not args.independent,
+            old,
+            new,
+            spec,
+            points=args.points,
+            replicates=args.replicates,
+            seed=args.seed,
+            sampler=args.sampler,
+            estimator=args.estimator,
+            layers=args.layers,
+            output_map=output_map,
+            gates=gates,
+            top_k=args.top_k,
+            paired=not args.independent,
             progress=lambda n, ph: bar.advance(2 * n if not args.independent else n, ph),
         )
     _print_result(result, args)
@@ -421,11 +466,25 @@ def cmd_demo(args: argparse.Namespace) -> int:
 COMMANDS = {"audit": cmd_audit, "compare": cmd_compare, "layers": cmd_layers, "show": cmd_show, "demo": cmd_demo}
 
 
+def _interrupt_on_sigterm() -> None:
+    """Turn SIGTERM into KeyboardInterrupt, so a killed run saves its checkpoint first."""
+    import signal
+    import threading
+
+    if threading.current_thread() is threading.main_thread():
+
+        def handler(signum: int, frame: Any) -> None:
+            raise KeyboardInterrupt
+
+        signal.signal(signal.SIGTERM, handler)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run ``netdim``; return the exit code."""
     parser = build_parser()
     args = parser.parse_args(argv)
     debug = getattr(args, "debug", False)
+    _interrupt_on_sigterm()
     try:
         return COMMANDS[args.command](args)
     except UserError as exc:

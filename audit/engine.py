@@ -273,7 +273,7 @@ def run(
     block: int | None = None,
     progress: Progress | None = None,
     checkpoint: str | Path | None = None,
-    checkpoint_seconds: float = 30.0,
+    checkpoint_seconds: float = 2.0,
     feature_names: Sequence[str] | None = None,
     executor: Callable[[Sequence[Task]], object] | None = None,
     dtype: type = np.float64,
@@ -351,7 +351,7 @@ def run(
             yield t, run_task(evaluator, design, groups, estimator, t, feature_names, dtype)
 
     results = (executor or local)(pending)
-    last_save = time.monotonic()
+    last_save = -float("inf")  # the first finished task is saved at once
     try:
         for t, part in results:
             for g in groups:
@@ -365,7 +365,7 @@ def run(
                 progress(t.n * per_point, f"randomization {t.rep + 1}/{design.replicates}")
             if ckpt is not None and time.monotonic() - last_save > checkpoint_seconds:
                 ckpt.save(done, accs)
-                last_save = time.monotonic()
+                last_save = -float("inf")  # the first finished task is saved at once
     except BaseException:
         if ckpt is not None and done:
             ckpt.save(done, accs)

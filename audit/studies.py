@@ -98,17 +98,24 @@ class Setup:
         return self.design.points * self.design.replicates * per
 
     def evaluator(self) -> engine.Evaluator:
-        capture = [x.name for x in self.layers]
-        model = self.model
+        return ModelEvaluator(self.model, [x.name for x in self.layers])
 
-        def evaluate(x: np.ndarray) -> dict[str, np.ndarray]:
-            ev = model.evaluate(x, capture)
-            out = {OUTPUTS: ev.outputs}
-            for name in capture:
-                out["layer:" + name] = ev.hidden[name]
-            return out
 
-        return evaluate
+class ModelEvaluator:
+    """The engine's view of a model: rows -> ``{"outputs": ..., "layer:NAME": ...}``.
+
+    A plain class (not a closure) so that it pickles for other processes.
+    """
+
+    def __init__(self, model: Model, capture: Sequence[str]) -> None:
+        self.model, self.capture = model, list(capture)
+
+    def __call__(self, x: np.ndarray) -> dict[str, np.ndarray]:
+        ev = self.model.evaluate(x, self.capture)
+        out = {OUTPUTS: ev.outputs}
+        for name in self.capture:
+            out["layer:" + name] = ev.hidden[name]
+        return out
 
 
 def prepare(
@@ -341,7 +348,17 @@ def execute(
     checkpoint: str | None = None,
     executor: Any = None,
 ) -> AuditResult:
-    """Run a prepared audit and build its result."""
+    """Run a prepared audit and build its result.
+
+    ``executor`` runs the engine's tasks elsewhere: pass a ``dask.distributed.Client``
+    (see :mod:`audit.cluster`) or a callable as for :func:`audit.engine.run`.
+    """
+    if executor is not None and not callable(executor):
+        from .cluster import dask_executor
+
+        executor = dask_executor(
+            executor, setup.evaluator(), setup.design, setup.groups, setup.estimator, setup.names, setup.dtype
+        )
     t0 = time.perf_counter()
     accs = engine.run(
         setup.evaluator(),
@@ -378,6 +395,7 @@ def audit_model(
     progress: Callable[[int, str], None] | None = None,
     checkpoint: str | None = None,
     block: int | None = None,
+    executor: Any = None,
 ) -> AuditResult:
     """Audit a model: variance, mean dimension and Sobol' indices of every output and hidden unit.
 
@@ -397,6 +415,14 @@ def audit_model(
     layers : {"activations", "all", "none"} or list of str
     unit_detail : list of str
         Layers whose units also get per-input total indices.
+    progress : callable, optional
+        ``progress(evaluations, phase)`` after each task.
+    checkpoint : str, optional
+        File that keeps finished work; a rerun with the same arguments resumes from it.
+    block : int, optional
+        Points per task (default: from the memory budget).
+    executor : dask.distributed.Client, optional
+        Run the tasks on a cluster (:mod:`audit.cluster`); same answer up to rounding.
 
     Returns
     -------
@@ -419,7 +445,7 @@ def audit_model(
         unit_detail=unit_detail,
         block=block,
     )
-    return execute(setup, progress=progress, checkpoint=checkpoint)
+    return execute(setup, progress=progress, checkpoint=checkpoint, executor=executor)
 
 
 def _model_options(spec: InputSpec) -> dict[str, Any]:

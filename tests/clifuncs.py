@@ -28,3 +28,11 @@ def additive6(x):
 def additive6_plus_product(x):
     """additive6 + 2 x0 x1 x2: adds a pure three-way term of variance 4 under N(0, I)."""
     return additive6(x) + 2.0 * x[:, 0] * x[:, 1] * x[:, 2]
+
+
+def slow_sum(x):
+    """x0 + x1 x2, slowly (0.2 s a call): for checkpoint tests."""
+    import time
+
+    time.sleep(0.2)
+    return x[:, 0] + x[:, 1] * x[:, 2]

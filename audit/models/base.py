@@ -122,3 +122,13 @@ def index_names(prefix: str, shape: tuple[int, ...]) -> list[str]:
     if not shape:
         return [prefix]
     return [f"{prefix}[{','.join(map(str, idx))}]" for idx in np.ndindex(*shape)]
+
+
+def integer_output_error(source: str, name: str, dtype: str) -> str:
+    """The message for a model file whose output holds integers (labels, counts)."""
+    return (
+        f"The output '{name}' of '{source}' holds integers ({dtype}), such as class labels from an "
+        "argmax. Sobol' indices of a label measure which inputs flip the label, which is rarely what "
+        "is wanted: export the scores (logits or probabilities) instead, or wrap the model in a Python "
+        "function that returns floats if the integers are meaningful numbers."
+    )

@@ -23,7 +23,7 @@ import onnx
 import onnxruntime as ort
 
 from ..errors import UserError, suggest
-from .base import Evaluation, LayerInfo, TensorInfo, index_names
+from .base import Evaluation, LayerInfo, TensorInfo, index_names, integer_output_error
 
 __all__ = ["ACTIVATION_OPS", "OnnxModel"]
 
@@ -188,6 +188,12 @@ class OnnxModel:
 
     format = "onnx"
 
+    def __reduce__(self) -> tuple:
+        """Pickle as "open the same file again" (sessions do not pickle); see ``open.reopen``."""
+        from .open import reduce_by_reopening
+
+        return reduce_by_reopening(self)
+
     def __init__(self, path: str | os.PathLike[str], *, input_shape: Sequence[int] | None = None):
         self.path = Path(path)
         self.source = str(path)
@@ -276,6 +282,8 @@ class OnnxModel:
                     f"{value.dtype} and shape {value.shape}; netdim needs numeric outputs with a "
                     "batch axis first."
                 )
+            if value.dtype.kind in "iu":
+                raise UserError(integer_output_error(str(self.path), meta.name, str(value.dtype)))
             self.outputs.append(TensorInfo(meta.name, tuple(value.shape[1:]), str(value.dtype)))
 
     def _probe_rows(self) -> np.ndarray:

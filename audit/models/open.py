@@ -77,19 +77,46 @@ def open_model(
     if suffix == ".onnx":
         from .onnx_model import OnnxModel
 
-        return OnnxModel(path, input_shape=input_shape)
-    if suffix in (".pt", ".pth", ".pt2", ".ts", ".torchscript"):
+        model: Any = OnnxModel(path, input_shape=input_shape)
+    elif suffix in (".pt", ".pth", ".pt2", ".ts", ".torchscript"):
         from .torch_model import open_torch
 
-        return open_torch(
+        model = open_torch(
             path,
             torch_class=torch_class,
             torch_arguments=torch_arguments,
             trust=trust,
             input_shape=input_shape,
         )
+    else:
+        model = None
+    if model is not None:
+        # how to open it again elsewhere (another process or machine): see reopen()
+        model.open_args = {
+            "ref": str(path.resolve()), "torch_class": torch_class, "torch_arguments": torch_arguments,
+            "trust": trust, "input_shape": None if input_shape is None else tuple(input_shape),
+        }
+        return model
     raise UserError(
         f"netdim does not know the model format of '{ref}' (suffix '{suffix or 'none'}'). "
         "Supported: .onnx (ONNX), .pt / .pth (TorchScript or state dict), .pt2 (torch.export), "
         "or a Python reference 'package.module:function'."
     )
+
+
+def reopen(open_args: dict[str, Any]) -> Model:
+    """Open a model file again from the arguments it was first opened with.
+
+    File models pickle as a call to this function, so that a process of a
+    ``dask.distributed`` cluster opens its own session (sessions themselves do not pickle).
+    """
+    args = dict(open_args)
+    return open_model(args.pop("ref"), **args)
+
+
+def reduce_by_reopening(model: Any) -> tuple[Any, tuple[dict[str, Any]]]:
+    """``__reduce__`` of file models: reopen from ``model.open_args``."""
+    args = getattr(model, "open_args", None)
+    if args is None:
+        raise TypeError(f"{type(model).__name__} opened without open_model() cannot be sent to another process.")
+    return reopen, (args,)

@@ -45,7 +45,7 @@ import torch
 from torch.utils import _pytree as pytree
 
 from ..errors import UserError, suggest
-from .base import Evaluation, LayerInfo, TensorInfo, index_names
+from .base import Evaluation, LayerInfo, TensorInfo, index_names, integer_output_error
 from .python_model import import_reference
 
 __all__ = [
@@ -360,6 +360,12 @@ class TorchModel:
 
     format = "torch"
 
+    def __reduce__(self) -> tuple:
+        """Pickle as "open the same file again" (sessions do not pickle); see ``open.reopen``."""
+        from .open import reduce_by_reopening
+
+        return reduce_by_reopening(self)
+
     def __init__(
         self,
         path: Path,
@@ -382,6 +388,9 @@ class TorchModel:
         self.input = TensorInfo("x", tuple(input_shape), str(dtype).removeprefix("torch."))
         outs = self._probe_outputs()
         many = len(outs) > 1
+        for i, o in enumerate(outs):
+            if not (o.dtype.is_floating_point or o.dtype == torch.bool):
+                raise UserError(integer_output_error(str(path), f"y{i}" if many else "y", str(o.dtype)))
         self.outputs = [
             TensorInfo(
                 f"y{i}" if many else "y", tuple(o.shape[1:]), str(o.dtype).removeprefix("torch.")
