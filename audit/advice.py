@@ -58,7 +58,7 @@ from .advice_results import (
     RqmcGain,
     VarianceIdentity,
 )
-from .design import Design, resolve_seed
+from .design import Design
 from .errors import UserError
 from .estimators import Accumulator, t_interval
 from .inputs import InputSpec, Law
@@ -113,14 +113,16 @@ class AdvicePlan:
 
     ``evaluations`` is an estimate made before any run (it assumes ``nodes``
     Gauss nodes, ``min(top, d)`` candidates, one best candidate and one freeze
-    group; the pilot check may double the nodes).
+    group; the pilot check may halve or double the nodes).
     """
 
     setup: Setup
     top: int
+    max_candidates: int
     nodes: int
     tolerance: float
     node_cap: int
+    node_floor: int
     pilot: int
     freeze_threshold: float
     freeze_budget: float
@@ -134,7 +136,7 @@ class AdvicePlan:
         if d < 2:
             return s.evaluations
         per = d + 1 if s.estimator == "jansen" else 2
-        cands = min(self.top, d)
+        cands = min(self.top, d, self.max_candidates)
         pilot = self.pilot * 3 * self.nodes
         gain = max(self.gain_points, default=0) * r * (1 + self.nodes)
         return s.evaluations + cands * (pilot + n * r * per * self.nodes) + gain + n * r * 2
@@ -142,9 +144,11 @@ class AdvicePlan:
     def settings(self) -> dict[str, Any]:
         return {
             "top": self.top,
+            "max_candidates": self.max_candidates,
             "nodes": self.nodes,
             "tolerance": self.tolerance,
             "node_cap": self.node_cap,
+            "node_floor": self.node_floor,
             "pilot": self.pilot,
             "freeze_threshold": self.freeze_threshold,
             "freeze_budget": self.freeze_budget,
@@ -166,7 +170,9 @@ def _fraction(value: Any, name: str, high: float = 1.0) -> float:
     except (TypeError, ValueError):
         v = math.nan
     if not 0 < v <= high:
-        raise UserError(f"The advise setting `{name}` must be a number in (0, {high:g}], got {value!r}.")
+        raise UserError(
+            f"The advise setting `{name}` must be a number in (0, {high:g}], got {value!r}."
+        )
     return v
 
 
@@ -181,7 +187,9 @@ def _gain_points(points: Sequence[int]) -> tuple[int, ...]:
             f"256,1024,4096; got {','.join(map(str, pts))}."
         )
     if len(pts) < 2:
-        raise UserError("The RQMC gain needs at least two point counts to fit a slope, e.g. 256,4096.")
+        raise UserError(
+            "The RQMC gain needs at least two point counts to fit a slope, e.g. 256,4096."
+        )
     return pts
 
 
@@ -195,9 +203,11 @@ def prepare_advice(
     sampler: str = "sobol",
     estimator: str = "jansen",
     top: int = 3,
+    max_candidates: int = 8,
     nodes: int = 32,
     tolerance: float = 1e-3,
     node_cap: int = MAX_NODES,
+    node_floor: int = 4,
     pilot: int = 64,
     freeze_threshold: float = FREEZE_THRESHOLD,
     freeze_budget: float = FREEZE_BUDGET,
@@ -215,12 +225,19 @@ def prepare_advice(
         freeze confirmation (as for :func:`audit.studies.prepare`).
     top : int
         Inputs (largest total index first) tried for pre-integration, per output.
+    max_candidates : int
+        At most this many distinct inputs are integrated out in all (each costs
+        an audit of the pre-integrated model, which serves every output); with
+        many outputs they are taken rank by rank across the outputs.
     nodes : int
         Starting Gauss node count (1..256).
     tolerance : float
         Pilot check: largest accepted |f̃_m − f̃_2m| relative to the output's sd.
     node_cap : int
         Largest Gauss rule the pilot check may use (2..256).
+    node_floor : int
+        Smallest node count the pilot check may settle on when the starting
+        rule is more accurate than needed (see :func:`audit.quadrature.choose_nodes`).
     pilot : int
         Pilot points of the node check.
     freeze_threshold : float
@@ -241,10 +258,14 @@ def prepare_advice(
         For any setting that cannot work, saying which and why.
     """
     plan_top = _whole(top, "top", 0)
+    cands = _whole(max_candidates, "max_candidates", 0)
     plan_nodes = _whole(nodes, "nodes", 1, MAX_NODES)
     cap = _whole(node_cap, "node_cap", 2, MAX_NODES)
+    floor = _whole(node_floor, "node_floor", 1, MAX_NODES)
     if plan_nodes > cap:
-        raise UserError(f"The starting node count ({plan_nodes}) is above the node cap ({cap}); lower --nodes.")
+        raise UserError(
+            f"The starting node count ({plan_nodes}) is above the node cap ({cap}); lower --nodes."
+        )
     plan_pilot = _whole(pilot, "pilot", 2)
     tol = _fraction(tolerance, "tolerance")
     eps = _fraction(freeze_threshold, "freeze_threshold")
@@ -264,7 +285,9 @@ def prepare_advice(
     notices = list(setup.notices)
     if setup.design.d < 2:
         notices.append("The model has a single input: there is nothing to pre-integrate against.")
-    return AdvicePlan(setup, plan_top, plan_nodes, tol, cap, plan_pilot, eps, budget, gains, notices)
+    return AdvicePlan(
+        setup, plan_top, cands, plan_nodes, tol, cap, floor, plan_pilot, eps, budget, gains, notices
+    )
 
 
 # ----------------------------------------------------------------------------- helpers
@@ -317,7 +340,7 @@ def _prefix_means(
     seed: int,
     block: int,
 ) -> np.ndarray:
-    """Means of the first n points of R scrambled Sobol' sequences: shape (R, len(gain_points), k)."""
+    """Means of the first n of R scrambled Sobol' sequences: shape (R, len(gain_points), k)."""
     n_max = max(gain_points)
     out = []
     for child in np.random.SeedSequence(seed).spawn(replicates):
@@ -336,11 +359,25 @@ def _prefix_means(
     return np.array(out)
 
 
-def _slope(points: Sequence[int], variances: np.ndarray) -> float:
+def _fit(points: Sequence[int], variances: np.ndarray) -> tuple[float, float]:
+    """Least-squares line of log variance on log n: (slope, intercept); NaN with < 2 points."""
     ok = np.isfinite(variances) & (variances > 0)
     if ok.sum() < 2:
+        return math.nan, math.nan
+    slope, intercept = np.polyfit(np.log(np.asarray(points, float)[ok]), np.log(variances[ok]), 1)
+    return float(slope), float(intercept)
+
+
+def _equal_cost_ratio(
+    points: Sequence[int], before: np.ndarray, after: np.ndarray, cost: int
+) -> float:
+    """Fitted variance of f's estimate at n·cost points over f̃'s at n, for the largest n."""
+    sb, ib = _fit(points, before)
+    sa, ia = _fit(points, after)
+    if not all(math.isfinite(v) for v in (sb, ib, sa, ia)):
         return math.nan
-    return float(np.polyfit(np.log(np.asarray(points, float)[ok]), np.log(variances[ok]), 1)[0])
+    n = math.log(max(points))
+    return math.exp(ib + sb * (n + math.log(cost)) - (ia + sa * n))
 
 
 def _greedy_group(
@@ -361,9 +398,15 @@ def _greedy_group(
 
 
 def _freeze_pass(
-    model: Model, design: Design, groups: list[tuple[int, ...]], block: int, progress: Progress | None
+    model: Model,
+    design: Design,
+    groups: list[tuple[int, ...]],
+    block: int,
+    progress: Progress | None,
 ) -> tuple[list[list[Accumulator]], int]:
-    """One pick-freeze pass: f(A) and f(A_B^{(u)}) for every group u; one accumulator per group and rep.
+    """One pick-freeze pass: f(A) and f(A_B^{(u)}) for every group u.
+
+    Returns one accumulator per group and randomization, and the evaluations made.
 
     Each :class:`~audit.estimators.Accumulator` is used with d = 1 and the
     group as its single "input": its total index is ½ E[(f(A) − f(A_B^{(u)}))²]
@@ -427,6 +470,7 @@ def _integrate(
         nodes=plan.nodes,
         tolerance=plan.tolerance,
         cap=plan.node_cap,
+        floor=plan.node_floor,
         pilot=plan.pilot,
         seed=_child_seed(seed, _PILOT, index),
         scale=scale,
@@ -437,7 +481,9 @@ def _integrate(
     pm = PreIntegratedModel(s.model, s.laws, index, check.nodes, feature_names=s.names)
     names = [n for j, n in enumerate(s.names) if j != index]
     laws = [law for j, law in enumerate(s.laws) if j != index]
-    spec = InputSpec(names=names, laws=laws, outputs=list(s.output_names), source=f"{name} integrated out")
+    spec = InputSpec(
+        names=names, laws=laws, outputs=list(s.output_names), source=f"{name} integrated out"
+    )
     sub = prepare(
         pm,
         spec,
@@ -453,7 +499,9 @@ def _integrate(
     return _Integrated(index, check, st, results, check.evaluations + sub.evaluations * pm.cost, pm)
 
 
-def _candidate(plan: AdvicePlan, main: GroupStats, k: int, total: Estimate, it: _Integrated) -> Candidate:
+def _candidate(
+    plan: AdvicePlan, main: GroupStats, k: int, total: Estimate, it: _Integrated
+) -> Candidate:
     s = plan.setup
     out = it.results[k]
     predicted = _estimate(main.var[:, k] - main.total[:, it.index, k])  # type: ignore[index]
@@ -497,7 +545,13 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
     s = plan.setup
     d, R = s.design.d, s.design.replicates
     seed = s.design.seed
-    phases = {"audit": s.evaluations, "node_check": 0, "preintegrated": 0, "gain": 0, "freeze_check": 0}
+    phases = {
+        "audit": s.evaluations,
+        "node_check": 0,
+        "preintegrated": 0,
+        "gain": 0,
+        "freeze_check": 0,
+    }
     main = _run(s, _scaled(progress, 1, "audit"))
     audits = output_results(main, list(s.output_names), s.names)
     notices = list(plan.notices)
@@ -507,9 +561,26 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
     tops: dict[int, list[int]] = {}
     for k in live:
         order = sorted(range(d), key=lambda j, k=k: -audits[k].total_index[j].value.estimate)
-        keep = [j for j in order if not audits[k].total_index[j].value.ci_high < plan.freeze_threshold]
+        keep = [
+            j for j in order if not audits[k].total_index[j].value.ci_high < plan.freeze_threshold
+        ]
         tops[k] = keep[: plan.top] if d >= 2 else []
-    union = list(dict.fromkeys(j for k in live for j in tops[k]))
+    # distinct inputs to integrate out, rank by rank across outputs, at most max_candidates
+    union: list[int] = []
+    for rank in range(plan.top):
+        for k in live:
+            if rank < len(tops[k]) and tops[k][rank] not in union:
+                if len(union) == plan.max_candidates:
+                    break
+                union.append(tops[k][rank])
+    dropped = {k: [j for j in tops[k] if j not in union] for k in live}
+    if any(dropped.values()):
+        skipped = sorted({s.names[j] for js in dropped.values() for j in js})
+        notices.append(
+            f"Only {plan.max_candidates} inputs were integrated out (max_candidates); "
+            f"not tried: {', '.join(skipped[:8])}{' ...' if len(skipped) > 8 else ''}."
+        )
+        tops = {k: [j for j in tops[k] if j in union] for k in live}
     scale = np.sqrt(np.maximum(main.var.mean(axis=0), 0.0))
     integrated: dict[int, _Integrated] = {}
     for j in union:
@@ -519,15 +590,18 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
         phases["preintegrated"] += it.evaluations - it.check.evaluations
         if not it.check.converged:
             notices.append(
-                f"Integrating {s.names[j]} out: the {it.check.nodes // 2}- and {it.check.nodes}-node "
-                f"rules still differ by {it.check.max_error:.2g} of the output sd (tolerance "
-                f"{plan.tolerance:g}); the {it.check.nodes}-node rule was used. The model is "
-                "probably not smooth in that input."
+                f"Integrating {s.names[j]} out: the {it.check.nodes // 2}- and "
+                f"{it.check.nodes}-node rules still differ by {it.check.max_error:.2g} of the "
+                f"output sd (tolerance {plan.tolerance:g}); the {it.check.nodes}-node rule was "
+                "used. The model is probably not smooth in that input."
             )
 
     candidates: dict[int, list[Candidate]] = {}
     for k in live:
-        cs = [_candidate(plan, main, k, audits[k].total_index[j].value, integrated[j]) for j in tops[k]]
+        cs = [
+            _candidate(plan, main, k, audits[k].total_index[j].value, integrated[j])
+            for j in tops[k]
+        ]
         candidates[k] = sorted(cs, key=_rank_key)
 
     # -- RQMC gain: f once, each distinct best candidate once
@@ -550,7 +624,9 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
             pm = integrated[j].model
             laws = [law for i, law in enumerate(s.laws) if i != j]
 
-            def evaluate_g(x: np.ndarray, pm: PreIntegratedModel = pm, feature: str = feature) -> np.ndarray:
+            def evaluate_g(
+                x: np.ndarray, pm: PreIntegratedModel = pm, feature: str = feature
+            ) -> np.ndarray:
                 if progress is not None:
                     progress(len(x) * pm.cost, f"RQMC gain with {feature} integrated out")
                 return pm.evaluate(x).outputs
@@ -565,20 +641,29 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
                     GainRow(int(n), float(var_before[i, k]), float(var_after[i, k]))
                     for i, n in enumerate(plan.gain_points)
                 ]
-                sb = _slope(plan.gain_points, var_before[:, k])
-                sa = _slope(plan.gain_points, var_after[:, k])
-                with np.errstate(invalid="ignore", divide="ignore"):
-                    ecr = float(var_before[-1, k] * pm.cost**sb / var_after[-1, k]) if math.isfinite(sb) else math.nan
-                gains[k] = RqmcGain(feature, pm.cost, R, rows, sb, sa, ecr, n_max * R, n_max * R * pm.cost)
+                sb = _fit(plan.gain_points, var_before[:, k])[0]
+                sa = _fit(plan.gain_points, var_after[:, k])[0]
+                ecr = _equal_cost_ratio(
+                    plan.gain_points, var_before[:, k], var_after[:, k], pm.cost
+                )
+                gains[k] = RqmcGain(
+                    feature, pm.cost, R, rows, sb, sa, ecr, n_max * R, n_max * R * pm.cost
+                )
 
     # -- freezing: greedy group per output, then one confirming pass for the distinct groups
     freeze_items: dict[int, list[FreezeItem]] = {}
     chosen: dict[int, tuple[list[int], Estimate, Estimate]] = {}
     for k in live:
-        below = [j for j in range(d) if audits[k].total_index[j].value.ci_high < plan.freeze_threshold]
+        below = [
+            j for j in range(d) if audits[k].total_index[j].value.ci_high < plan.freeze_threshold
+        ]
         below.sort(key=lambda j, k=k: audits[k].total_index[j].value.estimate)
-        group, bound, bound_n = _greedy_group(below, main.total[:, :, k], main.var[:, k], plan.freeze_budget)  # type: ignore[index]
-        freeze_items[k] = [FreezeItem(s.names[j], audits[k].total_index[j].value, j in group) for j in below]
+        group, bound, bound_n = _greedy_group(
+            below, main.total[:, :, k], main.var[:, k], plan.freeze_budget
+        )  # type: ignore[index]
+        freeze_items[k] = [
+            FreezeItem(s.names[j], audits[k].total_index[j].value, j in group) for j in below
+        ]
         if group and bound is not None and bound_n is not None:
             chosen[k] = (group, bound, bound_n)
     groups = list(dict.fromkeys(tuple(sorted(g)) for g, _, _ in chosen.values()))
@@ -596,7 +681,13 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
             with np.errstate(invalid="ignore", divide="ignore"):
                 mse_n = mse / var
             freeze_groups[k] = FreezeGroup(
-                [s.names[j] for j in group], bound, bound_n, _estimate(mse), _estimate(mse_n), plan.freeze_budget, n_eval
+                [s.names[j] for j in group],
+                bound,
+                bound_n,
+                _estimate(mse),
+                _estimate(mse_n),
+                plan.freeze_budget,
+                n_eval,
             )
 
     outputs = [
@@ -610,7 +701,10 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
         for k, o in enumerate(audits)
     ]
     design = design_info(s, time.perf_counter() - t0)
-    design["seeds"] = "each phase (pilot, pre-integrated audits, gain, freeze check) has its own seed derived from this one"
+    design["seeds"] = (
+        "each phase (pilot, pre-integrated audits, gain, freeze check) has its own seed "
+        "derived from this one"
+    )
     design["evaluations"] = int(sum(phases.values()))
     design["evaluations_by_phase"] = phases
     return AdviceResult(model_info(s), inputs_info(s), design, outputs, plan.settings(), notices)
@@ -678,6 +772,8 @@ def advise_function(
     spec = _inputs_spec(inputs)
     d = dim if dim is not None else spec.dim
     if d is None:
-        raise UserError("The number of inputs is unknown: pass dim=D or an InputSpec that lists the features.")
+        raise UserError(
+            "The number of inputs is unknown: pass dim=D or an InputSpec that lists the features."
+        )
     source = getattr(func, "__module__", "") + ":" + getattr(func, "__qualname__", repr(func))
     return advise_model(PythonModel(func, d, source=source), spec, **options)

@@ -199,9 +199,9 @@ class RqmcGain:
         Least-squares slope of log variance against log n (−1 is the Monte
         Carlo rate; steeper is better).
     equal_cost_ratio : float
-        Variance of f's estimate at n·nodes points, extrapolated along its
-        fitted line, over that of f̃'s at n points, at the largest n: the gain
-        at equal cost in model evaluations (an extrapolation).
+        At the largest n: the variance of f's estimate at n·nodes points over
+        that of f̃'s at n points, both read off their fitted lines (f's
+        extrapolated): the gain at equal cost in model evaluations.
     evaluations_before, evaluations_after : int
         Model evaluations made for f and for f̃ (the latter ``nodes`` times more per point).
     """
@@ -259,7 +259,11 @@ class FreezeItem:
     grouped: bool
 
     def to_dict(self) -> dict[str, Any]:
-        return {"feature": self.feature, "total_index": self.total_index.to_dict(), "grouped": self.grouped}
+        return {
+            "feature": self.feature,
+            "total_index": self.total_index.to_dict(),
+            "grouped": self.grouped,
+        }
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> FreezeItem:
@@ -297,8 +301,8 @@ class FreezeGroup:
 
     @property
     def holds(self) -> bool:
-        """True when the measured error is no larger than the bound's upper end."""
-        return self.measured_normalised.estimate <= self.bound_normalised.ci_high
+        """False only when the measured error's interval lies wholly above the bound's upper end."""
+        return not self.measured_normalised.ci_low > self.bound_normalised.ci_high
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -414,7 +418,9 @@ class AdviceResult:
     @property
     def audit(self) -> AuditResult:
         """The ordinary audit of the outputs that the advice starts from."""
-        return AuditResult(self.model, self.inputs, self.design, [o.audit for o in self.outputs], [], self.notices)
+        return AuditResult(
+            self.model, self.inputs, self.design, [o.audit for o in self.outputs], [], self.notices
+        )
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -434,7 +440,9 @@ class AdviceResult:
         if d.get("tool") != "netdim":
             raise ValueError('not a netdim report (missing "tool": "netdim")')
         if d.get("schema") != SCHEMA:
-            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
+            raise ValueError(
+                f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})"
+            )
         if d.get("kind") != KIND:
             raise ValueError(f"not an advice report (kind {d.get('kind')!r}, expected {KIND!r})")
         return cls(

@@ -160,6 +160,39 @@ def build_parser() -> argparse.ArgumentParser:
     _add_output_options(c)
     _add_common(c)
 
+    ad = sub.add_parser("advise", help="which inputs to pre-integrate (measured gain) and which to freeze")
+    ad.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
+    _add_design_options(ad)
+    ga = ad.add_argument_group("advice")
+    ga.add_argument("--top", type=_positive_int, default=3, help="pre-integration candidates tried per output (3)")
+    ga.add_argument("--nodes", type=_positive_int, default=32, help="starting Gauss nodes per pre-integration (32)")
+    ga.add_argument(
+        "--tolerance",
+        type=float,
+        default=1e-3,
+        help="largest quadrature error allowed, relative to the output's sd (0.001)",
+    )
+    ga.add_argument(
+        "--freeze-threshold",
+        type=float,
+        default=1e-3,
+        help="inputs whose total index stays below this (upper interval end) may be frozen (0.001)",
+    )
+    ga.add_argument(
+        "--freeze-budget",
+        type=float,
+        default=0.01,
+        help="largest mean squared error of freezing, as a share of the variance (0.01)",
+    )
+    ga.add_argument(
+        "--gain-points",
+        metavar="N,N,...",
+        help="point counts for the measured RQMC gain (default 256,...,16384; empty to skip)",
+    )
+    _add_model_options(ad)
+    _add_output_options(ad)
+    _add_common(ad)
+
     lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
     lay.add_argument("model", metavar="MODEL")
     lay.add_argument("--dim", type=_positive_int, help="number of inputs of a Python callable")
@@ -248,6 +281,14 @@ def _print_result(result, args: argparse.Namespace) -> None:
         print(json.dumps(result.to_dict(), indent=2))
         return
     kind = getattr(result, "kind", "audit")
+    if kind == "advice":
+        from .report.advice import advice_markdown, render_advice
+
+        if fmt == "markdown":
+            print(advice_markdown(result))
+        else:
+            render_advice(result, _console(False))
+        return
     if kind == "comparison":
         from .report.comparison import comparison_markdown, render_comparison
 
@@ -400,6 +441,43 @@ def cmd_compare(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_advise(args: argparse.Namespace) -> int:
+    from .advice import execute_advice, prepare_advice
+
+    spec = _spec(args)
+    model = _open(args, spec)
+    options: dict[str, Any] = {}
+    if args.gain_points is not None:
+        try:
+            options["gain_points"] = tuple(int(v) for v in args.gain_points.split(",") if v.strip())
+        except ValueError:
+            raise UserError(
+                f"--gain-points takes whole numbers separated by commas, got '{args.gain_points}'."
+            ) from None
+    plan = prepare_advice(
+        model,
+        spec,
+        points=args.points,
+        replicates=args.replicates,
+        seed=args.seed,
+        sampler=args.sampler,
+        estimator=args.estimator,
+        top=args.top,
+        nodes=args.nodes,
+        tolerance=args.tolerance,
+        freeze_threshold=args.freeze_threshold,
+        freeze_budget=args.freeze_budget,
+        **options,
+    )
+    with _progress(args, plan.evaluations) as bar:
+        result = execute_advice(plan, progress=bar.advance)
+    _print_result(result, args)
+    saved = _save(result, args)
+    if saved is not None and not args.quiet and args.format == "text":
+        print(f"Report saved to {saved}")
+    return EXIT_OK
+
+
 def cmd_layers(args: argparse.Namespace) -> int:
     from .report.signature import render_signature
 
@@ -411,6 +489,7 @@ def cmd_layers(args: argparse.Namespace) -> int:
 
 
 def cmd_show(args: argparse.Namespace) -> int:
+    from .advice_results import AdviceResult
     from .results import AuditResult, ComparisonResult
 
     path = Path(args.report)
@@ -418,7 +497,7 @@ def cmd_show(args: argparse.Namespace) -> int:
         raise UserError(f"The report '{args.report}' does not exist or is not a file.")
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
-        kinds = {"audit": AuditResult, "comparison": ComparisonResult}
+        kinds = {"audit": AuditResult, "comparison": ComparisonResult, "advice": AdviceResult}
         kind = data.get("kind", "audit") if isinstance(data, dict) else "audit"
         if kind not in kinds:
             raise ValueError(f"unknown report kind '{kind}'")
@@ -429,6 +508,14 @@ def cmd_show(args: argparse.Namespace) -> int:
         raise UserError(f"'{args.report}' is not a netdim report this version can read: {exc}.") from exc
     _print_result(result, args)
     return EXIT_OK
+
+
+def _short_path(p: Path) -> str:
+    """``p`` relative to the working folder when it lies below it."""
+    try:
+        return str(p.relative_to(Path.cwd()))
+    except ValueError:
+        return str(p)
 
 
 def cmd_demo(args: argparse.Namespace) -> int:
@@ -443,8 +530,8 @@ def cmd_demo(args: argparse.Namespace) -> int:
             f"The bundled greenhouse model is missing from {ZOO}. Reinstall netdim from its source "
             "folder, or rebuild the zoo with `python -m model_zoo.build`."
         )
-    spec = load_spec(spec_path)
-    model = open_model(str(model_path))
+    spec = load_spec(_short_path(spec_path))
+    model = open_model(_short_path(model_path))
     setup = prepare(model, spec, points=args.points, replicates=args.replicates, seed=args.seed)
     with _progress(args, setup.evaluations) as bar:
         result = execute(setup, progress=bar.advance)
@@ -454,16 +541,24 @@ def cmd_demo(args: argparse.Namespace) -> int:
     if not args.quiet:
         if saved is not None:
             print(f"Report saved to {saved}")
+        v1, v2, sp = (_short_path(p) for p in (model_path, ZOO / "greenhouse_v2.onnx", spec_path))
         print(
-            "Next: compare with the retrained surrogate\n"
-            f"  netdim compare {model_path} {ZOO / 'greenhouse_v2.onnx'} --inputs {spec_path}\n"
+            "Next: compare with the retrained surrogate v2\n"
+            f"  netdim compare {v1} {v2} \\\n      --inputs {sp}\n"
             "or ask which inputs to pre-integrate or freeze\n"
-            f"  netdim advise {model_path} --inputs {spec_path}"
+            f"  netdim advise {v1} --inputs {sp}"
         )
     return EXIT_OK
 
 
-COMMANDS = {"audit": cmd_audit, "compare": cmd_compare, "layers": cmd_layers, "show": cmd_show, "demo": cmd_demo}
+COMMANDS = {
+    "audit": cmd_audit,
+    "compare": cmd_compare,
+    "advise": cmd_advise,
+    "layers": cmd_layers,
+    "show": cmd_show,
+    "demo": cmd_demo,
+}
 
 
 def _interrupt_on_sigterm() -> None:

@@ -63,7 +63,11 @@ def _check_index(index: int, d: int, names: Sequence[str] | None = None) -> int:
 
 
 def _check_nodes(nodes: int) -> int:
-    if isinstance(nodes, bool) or not isinstance(nodes, (int, np.integer)) or not 1 <= nodes <= MAX_NODES:
+    if (
+        isinstance(nodes, bool)
+        or not isinstance(nodes, (int, np.integer))
+        or not 1 <= nodes <= MAX_NODES
+    ):
         raise ValueError(f"nodes must be a whole number in 1..{MAX_NODES}, got {nodes!r}.")
     return int(nodes)
 
@@ -130,7 +134,10 @@ class PreIntegrated:
             raise TypeError("func must be callable or a model with an evaluate method.")
         z, w = self.laws[self.index].quadrature(self.nodes)
         keep = w > 0  # weights of far Gauss–Hermite nodes can underflow to 0
-        self.points, self.weights = np.asarray(z[keep], dtype=np.float64), np.asarray(w[keep], dtype=np.float64)
+        self.points, self.weights = (
+            np.asarray(z[keep], dtype=np.float64),
+            np.asarray(w[keep], dtype=np.float64),
+        )
         self.weights = self.weights / self.weights.sum()
 
     @property
@@ -153,7 +160,9 @@ class PreIntegrated:
     def _reduce(self, y: np.ndarray, n: int) -> np.ndarray:
         y = np.asarray(y, dtype=np.float64)
         if y.shape[0] != n * len(self.weights):
-            raise ValueError(f"the wrapped function returned {y.shape[0]} rows for {n * len(self.weights)}.")
+            raise ValueError(
+                f"the wrapped function returned {y.shape[0]} rows for {n * len(self.weights)}."
+            )
         if not np.all(np.isfinite(y)):
             bad = np.flatnonzero(~np.isfinite(y.reshape(len(y), -1)).all(axis=1))[0]
             z = self.points[bad % len(self.points)]
@@ -161,7 +170,8 @@ class PreIntegrated:
                 f"The model returned NaN or infinite values at a quadrature node of input "
                 f"#{self.index + 1} (node value {z:.6g}, one of {len(self.points)} Gauss nodes). "
                 "Pre-integration evaluates the model at the far nodes of the rule too: make the "
-                "model finite on the whole range of that input's law, use a bounded law, or fewer nodes."
+                "model finite on the whole range of that input's law, use a bounded law, or fewer "
+                "nodes."
             )
         yr = y.reshape(n, len(self.weights), *y.shape[1:])
         return np.tensordot(self.weights, yr, axes=([0], [1]))
@@ -171,7 +181,7 @@ class PreIntegrated:
         return [slice(s, min(s + per, n)) for s in range(0, n, per)]
 
     def __call__(self, x: np.ndarray) -> Any:
-        """Evaluate at (n, d − 1) rows: array (or dict of arrays) as the wrapped function returns."""
+        """Evaluate at (n, d − 1) rows; returns what the wrapped function returns for n rows."""
         x = np.asarray(x, dtype=np.float64)
         parts = []
         for s in self._chunks(len(x)):
@@ -227,13 +237,17 @@ class PreIntegratedModel(PreIntegrated):
         if not (hasattr(model, "evaluate") and hasattr(model, "input")):
             raise TypeError("model must implement the audit.models.base.Model protocol.")
         if model.input.units != len(laws):
-            raise ValueError(f"the model takes {model.input.units} inputs but {len(laws)} laws were given.")
+            raise ValueError(
+                f"the model takes {model.input.units} inputs but {len(laws)} laws were given."
+            )
         super().__init__(model, laws, index, nodes, max_rows=max_rows)
         self.model = model
         names = list(feature_names) if feature_names is not None else list(model.feature_names())
         self.integrated = names[self.index]
         self._names = names[: self.index] + names[self.index + 1 :]
-        self.source = f"{model.source} with {self.integrated} integrated out ({len(self.weights)} nodes)"
+        self.source = (
+            f"{model.source} with {self.integrated} integrated out ({len(self.weights)} nodes)"
+        )
         self.input = TensorInfo(model.input.name, (self.d - 1,), "float64")
         self.outputs = list(model.outputs)
         self.notices = list(getattr(model, "notices", []) or [])
@@ -270,7 +284,7 @@ def preintegrate(
     index: int,
     m: int = 32,
 ) -> PreIntegrated:
-    """Integrate input ``index`` out of a function, evaluator or model with an ``m``-node Gauss rule.
+    """Integrate input ``index`` out of a function, evaluator or model with an m-node Gauss rule.
 
     Parameters
     ----------
@@ -331,12 +345,14 @@ def _outputs_of(func: Callable[[np.ndarray], Any] | Model, X: np.ndarray) -> np.
     else:
         y = func(X)  # type: ignore[operator]
         if isinstance(y, Mapping):
-            y = np.concatenate([np.asarray(v, dtype=np.float64).reshape(len(X), -1) for v in y.values()], axis=1)
+            y = np.concatenate(
+                [np.asarray(v, dtype=np.float64).reshape(len(X), -1) for v in y.values()], axis=1
+            )
     return np.asarray(y, dtype=np.float64).reshape(len(X), -1)
 
 
 def pilot_points(laws: Sequence[Law], index: int, pilot: int, seed: int) -> np.ndarray:
-    """``pilot`` scrambled Sobol' points of the inputs other than ``index``, mapped through their laws."""
+    """``pilot`` scrambled Sobol' points of the inputs other than ``index``, through their laws."""
     others = [law for j, law in enumerate(laws) if j != index]
     u = qmc.Sobol(len(others), scramble=True, rng=np.random.default_rng(seed)).random(pilot)
     x = np.empty_like(u)
@@ -353,6 +369,7 @@ def choose_nodes(
     nodes: int = 32,
     tolerance: float = 1e-3,
     cap: int = MAX_NODES,
+    floor: int = 4,
     pilot: int = 64,
     seed: int = 0,
     scale: np.ndarray | None = None,
@@ -360,8 +377,12 @@ def choose_nodes(
     """Pick the Gauss node count for integrating input ``index`` out.
 
     On ``pilot`` points of the other inputs, the rules with m and 2m nodes
-    are compared; m doubles until the largest difference, relative to the
-    output's standard deviation, is below ``tolerance`` or 2m reaches ``cap``.
+    are compared, starting at m = ``nodes``. While the largest difference,
+    relative to the output's standard deviation, is ``tolerance`` or more, m
+    doubles until 2m reaches ``cap``. When the starting pair already agrees,
+    m halves (not below ``floor``) while the halved rule still agrees with
+    the one above it, so that smooth models are not charged for nodes they
+    do not need.
 
     Parameters
     ----------
@@ -374,14 +395,16 @@ def choose_nodes(
     tolerance : float
         Largest accepted relative difference between the m and 2m rules.
     cap : int
-        Largest rule evaluated (at most :data:`MAX_NODES`).
+        Largest rule evaluated (2..:data:`MAX_NODES`).
+    floor : int
+        Smallest m the halving may reach (at most ``nodes``).
     pilot : int
         Pilot points (rounded up to a power of two).
     seed : int
         Seed of the pilot's scrambled Sobol' points.
     scale : ndarray, optional
         Standard deviation of each output (default: estimated on the pilot, from
-        the finest rule's evaluations, which sample x_ℓ by quadrature).
+        the starting 2m rule's evaluations, which sample x_ℓ by quadrature).
 
     Returns
     -------
@@ -401,24 +424,37 @@ def choose_nodes(
     x = pilot_points(laws, index, pilot, seed)
     evaluations = 0
 
-    def rule(m: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    def rule(m: int) -> tuple[np.ndarray, np.ndarray]:
+        """f̃_m at the pilot points, (pilot, k), and the sd of f from this rule's evaluations."""
         nonlocal evaluations
         p = PreIntegrated(lambda X: _outputs_of(func, X), laws, index, m)
         y = _outputs_of(func, p.expand(x)).reshape(pilot, p.cost, -1)
         evaluations += pilot * p.cost
         mean = np.tensordot(p.weights, y, axes=([0], [1]))
-        second = np.tensordot(p.weights, y**2, axes=([0], [1]))
-        return mean, mean.mean(axis=0), second.mean(axis=0)
+        second = np.tensordot(p.weights, y**2, axes=([0], [1])).mean(axis=0)
+        return mean, np.sqrt(np.maximum(second - mean.mean(axis=0) ** 2, 0.0))
 
-    m = min(nodes, max(1, cap // 2))
-    coarse, mu, m2 = rule(m)
-    while True:
-        fine, mu, m2 = rule(2 * m)
-        sd = np.sqrt(np.maximum(m2 - mu**2, 0.0)) if scale is None else np.asarray(scale, dtype=float)
+    def gap(a: np.ndarray, b: np.ndarray) -> np.ndarray:
         with np.errstate(invalid="ignore", divide="ignore"):
-            err = np.where(sd > 0, np.max(np.abs(fine - coarse), axis=0) / np.where(sd > 0, sd, 1.0), 0.0)
+            return np.where(sd > 0, np.max(np.abs(a - b), axis=0) / np.where(sd > 0, sd, 1.0), 0.0)
+
+    m = min(nodes, cap // 2)
+    coarse, _ = rule(m)
+    fine, sd_pilot = rule(2 * m)
+    sd = sd_pilot if scale is None else np.asarray(scale, dtype=np.float64)
+    err = gap(fine, coarse)
+    if np.max(err) < tolerance:
+        while m // 2 >= max(1, min(floor, m)):
+            half, _ = rule(m // 2)
+            err_half = gap(half, coarse)
+            if not np.max(err_half) < tolerance:
+                break
+            m, coarse, err = m // 2, half, err_half
+        return NodeCheck(m, err, True, evaluations, sd)
+    while 4 * m <= cap:
+        m, coarse = 2 * m, fine
+        fine, _ = rule(2 * m)
+        err = gap(fine, coarse)
         if np.max(err) < tolerance:
             return NodeCheck(m, err, True, evaluations, sd)
-        if 4 * m > cap:
-            return NodeCheck(2 * m, err, False, evaluations, sd)
-        m, coarse = 2 * m, fine
+    return NodeCheck(2 * m, err, False, evaluations, sd)

@@ -322,6 +322,7 @@ def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
         "interval": f"Student-t over {setup.design.replicates} independent randomizations, {LEVEL:.0%}",
         "level": LEVEL,
         "seconds": round(seconds, 3),
+        **({"spec": setup.spec.source} if setup.spec.source.endswith(".toml") else {}),
     }
 
 

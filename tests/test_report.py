@@ -17,15 +17,19 @@ import sys
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from rich.console import Console
 
 from audit.report import RunProgress, audit_markdown, make_console, render_audit, renderable
 from audit.report.findings import (
     CAUTION,
+    LIST_LIMIT,
     SECTION_TITLES,
     derive_findings,
     fmt,
     fmt_count,
+    fmt_duration,
     fmt_interval,
     fmt_setting,
     share_bar,
@@ -135,9 +139,9 @@ def make_result() -> AuditResult:
     )
 
 
-def render_text(result: AuditResult, **kwargs) -> str:
+def render_text(result: AuditResult, width: int = 80, **kwargs) -> str:
     console = Console(
-        width=80, no_color=True, force_terminal=False, record=True, file=io.StringIO()
+        width=width, no_color=True, force_terminal=False, record=True, file=io.StringIO()
     )
     render_audit(result, console, **kwargs)
     return console.export_text()
@@ -151,7 +155,7 @@ def expected_numbers(
     result: AuditResult, outputs: list[OutputResult], threshold: float
 ) -> set[str]:
     """Every number the report should display, formatted with the report's own formatter."""
-    want = {fmt(result.design["seconds"]), fmt_count(result.design["evaluations"])}
+    want = {fmt_duration(result.design["seconds"]), fmt_count(result.design["evaluations"])}
     for o in result.outputs:
         want.add(fmt(o.variance.estimate))
         if o.mean_dimension is not None:
@@ -491,3 +495,303 @@ def test_single_randomization_and_fast_estimator():
     assert found["no_interval"].subjects == ("inside_temperature",)
     md = audit_markdown(result)
     assert "  - vent_opening triangular(0, 0.2, 1)" in md
+
+
+# ----------------------------------------------------------------------------- layout
+
+GREENHOUSE_INPUTS = [
+    "outside_temperature",
+    "solar_irradiance",
+    "vent_opening",
+    "pipe_temperature",
+    "outside_humidity",
+    "screen_closure",
+    "leaf_area_index",
+    "wind_speed",
+]
+LONG_OUTPUT = "inside_relative_humidity_averaged_over_the_whole_compartment"
+LONG_INPUT = "outside_relative_humidity_at_the_weather_station_on_the_roof"
+ONNX_LAYERS = [
+    "/body/body.1/Tanh_output_0",
+    "/features/features.1/Relu_output_0",
+    "/encoder/blocks.0/attention/softmax/Softmax_output_0",
+]
+
+
+def _named_output(name: str, features: list[str], rng: np.random.Generator) -> OutputResult:
+    totals = rng.dirichlet(np.ones(len(features))) * rng.uniform(1.02, 1.4)
+    firsts = totals * rng.uniform(0.6, 0.95, len(features))
+    nu = float(totals.sum())
+    return OutputResult(
+        name=name,
+        mean=_est(20.0, 0.1),
+        variance=_est(float(rng.uniform(1.0, 500.0)), 1.0),
+        mean_dimension=_est(nu, 0.01 * nu),
+        total_index=[
+            FeatureEstimate(f, _est(float(t), 0.03 * float(t)))
+            for f, t in zip(features, totals, strict=True)
+        ],
+        first_order=[
+            FeatureEstimate(f, _est(float(v), 0.005)) for f, v in zip(features, firsts, strict=True)
+        ],
+    )
+
+
+def named_result(
+    inputs: list[str], outputs: list[str], layers: list[str], seed: int = 5
+) -> AuditResult:
+    """A result with the given names; numbers drawn at random (presentation tests only)."""
+    rng = np.random.default_rng(seed)
+    return AuditResult(
+        model={"source": "model_zoo/greenhouse_v1.onnx", "format": "onnx"},
+        inputs=[{"name": n, "law": "uniform", "low": 0.0, "high": 1.0} for n in inputs],
+        design={"points": 1024, "replicates": 8, "seed": 3, "evaluations": 81920, "seconds": 0.026},
+        outputs=[_named_output(o, inputs, rng) for o in outputs],
+        layers=[
+            _layer(n, "Tanh", rng.uniform(1.0, 1.3 + 0.4 * k, 16), 0) for k, n in enumerate(layers)
+        ],
+    )
+
+
+def _tokens(expected: set[str]) -> set[str]:
+    """Single numbers inside the composite strings (intervals, quantile chains)."""
+    parts = set()
+    for s in expected:
+        parts |= {p for p in re.split(r"[\[\]]|, | / ", s) if p}
+    return parts
+
+
+def assert_whole(text: str, expected: set[str], width: int) -> None:
+    """Lines fit, carry no trailing spaces, and no expected number is split across lines."""
+    lines = text.splitlines()
+    assert max(len(line) for line in lines) <= width
+    assert not [line for line in lines if line != line.rstrip()]
+    split = sorted(t for t in _tokens(expected) if not any(t in line for line in lines))
+    assert not split
+
+
+def test_long_names_at_80_columns_appear_in_full_on_one_line():
+    result = named_result(
+        [*GREENHOUSE_INPUTS, LONG_INPUT], ["inside_temperature", LONG_OUTPUT], ONNX_LAYERS
+    )
+    text = render_text(result, all_outputs=True)
+    lines = text.splitlines()
+    expected = expected_numbers(result, result.outputs, THRESHOLD)
+    assert_whole(text, expected, 80)
+    # composite cells (intervals, quantile chains) stay whole on one line too
+    assert not sorted(s for s in expected if not any(s in line for line in lines))
+    names = [*GREENHOUSE_INPUTS, LONG_INPUT, "inside_temperature", LONG_OUTPUT, *ONNX_LAYERS]
+    assert not [n for n in names if not any(n in line for line in lines)]
+    # a long name on a line of its own is followed by its numbers, not folded into a cell
+    for layer in result.layers:
+        at = next(i for i, line in enumerate(lines) if line == layer.name)
+        assert fmt(layer.summary["nu_weighted"]) in lines[at + 1]
+
+
+def test_greenhouse_and_onnx_layer_names_read_well_at_80_and_use_the_room_at_120():
+    outputs = ["inside_temperature", "inside_humidity"]
+    result = named_result(GREENHOUSE_INPUTS, outputs, ONNX_LAYERS[:1])
+    for width in (80, 120):
+        text = render_text(result, width=width, all_outputs=True)
+        lines = text.splitlines()
+        assert_whole(text, expected_numbers(result, result.outputs, THRESHOLD), width)
+        # at 80 columns already, every ranked input sits on one line with its numbers
+        for o in result.outputs:
+            for f in o.total_index:
+                row = [line for line in lines if line.startswith(f.feature + " ")]
+                assert any(fmt(f.value.estimate) in line for line in row), (width, f.feature)
+    wide = render_text(result, width=120).splitlines()
+    for o in result.outputs:
+        leading = ", ".join(f.feature for f in o.ranked()[:3])
+        assert any(line.startswith(o.name) and leading in line for line in wide)
+    layer = result.layers[0]
+    assert any(
+        line.startswith(layer.name) and fmt(layer.summary["nu_weighted"]) in line for line in wide
+    )
+    # at 80 the leading inputs move to a line of their own under their output, unfolded
+    narrow = render_text(result, width=80).splitlines()
+    for o in result.outputs:
+        at = next(i for i, line in enumerate(narrow) if line.startswith(o.name + " "))
+        assert ", ".join(f.feature for f in o.ranked()[:3]) in narrow[at + 1]
+
+
+def test_absurdly_long_names_fold_only_on_lines_of_their_own():
+    absurd = "sensor_" + "_".join(f"segment{k}" for k in range(16))  # 150 characters
+    result = named_result([absurd, *GREENHOUSE_INPUTS[:3]], [absurd], [])
+    text = render_text(result)
+    expected = expected_numbers(result, result.outputs, THRESHOLD)
+    assert_whole(text, expected, 80)
+    lines = [line.strip() for line in text.splitlines()]
+    assert absurd in "".join(lines)  # folded, nothing lost
+    # the folded name's lines carry nothing but the name
+    pieces = [line for line in lines if line and line in absurd and len(line) > 20]
+    assert "".join(pieces[:2]) in absurd
+
+
+@pytest.mark.parametrize("width", [30, 44, 60])
+def test_narrow_consoles_keep_every_number_whole(width):
+    result = make_result()
+    text = render_text(result, width=width)
+    assert_whole(text, expected_numbers(result, result.outputs[:3], THRESHOLD), width)
+
+
+@settings(max_examples=25, deadline=None)
+@given(
+    width=st.integers(min_value=36, max_value=160),
+    lengths=st.lists(st.integers(min_value=1, max_value=70), min_size=3, max_size=6),
+)
+def test_any_width_and_name_lengths_keep_numbers_whole(width, lengths):
+    stems = "abcdefghijklmnopqrstuvwxyz_/."
+    names = [
+        f"{k}" + "".join(stems[(k * 7 + i) % len(stems)] for i in range(n))
+        for k, n in enumerate(lengths)
+    ]
+    result = named_result(names, names[:2], names[-1:], seed=len(names) + width)
+    text = render_text(result, width=width, all_outputs=True)
+    assert_whole(text, expected_numbers(result, result.outputs, THRESHOLD), width)
+
+
+def test_run_time_is_formatted_for_people():
+    # common practice, no source: two significant digits, then minutes and hours
+    assert fmt_duration(0.026) == "0.026 s"
+    assert fmt_duration(0.2340) == "0.23 s"
+    assert fmt_duration(2.4) == "2.4 s"
+    assert fmt_duration(48.4) == "48 s"
+    assert fmt_duration(72.0) == "1 min 12 s"
+    assert fmt_duration(59.7) == "1 min 0 s"
+    assert fmt_duration(3725.0) == "1 h 02 min"
+    assert fmt_duration(0.0004) == "under 0.001 s"
+    assert fmt_duration(math.nan) == "n/a" and fmt_duration(-1.0) == "n/a"
+    text = render_text(named_result(GREENHOUSE_INPUTS, ["y"], []))
+    assert "81,920 model evaluations in 0.026 s" in text
+
+
+# ----------------------------------------------------------------------------- findings (new)
+
+
+def _grid_result(freezable: dict[int, list[int]], n_out: int = 10, n_in: int = 64) -> AuditResult:
+    """Digits-like: ``freezable[k]`` lists the inputs below the threshold for output k."""
+    features = [f"pixel_{j // 8}_{j % 8}" for j in range(n_in)]
+    outputs = []
+    for k in range(n_out):
+        low = set(freezable.get(k, []))
+        totals = [2e-4 if j in low else 1.05 / (n_in - len(low)) for j in range(n_in)]
+        outputs.append(
+            OutputResult(
+                f"digit_{k}",
+                _est(0.0, 0.1),
+                _est(30.0, 1.0),
+                _est(1.08, 0.02),
+                [
+                    FeatureEstimate(f, _est(t, 0.1 * t))
+                    for f, t in zip(features, totals, strict=True)
+                ],
+                [
+                    FeatureEstimate(f, _est(0.95 * t, 1e-5))
+                    for f, t in zip(features, totals, strict=True)
+                ],
+            )
+        )
+    inputs = [{"name": f, "law": "uniform", "low": 0, "high": 16} for f in features]
+    design = {"points": 256, "replicates": 8}
+    model = {"source": "model_zoo/digits_cnn.onnx", "format": "onnx"}
+    return AuditResult(model, inputs, design, outputs)
+
+
+def test_findings_stay_short_for_many_outputs_and_inputs():
+    # 9 inputs freezable for some outputs only; input 7 for four outputs, input 56 for three
+    freezable = {0: [7, 15], 1: [7, 56], 2: [7, 0, 56], 3: [7, 63], 4: [56, 23], 5: [31], 6: [39],
+                 7: [47]}
+    result = _grid_result(freezable)
+    found = {f.kind: f for f in derive_findings(result)}
+    some = found["freezable_some"]
+    named = {f"pixel_{j // 8}_{j % 8}" for js in freezable.values() for j in js}
+    assert set(some.subjects) == named and len(named) == 9
+    listed = [n for n in named if n in some.text]
+    assert len(listed) == LIST_LIMIT
+    assert f"and {len(named) - LIST_LIMIT} more inputs" in some.text
+    assert "pixel_0_7 for 4 of 10 outputs" in some.text  # most outputs first
+    assert "pixel_7_0 for 3 of 10 outputs" in some.text
+    assert "freezable" not in found  # no input is freezable for every output
+    assert all(len(f.text) < 500 for f in found.values())
+    # freezing advice comes with the command to ask for it
+    assert found["next"].commands == ("netdim advise model_zoo/digits_cnn.onnx --inputs SPEC.toml",)
+
+
+def test_next_step_commands_follow_the_findings():
+    result = make_result()  # interactions, freezable inputs and a wide interval
+    found = {f.kind: f for f in derive_findings(result)}
+    advise = "netdim advise model_zoo/greenhouse_v1.onnx --inputs SPEC.toml"
+    assert found["next"].commands == (advise,)
+    assert "pre-integrate" in found["next"].text and "freezing" in found["next"].text
+    assert found["uncertain"].commands == (
+        "netdim audit model_zoo/greenhouse_v1.onnx --inputs SPEC.toml --points 4096",
+    )
+    text = render_text(result)
+    assert advise in [line.strip() for line in text.splitlines()]
+    assert f"`{advise}`" in audit_markdown(result)
+    # the spec file, when the run recorded it, replaces the placeholder (quoted for the shell)
+    spec = AuditResult(result.model, result.inputs, {**result.design, "spec": "my specs/g.toml"},
+                       result.outputs, result.layers)
+    assert derive_findings(spec)[-1].commands == (
+        "netdim advise model_zoo/greenhouse_v1.onnx --inputs 'my specs/g.toml'",
+    )
+    # standard normal inputs of a Python callable are reproduced by --law and --dim
+    normal = [{"name": i["name"], "law": "normal", "mean": 0.0, "sd": 1.0} for i in result.inputs]
+    py = AuditResult({"source": "pkg.mod:f", "format": "python"}, normal, result.design,
+                     result.outputs, result.layers)
+    assert derive_findings(py)[-1].commands == (
+        f"netdim advise pkg.mod:f --law normal --dim {N_FEATURES}",
+    )
+
+
+def test_estimates_below_one_are_flagged_as_noise_and_not_clamped():
+    nus = [0.97, 0.99, 1.1, 1.2, 1.3]  # 0.97 +- 0.01 lies below 1; 0.99 +- 0.01 reaches 1
+    layer = _layer("/body/body.0/Gemm_output_0", "Gemm", np.array(nus), inert=0)
+    base = make_result()
+    assert "below_one" not in {f.kind for f in derive_findings(base)}
+    result = AuditResult(base.model, base.inputs, base.design, base.outputs, [layer])
+    found = {f.kind: f for f in derive_findings(result)}
+    below = found["below_one"]
+    varying = sum(not o.inert for o in result.outputs) + len(nus)
+    assert f"for 2 of {varying} units, all in {layer.name}" in below.text
+    assert "1 interval lies entirely below 1" in below.text and f"lowest {fmt(0.97)}" in below.text
+    assert "N = 1,024 points" in below.text and "sampling noise" in below.text
+    text = render_text(result)
+    assert f"{fmt(0.97)} / " in text  # the layer's minimum, shown as estimated
+    assert squash(below.text) in squash(text)
+
+
+def test_depth_summary_also_when_nu_does_not_grow():
+    base = make_result()
+    flat = [
+        _layer("block1", "Relu", np.array([1.10, 1.15, 1.20]), 0),
+        _layer("block2", "Relu", np.array([1.12, 1.15, 1.18]), 0),
+    ]
+    result = AuditResult(base.model, base.inputs, base.design, base.outputs, flat)
+    kinds = {f.kind: f for f in derive_findings(result)}
+    assert "depth" not in kinds
+    assert kinds["depth_flat"].subjects == ("block1", "block2")
+    assert "does not grow with depth" in kinds["depth_flat"].text
+
+
+# ----------------------------------------------------------------------------- notebooks
+
+
+def test_results_render_through_the_rich_protocol():
+    result = make_result()
+    console = Console(record=True, width=100, file=io.StringIO(), no_color=True)
+    console.print(result)
+    text = console.export_text()
+    for key in ("header", "outputs", "layers", "findings"):
+        assert SECTION_TITLES[key] in text
+    assert max(len(line) for line in text.splitlines()) <= 100
+    missing = sorted(
+        s for s in expected_numbers(result, result.outputs[:3], THRESHOLD) if s not in text
+    )
+    assert not missing
+    # the hook is renderable(result) with defaults: same text as render_audit at that width
+    assert text == render_text(result, width=100)
+    again = Console(record=True, width=100, file=io.StringIO(), no_color=True)
+    again.print(renderable(result))
+    assert again.export_text() == text

@@ -34,13 +34,29 @@ common practice, no source: they are reading aids, not statistical tests.
     about eight the Student-t interval is wide and itself unreliable.
 ``DEPTH_GROWTH = 0.05``
     A hidden layer whose variance-weighted mean ν exceeds that of the layer
-    before it by more than 5 % marks growth of interaction order with depth.
+    before it by more than 5 % marks growth of interaction order with depth;
+    when no layer does, the report says that ν does not grow with depth.
+ν below 1
+    Any unit that varies has ν >= 1 (ν = Σ_u |u| σ²_u / σ² with |u| >= 1), so
+    an estimate below 1, or an interval lying entirely below 1, is sampling
+    noise at the current N. It is reported as estimated (never clamped) and
+    flagged.
+Next steps
+    Outputs dominated by interactions, and inputs that look freezable, lead to
+    a suggested ``netdim advise`` command (which inputs to pre-integrate, what
+    freezing costs); intervals too wide lead to a suggested rerun with four
+    times the points.
+
+Lists inside findings are capped at :data:`LIST_LIMIT` items (``"and N
+more"``), so the findings stay short however many outputs and inputs a model
+has.
 """
 
 from __future__ import annotations
 
 import itertools
 import math
+import shlex
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -52,8 +68,10 @@ __all__ = [
     "CAUTION",
     "DEFAULT_THRESHOLD",
     "DEPTH_GROWTH",
+    "GLUE",
     "GOOD_REPLICATES",
     "INTERACTION_NU",
+    "LIST_LIMIT",
     "MIN_REPLICATES",
     "NEARLY_ADDITIVE_NU",
     "SECTION_TITLES",
@@ -68,6 +86,7 @@ __all__ = [
     "describe_run",
     "fmt",
     "fmt_count",
+    "fmt_duration",
     "fmt_interval",
     "fmt_setting",
     "input_rows",
@@ -93,6 +112,8 @@ CAUTION = (
     "controls equipment, defer to the applicable codes and to qualified engineers."
 )
 
+GLUE = "\u00a0"  # a non-breaking space: renderers show it as a plain space
+
 SECTION_TITLES = {
     "header": "Model and run",
     "outputs": "Outputs at a glance",
@@ -109,7 +130,8 @@ _LAW_PARAMETERS = {
     "triangular": ("low", "mode", "high"),
 }
 _NOT_PARAMETERS = {"name", "law", "unit", "note"}
-_LIST_LIMIT = 6
+LIST_LIMIT = 5
+_CHAIN_LIMIT = 6
 
 
 # ----------------------------------------------------------------------------- numbers
@@ -173,6 +195,39 @@ def fmt_setting(x: Any) -> str:
     if _finite(x):
         return f"{float(x):.4g}"
     return str(x)
+
+
+def fmt_duration(seconds: Any) -> str:
+    """Format a duration for people: ``0.026 s``, ``2.4 s``, ``1 min 12 s``, ``2 h 05 min``.
+
+    Parameters
+    ----------
+    seconds : float
+        Wall-clock seconds; ``None``, NaN, infinities and negative values give ``"n/a"``.
+
+    Returns
+    -------
+    str
+        Two significant digits below ten seconds (``"under 0.001 s"`` below a
+        millisecond), whole seconds below a minute, minutes and seconds below an
+        hour, hours and minutes beyond.
+    """
+    if not _finite(seconds) or seconds < 0:
+        return "n/a"
+    x = float(seconds)
+    if x < 1e-3:
+        return "under 0.001 s"
+    if x < 9.95:
+        return f"{x:.2g} s"
+    whole = round(x)
+    if whole < 60:
+        return f"{whole} s"
+    if whole < 3600:
+        minutes, rest = divmod(whole, 60)
+        return f"{minutes} min {rest} s"
+    minutes = round(x / 60)
+    hours, rest = divmod(minutes, 60)
+    return f"{hours} h {rest:02d} min"
 
 
 def share_bar(fraction: float, width: int = BAR_WIDTH) -> str:
@@ -268,6 +323,9 @@ def describe_run(result: AuditResult) -> list[tuple[str, str]]:
     -------
     list of (str, str)
         Rows in display order; every notice gets its own ``"notice"`` row.
+        Numbers are joined to their labels and units by :data:`GLUE`
+        (a non-breaking space) so that wrapping never separates them; the
+        run time is formatted by :func:`fmt_duration`.
     """
     model = result.model or {}
     design = result.design or {}
@@ -276,18 +334,20 @@ def describe_run(result: AuditResult) -> list[tuple[str, str]]:
     rows = [("model", f"{source} ({form})" if form else source)]
     rows.append(("inputs", describe_inputs(result.inputs)))
 
+    # Non-breaking spaces (GLUE) keep a number with its label and unit when a line wraps;
+    # renderers turn them into plain spaces.
     parts = []
     if "points" in design:
-        parts.append(f"N = {fmt_count(design['points'])} points")
+        parts.append(f"N = {fmt_count(design['points'])} points".replace(" ", GLUE))
     if "replicates" in design:
         r = design["replicates"]
-        parts.append(f"R = {fmt_count(r)} randomization{'' if r == 1 else 's'}")
+        parts.append(f"R = {fmt_count(r)} randomization{'' if r == 1 else 's'}".replace(" ", GLUE))
     if "sampler" in design:
         parts.append(_SAMPLERS.get(str(design["sampler"]), str(design["sampler"])))
     if "estimator" in design:
         parts.append(_ESTIMATORS.get(str(design["estimator"]), str(design["estimator"])))
     if design.get("seed") is not None:
-        parts.append(f"seed {design['seed']}")
+        parts.append(f"seed{GLUE}{design['seed']}")
     if parts:
         rows.append(("design", ", ".join(parts)))
 
@@ -295,7 +355,7 @@ def describe_run(result: AuditResult) -> list[tuple[str, str]]:
     if "evaluations" in design:
         run.append(f"{fmt_count(design['evaluations'])} model evaluations")
     if _finite(design.get("seconds")):
-        run.append(f"in {fmt(design['seconds'])} s")
+        run.append(f"in {fmt_duration(design['seconds']).replace(' ', GLUE)}")
     if run:
         rows.append(("run", " ".join(run)))
     if design.get("interval"):
@@ -462,20 +522,23 @@ class Finding:
     ----------
     kind : str
         One of ``"inert"``, ``"additive"``, ``"interactions"``, ``"freezable"``,
-        ``"freezable_some"``, ``"uncertain"``, ``"no_interval"``, ``"depth"``,
-        ``"dead_units"``.
+        ``"freezable_some"``, ``"uncertain"``, ``"no_interval"``, ``"below_one"``,
+        ``"depth"``, ``"depth_flat"``, ``"dead_units"``, ``"next"``.
     text : str
         The sentence(s) shown to the user.
     subjects : tuple of str
         Outputs, inputs or layers the finding is about.
+    commands : tuple of str
+        Command lines suggested as the next step (shown on lines of their own).
     """
 
     kind: str
     text: str
     subjects: tuple[str, ...] = ()
+    commands: tuple[str, ...] = ()
 
 
-def _listing(items: Sequence[str], limit: int = _LIST_LIMIT) -> str:
+def _listing(items: Sequence[str], limit: int = LIST_LIMIT) -> str:
     if len(items) <= limit:
         return ", ".join(items)
     return ", ".join(items[:limit]) + f" and {len(items) - limit} more"
@@ -512,6 +575,140 @@ def _freezable(result: AuditResult, threshold: float) -> tuple[list[str], dict[s
     return everywhere, some
 
 
+def _freezable_some_text(some: dict[str, list[str]], n_outputs: int, threshold: float) -> str:
+    """Inputs freezable for some outputs only, grouped by input, most outputs first."""
+    by_input: dict[str, list[str]] = {}
+    for name, feats in some.items():
+        for x in feats:
+            by_input.setdefault(x, []).append(name)
+    order = sorted(by_input, key=lambda x: -len(by_input[x]))  # stable: input order on ties
+    items = []
+    for x in order[:LIST_LIMIT]:
+        outs = by_input[x]
+        where = ", ".join(outs) if len(outs) <= 2 else f"{len(outs)} of {n_outputs} outputs"
+        items.append(f"{x} for {where}")
+    rest = len(order) - len(items)
+    listed = "; ".join(items)
+    if rest:
+        listed += f"; and {rest} more input{'' if rest == 1 else 's'}"
+    noun = "input looks" if len(order) == 1 else "inputs look"
+    return (
+        f"{len(order)} {noun} freezable for some outputs only (total index below "
+        f"{fmt_setting(threshold)} for them, still needed by others): {listed}."
+    )
+
+
+def _input_option(result: AuditResult) -> str:
+    """The input options that reproduce this audit's laws, or a placeholder."""
+    spec = result.design.get("spec")
+    if spec:
+        return f"--inputs {shlex.quote(str(spec))}"
+    laws = {_describe_law(e) for e in result.inputs}
+    law = {"normal(0, 1)": "normal", "uniform(0, 1)": "uniform"}.get(next(iter(laws), ""))
+    if len(laws) == 1 and law:
+        dim = f" --dim {len(result.inputs)}" if result.model.get("format") == "python" else ""
+        return f"--law {law}{dim}"
+    return "--inputs SPEC.toml"
+
+
+def _command(result: AuditResult, verb: str, *extra: str) -> tuple[str, ...]:
+    """``netdim VERB MODEL INPUT-OPTIONS EXTRA...`` for this audit's model, if it has a source."""
+    source = (result.model or {}).get("source")
+    if not source:
+        return ()
+    return (" ".join(["netdim", verb, shlex.quote(str(source)), _input_option(result), *extra]),)
+
+
+def _chain(items: Sequence[tuple[str, float]]) -> str:
+    """``a 1.0 → b 1.2 → …``; long chains keep their ends."""
+    shown = [f"{n} {fmt(v)}" for n, v in items]
+    if len(shown) > _CHAIN_LIMIT:
+        cut = len(shown) - _CHAIN_LIMIT + 1
+        shown = [*shown[:3], f"… ({cut} more)", *shown[3 + cut :]]
+    return " → ".join(shown)
+
+
+def _below_one(result: AuditResult) -> Finding | None:
+    """Units (outputs or hidden units) whose ν estimate, or whole interval, is below 1."""
+    count, below_ci, total = 0, 0, 0
+    lowest: tuple[float, str] | None = None
+    where: list[str] = []
+    for o in _active(result):
+        nu = o.mean_dimension
+        total += 1
+        if _finite(nu.estimate) and nu.estimate < 1.0:
+            count += 1
+            below_ci += bool(_finite(nu.ci_high) and nu.ci_high < 1.0)
+            where.append(o.name)
+            if lowest is None or nu.estimate < lowest[0]:
+                lowest = (nu.estimate, o.name)
+    for layer in result.layers:
+        in_layer = 0
+        if layer.units:
+            for u in layer.units:
+                if u.inert or u.mean_dimension is None:
+                    continue
+                total += 1
+                e = u.mean_dimension
+                if _finite(e.estimate) and e.estimate < 1.0:
+                    in_layer += 1
+                    below_ci += bool(_finite(e.ci_high) and e.ci_high < 1.0)
+                    if lowest is None or e.estimate < lowest[0]:
+                        lowest = (e.estimate, layer.name)
+        else:  # summary only: the minimum tells whether any unit went below 1
+            low = layer.summary.get("nu_min")
+            if _finite(low) and low < 1.0:
+                in_layer = 1
+                if lowest is None or low < lowest[0]:
+                    lowest = (low, layer.name)
+        count += in_layer
+        if in_layer:
+            where.append(layer.name)
+    if lowest is None:
+        return None
+    points = result.design.get("points")
+    at = f"N = {fmt_count(points)} points" if _finite(points) else "this N"
+    units = f"{count} of {fmt_count(total)} units" if total else "some units"
+    place = f"all in {where[0]}" if len(where) == 1 else f"in {_listing(where)}"
+    lowest_at = "" if len(where) == 1 else f" in {lowest[1]}"
+    intervals = (
+        f"; {below_ci} interval{'s lie' if below_ci != 1 else ' lies'} entirely below 1"
+        if below_ci
+        else ""
+    )
+    return Finding(
+        "below_one",
+        f"ν estimated below 1 for {units}, {place} (lowest {fmt(lowest[0])}{lowest_at}"
+        f"{intervals}). A unit that varies has ν ≥ 1 by definition, so this is sampling noise "
+        f"at {at}; the numbers are shown as estimated. More points narrow it.",
+        tuple(where),
+    )
+
+
+def _depth(result: AuditResult) -> Finding | None:
+    layers = [(ly.name, ly.summary.get("nu_weighted")) for ly in result.layers]
+    layers = [(n, float(v)) for n, v in layers if _finite(v)]
+    if len(layers) < 2:
+        return None
+    steps = [(a, b) for a, b in itertools.pairwise(layers) if b[1] > a[1] * (1.0 + DEPTH_GROWTH)]
+    if not steps:
+        return Finding(
+            "depth_flat",
+            f"Interaction order does not grow with depth (no layer more than "
+            f"{fmt_setting(100 * DEPTH_GROWTH)} % above the one before): ν (variance-weighted) "
+            f"{_chain(layers)}.",
+            tuple(n for n, _ in layers),
+        )
+    if len(steps) == len(layers) - 1:
+        text = f"Interaction order grows with depth: ν (variance-weighted) {_chain(layers)}."
+    else:
+        pairs = "; ".join(f"{a[0]} {fmt(a[1])} → {b[0]} {fmt(b[1])}" for a, b in steps[:3])
+        more = f"; and {len(steps) - 3} more" if len(steps) > 3 else ""
+        text = f"Interaction order grows between some layers: ν (variance-weighted) {pairs}{more}."
+    subjects = tuple(dict.fromkeys(n for step in steps for n, _ in step))
+    return Finding("depth", text, subjects)
+
+
 def derive_findings(result: AuditResult, *, threshold: float = DEFAULT_THRESHOLD) -> list[Finding]:
     """Plain-language findings derived from an audit's numbers.
 
@@ -527,8 +724,10 @@ def derive_findings(result: AuditResult, *, threshold: float = DEFAULT_THRESHOLD
     list of Finding
         In a fixed order: inert outputs, nearly additive outputs, outputs
         dominated by interactions, freezable inputs, intervals too wide for a
-        conclusion or missing, growth of ν with depth, constant hidden units. The rules are
-        listed in the module docstring (common practice, no source).
+        conclusion or missing, ν below 1 (sampling noise), ν against depth,
+        constant hidden units, and a suggested next step. The rules are listed
+        in the module docstring (common practice, no source). Lists are capped
+        at :data:`LIST_LIMIT` items.
     """
     out: list[Finding] = []
     active = _active(result)
@@ -590,12 +789,11 @@ def derive_findings(result: AuditResult, *, threshold: float = DEFAULT_THRESHOLD
             )
         )
     if some:
-        parts = "; ".join(f"{name}: {_listing(feats)}" for name, feats in some.items())
+        n_judged = sum(1 for o in active if o.total_index)
         out.append(
             Finding(
                 "freezable_some",
-                f"Freezable for some outputs only (total index below {fmt_setting(threshold)}), "
-                f"still needed by others: {parts}.",
+                _freezable_some_text(some, n_judged, threshold),
                 tuple(dict.fromkeys(x for feats in some.values() for x in feats)),
             )
         )
@@ -611,8 +809,10 @@ def derive_findings(result: AuditResult, *, threshold: float = DEFAULT_THRESHOLD
             if kind
             else "the randomized quasi-Monte Carlo error falls at least like 1/√N"
         )
+        rerun: tuple[str, ...] = ()
         if isinstance(points, int | float) and not isinstance(points, bool) and points > 0:
             more = f"N = {fmt_count(4 * int(points))} points instead of {fmt_count(int(points))}"
+            rerun = _command(result, "audit", f"--points {4 * int(points)}")
         else:
             more = "four times the current points"
         out.append(
@@ -622,6 +822,7 @@ def derive_findings(result: AuditResult, *, threshold: float = DEFAULT_THRESHOLD
                 f"{fmt_setting(100 * WIDE_INTERVAL)} % of the estimate): {_listing(names)}. "
                 f"Run with {more} to halve it: {rate}.",
                 tuple(o.name for o, _ in wide),
+                rerun,
             )
         )
 
@@ -637,18 +838,13 @@ def derive_findings(result: AuditResult, *, threshold: float = DEFAULT_THRESHOLD
             )
         )
 
-    layers = [(ly.name, ly.summary.get("nu_weighted")) for ly in result.layers]
-    layers = [(n, v) for n, v in layers if _finite(v)]
-    steps = [(a, b) for a, b in itertools.pairwise(layers) if b[1] > a[1] * (1.0 + DEPTH_GROWTH)]
-    if steps:
-        if len(steps) == len(layers) - 1:
-            chain = " → ".join(f"{n} {fmt(v)}" for n, v in layers)
-            text = f"Interaction order grows with depth: ν (variance-weighted) {chain}."
-        else:
-            pairs = "; ".join(f"{a[0]} {fmt(a[1])} → {b[0]} {fmt(b[1])}" for a, b in steps)
-            text = f"Interaction order grows between some layers: ν (variance-weighted) {pairs}."
-        subjects = tuple(dict.fromkeys(n for step in steps for n, _ in step))
-        out.append(Finding("depth", text, subjects))
+    below = _below_one(result)
+    if below is not None:
+        out.append(below)
+
+    depth = _depth(result)
+    if depth is not None:
+        out.append(depth)
 
     dead = []
     for layer in result.layers:
@@ -662,6 +858,24 @@ def derive_findings(result: AuditResult, *, threshold: float = DEFAULT_THRESHOLD
                 f"Hidden units constant under these input laws: {_listing([t for _, t in dead])}. "
                 "They carry no information for inputs in these ranges.",
                 tuple(n for n, _ in dead),
+            )
+        )
+
+    reasons = []
+    if interacting:
+        reasons.append("which input to pre-integrate to lower ν of the interacting outputs")
+    if everywhere or some:
+        reasons.append("what freezing the inputs above would cost")
+    advise = _command(result, "advise")
+    if reasons and advise:
+        out.append(
+            Finding(
+                "next",
+                f"Next step: netdim advise shows {' and '.join(reasons)}; after retraining, "
+                "netdim compare OLD NEW (same input options) tells whether ν or the ranking "
+                "moved beyond noise.",
+                (),
+                advise,
             )
         )
     return out

@@ -13,6 +13,7 @@ from ..results import AuditResult, OutputResult
 from .findings import (
     CAUTION,
     DEFAULT_THRESHOLD,
+    GLUE,
     SECTION_TITLES,
     derive_findings,
     describe_run,
@@ -29,7 +30,12 @@ _ESCAPES = str.maketrans({"\\": "\\\\", "|": "\\|", "*": "\\*", "`": "\\`", "<":
 
 
 def _esc(text: str) -> str:
-    return text.translate(_ESCAPES).replace("\n", " ")
+    return text.translate(_ESCAPES).replace("\n", " ").replace(GLUE, " ")
+
+
+def _code(command: str) -> str:
+    """A command as inline code (escaped text when it holds a backtick)."""
+    return f"`{command}`" if "`" not in command else _esc(command)
 
 
 def _table(header: Sequence[str], align: Sequence[str], rows: Sequence[Sequence[str]]) -> list[str]:
@@ -126,7 +132,9 @@ def audit_markdown(
     lines += [f"## {SECTION_TITLES['findings']}", ""]
     found = derive_findings(result, threshold=threshold)
     if found:
-        lines += [f"- {_esc(f.text)}" for f in found]
+        for f in found:
+            lines.append(f"- {_esc(f.text)}")
+            lines += [f"  - {_code(cmd)}" for cmd in f.commands]
     else:
         lines.append("Nothing stands out under the rules of thumb used here.")
     lines += ["", "---", "", f"> {CAUTION}", ""]

@@ -3,8 +3,10 @@
 :func:`renderable` turns an :class:`~audit.results.AuditResult` into one rich
 ``Group`` (usable as ``__rich__`` of the result, so notebooks and
 ``rich.print`` show it); :func:`render_audit` prints it on a console made by
-:func:`make_console`. The layout fits 80 columns: numeric cells never wrap,
-only names do.
+:func:`make_console`. Tables are :class:`~audit.report.layout.FitTable`s laid
+out for the console's width: numbers are never split, long names move to a
+line of their own, lists of leading inputs move under their row, and wider
+consoles keep everything on one line per row.
 
 Sections, in order: model and run, outputs at a glance, ranked inputs per
 output, hidden layers, findings, and a closing caution. Every number and
@@ -16,27 +18,19 @@ from __future__ import annotations
 
 import os
 import unicodedata
-from dataclasses import dataclass
 from typing import IO
 
-from rich import box
 from rich.cells import cell_len
-from rich.console import (
-    Console,
-    ConsoleOptions,
-    Group,
-    JustifyMethod,
-    RenderableType,
-    RenderResult,
-)
+from rich.console import Console, ConsoleOptions, Group, RenderableType, RenderResult
 from rich.rule import Rule
-from rich.table import Table
 from rich.text import Text
 
 from ..results import AuditResult, OutputResult
 from .findings import (
+    BAR_WIDTH,
     CAUTION,
     DEFAULT_THRESHOLD,
+    GLUE,
     SECTION_TITLES,
     derive_findings,
     describe_run,
@@ -46,6 +40,7 @@ from .findings import (
     output_heading,
     output_rows,
 )
+from .layout import Column, FitTable, Paragraph
 
 __all__ = ["make_console", "render_audit", "renderable"]
 
@@ -115,7 +110,7 @@ class _Title:
         if cell_len(self.text) + 4 <= options.max_width:
             yield Rule(title, align="left", style="dim", characters=_rule_char(self.ascii_only))
         else:
-            yield title
+            yield Paragraph(self.text, style="bold")
 
 
 def _rule_char(ascii_only: bool) -> str:
@@ -127,168 +122,129 @@ def _title(text: str, ascii_only: bool) -> _Title:
 
 
 def _t(text: str, ascii_only: bool) -> str:
-    """``text`` itself, or an ASCII stand-in (``ν`` -> ``nu``, ``²`` -> ``2``, ``é`` -> ``e``)."""
+    """``text`` itself, or an ASCII stand-in (``ν`` -> ``nu``, ``²`` -> ``2``, ``é`` -> ``e``).
+
+    Non-breaking spaces survive, so that the line wrapper still honours them.
+    """
     if not ascii_only or text.isascii():
         return text
+    if GLUE in text:  # keep the non-breaking spaces for the line wrapper
+        return GLUE.join(_t(part, True) for part in text.split(GLUE))
     decomposed = unicodedata.normalize("NFKD", text.translate(_ASCII))
     kept = "".join(c for c in decomposed if not unicodedata.combining(c))
     return kept.encode("ascii", "replace").decode("ascii")
 
 
-@dataclass(frozen=True)
-class _Column:
-    header: str
-    role: str = "fixed"  # "fixed": never wraps; "name": sized to fit, folds; "flex": the rest
-    justify: JustifyMethod = "right"
-    style: str = ""
-
-
-def _cell_width(cell: str | Text) -> int:
-    plain = cell.plain if isinstance(cell, Text) else cell
-    return max((cell_len(line) for line in plain.split("\n")), default=0)
-
-
-class _FittedTable:
-    """A table laid out at render time so that numeric cells never wrap.
-
-    ``fixed`` columns get their natural width; the ``name`` column gets what is
-    left (folding long names), after ``flex`` columns keep a minimum of 12
-    cells; ``flex`` columns then take the rest and wrap at spaces.
-    """
-
-    _FLEX_MIN = 12
-    _NAME_MIN = 6
-
-    def __init__(
-        self, columns: list[_Column], rows: list[list[str | Text]], ascii_only: bool
-    ) -> None:
-        self.columns, self.rows, self.ascii_only = columns, rows, ascii_only
-
-    def _flex_low(self, i: int, natural: int) -> int:
-        return min(natural, max(self._FLEX_MIN, _cell_width(self.columns[i].header)))
-
-    def _natural(self, i: int) -> int:
-        return max(_cell_width(c) for c in [self.columns[i].header, *(r[i] for r in self.rows)])
-
-    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
-        natural = [self._natural(i) for i in range(len(self.columns))]
-        roles = [c.role for c in self.columns]
-        # one cell of padding either side of each inner column edge, plus the divider
-        pads = 3 * (len(self.columns) - 1)
-        fixed = sum(w for w, r in zip(natural, roles, strict=True) if r == "fixed")
-        lows = [self._flex_low(i, natural[i]) for i in range(len(self.columns))]
-        flex_min = sum(low for low, r in zip(lows, roles, strict=True) if r == "flex")
-        room = options.max_width - fixed - pads
-        widths = list(natural)
-        for i, role in enumerate(roles):
-            if role == "name":
-                widths[i] = max(self._NAME_MIN, min(natural[i], room - flex_min))
-                room -= widths[i]
-        for i, role in enumerate(roles):
-            if role == "flex":
-                widths[i] = max(lows[i], min(natural[i], room))
-                room -= widths[i]
-        table = Table(
-            box=box.ASCII2 if self.ascii_only else box.SIMPLE_HEAD,
-            show_edge=False,
-            pad_edge=False,
-            padding=(0, 1),
-            header_style="bold",
-        )
-        depth = max(c.header.count("\n") for c in self.columns)
-        for col, width in zip(self.columns, widths, strict=True):
-            header = "\n" * (depth - col.header.count("\n")) + col.header  # align at the bottom
-            table.add_column(
-                _t(header, self.ascii_only),
-                justify=col.justify,
-                width=width,
-                no_wrap=col.role == "fixed",
-                overflow="fold",
-                style=col.style,
+def _header(result: AuditResult, ascii_only: bool) -> Group:
+    rows = describe_run(result)
+    width = max(cell_len(label) for label, _ in rows) + 1
+    return Group(
+        *(
+            Paragraph(
+                _t(text, ascii_only),
+                label.ljust(width),
+                prefix_style="bold",
+                style="yellow" if label == "notice" else "",
             )
-        for row in self.rows:
-            table.add_row(*(c if isinstance(c, Text) else _t(c, self.ascii_only) for c in row))
-        yield table
+            for label, text in rows
+        )
+    )
 
 
-def _header(result: AuditResult, ascii_only: bool) -> Table:
-    grid = Table.grid(padding=(0, 1))
-    grid.add_column(style="bold", no_wrap=True)
-    grid.add_column(overflow="fold")
-    for label, text in describe_run(result):
-        style = "yellow" if label == "notice" else ""
-        grid.add_row(label, Text(_t(text, ascii_only), style=style))
-    return grid
-
-
-def _outputs_table(result: AuditResult, ascii_only: bool) -> _FittedTable:
+def _outputs_table(result: AuditResult, ascii_only: bool) -> FitTable:
     columns = [
-        _Column("output", "name", "left"),
-        _Column("variance"),
-        _Column("ν and 95 % interval"),
-        _Column("additive\nshare"),
-        _Column("leading inputs", "flex", "left"),
+        Column("output", "left", kind="name"),
+        Column("variance"),
+        Column("ν and 95 % interval"),
+        Column("additive\nshare"),
+        Column("leading inputs", "left", kind="note"),
     ]
     rows: list[list[str | Text]] = []
     for r in output_rows(result):
-        nu = Text(r.nu, style="dim") if r.nu.startswith("inert") else Text.assemble((r.nu, "bold"), " ", r.nu_interval)
-        rows.append([r.name, r.variance, nu, r.additive_share, r.leading])
-    return _FittedTable(columns, rows, ascii_only)
+        inert = r.nu.startswith("inert")
+        nu = Text(r.nu, style="dim") if inert else Text.assemble((r.nu, "bold"), " ", r.nu_interval)
+        name, leading = _t(r.name, ascii_only), _t(r.leading, ascii_only)
+        rows.append([name, r.variance, nu, r.additive_share, leading])
+    return FitTable(_ascii_columns(columns, ascii_only), rows, ascii_only=ascii_only)
+
+
+def _ascii_columns(columns: list[Column], ascii_only: bool) -> list[Column]:
+    if not ascii_only:
+        return columns
+    return [Column(_t(c.header, True), c.justify, c.style, c.kind) for c in columns]
 
 
 def _inputs_block(output: OutputResult, threshold: float, ascii_only: bool) -> list[RenderableType]:
     parts: list[RenderableType] = [
         _title(SECTION_TITLES["inputs"].format(name=output.name), ascii_only),
-        Text(_t(output_heading(output), ascii_only)),
+        Paragraph(_t(output_heading(output), ascii_only)),
     ]
     if output.inert or output.mean_dimension is None:
         return parts
     if not output.total_index:
-        parts.append(Text(_t("this estimator measures ν only; no per-input indices", ascii_only)))
+        only = "this estimator measures ν only; no per-input indices"
+        parts.append(Paragraph(_t(only, ascii_only)))
         return parts
     rows, folded = input_rows(output, threshold)
     has_first = bool(output.first_order)
     columns = [
-        _Column("input", "name", "left"),
-        _Column("total index"),
-        _Column("95 % interval"),
-        _Column("size (0–1)", justify="left", style="cyan"),
+        Column("input", "left", kind="name"),
+        Column("total\nindex"),
+        Column("95 % interval"),
+        Column("size (0–1)", "left", style="cyan", kind="extra"),
     ]
     if has_first:
-        columns.append(_Column("first-order"))
+        columns.append(Column("first\norder"))
     cells: list[list[str | Text]] = [
         [
-            r.name,
+            _t(r.name, ascii_only),
             r.total,
             r.interval,
-            _t(r.bar, ascii_only).ljust(10),
+            _t(r.bar, ascii_only).ljust(BAR_WIDTH),
             *([r.first_order] * has_first),
         ]
         for r in rows
     ]
     if cells:
-        parts.append(_FittedTable(columns, cells, ascii_only))
+        parts.append(FitTable(_ascii_columns(columns, ascii_only), cells, ascii_only=ascii_only))
     if folded:
         parts.append(
-            Text(_t(f"… {folded} more below {fmt_setting(threshold)}", ascii_only), style="dim")
+            Paragraph(
+                _t(f"… {folded} more below {fmt_setting(threshold)}", ascii_only), style="dim"
+            )
         )
     return parts
 
 
-def _layers_table(result: AuditResult, ascii_only: bool) -> _FittedTable:
+def _layers_table(result: AuditResult, ascii_only: bool) -> FitTable:
+    a = ascii_only
     columns = [
-        _Column("layer", "name", "left"),
-        _Column("op", justify="left"),
-        _Column("units"),
-        _Column("inert"),
-        _Column("ν min / median / p90 / max"),
-        _Column("ν\nweighted"),
+        Column("layer", "left", kind="name"),
+        Column("op", "left"),
+        Column("units"),
+        Column("inert"),
+        Column("ν min / median / p90 / max"),
+        Column("ν\nweighted"),
     ]
     rows: list[list[str | Text]] = [
-        [r.name, r.op, r.units, r.inert, r.quantiles, Text(r.weighted, style="bold")]
+        [_t(r.name, a), r.op, r.units, r.inert, r.quantiles, Text(r.weighted, style="bold")]
         for r in layer_rows(result)
     ]
-    return _FittedTable(columns, rows, ascii_only)
+    return FitTable(_ascii_columns(columns, ascii_only), rows, ascii_only=ascii_only)
+
+
+def _findings(result: AuditResult, threshold: float, ascii_only: bool) -> list[RenderableType]:
+    found = derive_findings(result, threshold=threshold)
+    if not found:
+        return [Paragraph("Nothing stands out under the rules of thumb used here.")]
+    bullet = "* " if ascii_only else "• "
+    parts: list[RenderableType] = []
+    for f in found:
+        parts.append(Paragraph(_t(f.text, ascii_only), bullet, prefix_style="bold"))
+        parts += [
+            Paragraph(_t(cmd, ascii_only), style="bold cyan", indent=4) for cmd in f.commands
+        ]
+    return parts
 
 
 def renderable(
@@ -329,7 +285,7 @@ def renderable(
     if result.outputs:
         parts.append(_outputs_table(result, a))
     else:
-        parts.append(Text("no outputs recorded", style="dim"))
+        parts.append(Paragraph("no outputs recorded", style="dim"))
 
     shown = result.outputs if all_outputs else result.outputs[:max_outputs]
     for output in shown:
@@ -340,8 +296,9 @@ def renderable(
         noun = "output" if hidden == 1 else "outputs"
         parts.append(Text())
         parts.append(
-            Text(
-                _t(f"… {hidden} more {noun} not ranked here; ask for all outputs to see them.", a),
+            Paragraph(
+                _t(f"… {hidden} more {noun} not ranked here; --all-outputs (all_outputs=True) "
+                   "ranks them.", a),
                 style="dim",
             )
         )
@@ -349,22 +306,12 @@ def renderable(
     if result.layers:
         parts += [Text(), _title(SECTION_TITLES["layers"], a), _layers_table(result, a)]
 
-    parts += [Text(), _title(SECTION_TITLES["findings"], a)]
-    found = derive_findings(result, threshold=threshold)
-    if not found:
-        parts.append(Text("Nothing stands out under the rules of thumb used here."))
-    if found:
-        bullets = Table.grid(padding=(0, 1))
-        bullets.add_column(no_wrap=True, style="bold")
-        bullets.add_column(overflow="fold")
-        for f in found:
-            bullets.add_row("*" if a else "•", _t(f.text, a))
-        parts.append(bullets)
+    parts += [Text(), _title(SECTION_TITLES["findings"], a), *_findings(result, threshold, a)]
 
     parts += [
         Text(),
         Rule(style="dim", characters=_rule_char(a)),
-        Text(_t(CAUTION, a), style="italic"),
+        Paragraph(_t(CAUTION, a), style="italic"),
     ]
     return Group(*parts)
 
