@@ -307,6 +307,15 @@ def _print_result(result, args: argparse.Namespace) -> None:
     render_audit(result, _console(False), all_outputs=getattr(args, "all_outputs", False))
 
 
+def _finish(result, args: argparse.Namespace) -> Path | None:
+    """Print the report, then save its JSON (and say where)."""
+    _print_result(result, args)
+    saved = _save(result, args)
+    if saved is not None and not args.quiet and args.format == "text":
+        print(f"Report saved to {saved}")
+    return saved
+
+
 def _default_report_path(source: str) -> Path:
     stem = re.sub(r"[^A-Za-z0-9_.-]+", "_", Path(source.split(":")[-1]).stem or "model").strip("_") or "model"
     return Path("reports") / f"{stem}-{time.strftime('%Y%m%d-%H%M%S')}.json"
@@ -390,10 +399,7 @@ def cmd_audit(args: argparse.Namespace) -> int:
             client.close()
             if args.cluster.startswith("local"):
                 client.cluster.close()
-    _print_result(result, args)
-    saved = _save(result, args)
-    if saved is not None and not args.quiet and args.format == "text":
-        print(f"Report saved to {saved}")
+    _finish(result, args)
     return EXIT_OK
 
 
@@ -430,10 +436,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
             paired=not args.independent,
             progress=lambda n, ph: bar.advance(2 * n if not args.independent else n, ph),
         )
-    _print_result(result, args)
-    saved = _save(result, args)
-    if saved is not None and not args.quiet and args.format == "text":
-        print(f"Report saved to {saved}")
+    _finish(result, args)
     if not result.passed:
         failed = ", ".join(g.name for g in result.gates if not g.passed)
         print(f"netdim: gate failed: {failed}", file=sys.stderr)
@@ -471,10 +474,7 @@ def cmd_advise(args: argparse.Namespace) -> int:
     )
     with _progress(args, plan.evaluations) as bar:
         result = execute_advice(plan, progress=bar.advance)
-    _print_result(result, args)
-    saved = _save(result, args)
-    if saved is not None and not args.quiet and args.format == "text":
-        print(f"Report saved to {saved}")
+    _finish(result, args)
     return EXIT_OK
 
 

@@ -152,10 +152,34 @@ def test_killed_run_resumes_from_its_checkpoint_with_nothing_lost(tmp_path):
     import time
 
     ckpt = tmp_path / "run.npz"
-    args = [sys.executable, "-m", "audit", "audit", "clifuncs:slow_sum", "--dim", "3", "--law", "uniform",
-            "--points", "256", "--replicates", "12", "--seed", "9", "--checkpoint", str(ckpt), "--quiet"]
-    proc = subprocess.Popen([*args, "--json", str(tmp_path / "a.json")], env=ENV, cwd=ROOT,
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    args = [
+        sys.executable,
+        "-m",
+        "audit",
+        "audit",
+        "clifuncs:slow_sum",
+        "--dim",
+        "3",
+        "--law",
+        "uniform",
+        "--points",
+        "256",
+        "--replicates",
+        "12",
+        "--seed",
+        "9",
+        "--checkpoint",
+        str(ckpt),
+        "--quiet",
+    ]
+    proc = subprocess.Popen(
+        [*args, "--json", str(tmp_path / "a.json")],
+        env=ENV,
+        cwd=ROOT,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
     deadline = time.time() + 60
     while not ckpt.exists() and time.time() < deadline:
         time.sleep(0.05)
@@ -163,13 +187,47 @@ def test_killed_run_resumes_from_its_checkpoint_with_nothing_lost(tmp_path):
     proc.send_signal(signal.SIGKILL)  # no chance to clean up: only what was saved survives
     proc.wait(timeout=30)
     assert ckpt.exists()
-    resumed = subprocess.run([*args, "--json", str(tmp_path / "b.json")], env=ENV, cwd=ROOT, capture_output=True,
-                             text=True, timeout=120)
+    resumed = subprocess.run(
+        [*args, "--json", str(tmp_path / "b.json")], env=ENV, cwd=ROOT, capture_output=True, text=True, timeout=120
+    )
     assert resumed.returncode == 0, resumed.stderr
-    fresh = subprocess.run([*args[:-3], "--quiet", "--json", str(tmp_path / "c.json")], env=ENV, cwd=ROOT,
-                           capture_output=True, text=True, timeout=120)
+    fresh = subprocess.run(
+        [*args[:-3], "--quiet", "--json", str(tmp_path / "c.json")],
+        env=ENV,
+        cwd=ROOT,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert fresh.returncode == 0, fresh.stderr
     b, c = (json.loads((tmp_path / f).read_text()) for f in ("b.json", "c.json"))
     nb, nc = b["outputs"][0]["mean_dimension"], c["outputs"][0]["mean_dimension"]
     assert nb["estimate"] == pytest.approx(nc["estimate"], rel=1e-12)
     assert nb["ci_low"] == pytest.approx(nc["ci_low"], rel=1e-12)
+
+
+def test_advise_end_to_end_and_show(tmp_path):
+    out = tmp_path / "a.json"
+    p = netdim(
+        "advise",
+        "model_zoo.functions:ishigami",
+        "--inputs",
+        "model_zoo/ishigami.toml",
+        "--points",
+        "512",
+        "--seed",
+        "2",
+        "--gain-points",
+        "256,1024",
+        "--json",
+        str(out),
+    )
+    assert p.returncode == 0, p.stderr
+    rep = json.loads(out.read_text())
+    assert rep["kind"] == "advice"
+    cands = rep["outputs"][0]["preintegrate"]
+    assert cands and {"feature", "mean_dimension_after"} <= set(cands[0])
+    after = [c["mean_dimension_after"]["estimate"] for c in cands]
+    assert after == sorted(after)  # best first
+    again = netdim("show", str(out))
+    assert again.returncode == 0 and again.stdout.strip() in p.stdout

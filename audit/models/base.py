@@ -114,6 +114,14 @@ class Model(Protocol):
         ...
 
 
+def check_rows(x: np.ndarray, d: int) -> np.ndarray:
+    """``x`` as an array of shape (n, d), or a ValueError naming the shape expected."""
+    x = np.asarray(x)
+    if x.ndim != 2 or x.shape[1] != d:
+        raise ValueError(f"x must have shape (n, {d}), got {x.shape}.")
+    return x
+
+
 def index_names(prefix: str, shape: tuple[int, ...]) -> list[str]:
     """Names of the C-order flattened elements of a tensor: ``x[0,3,4]``.
 

@@ -23,7 +23,7 @@ import onnx
 import onnxruntime as ort
 
 from ..errors import UserError, suggest
-from .base import Evaluation, LayerInfo, TensorInfo, index_names, integer_output_error
+from .base import Evaluation, LayerInfo, TensorInfo, check_rows, index_names, integer_output_error
 
 __all__ = ["ACTIVATION_OPS", "OnnxModel"]
 
@@ -428,9 +428,7 @@ class OnnxModel:
         Evaluation
             Outputs (n, k) and the captured tensors (n, units), float64.
         """
-        x = np.asarray(x)
-        if x.ndim != 2 or x.shape[1] != self.input.units:
-            raise ValueError(f"x must have shape (n, {self.input.units}), got {x.shape}.")
+        x = check_rows(x, self.input.units)
         n = len(x)
         capture = tuple(dict.fromkeys(capture))
         if capture:

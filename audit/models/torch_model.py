@@ -45,7 +45,7 @@ import torch
 from torch.utils import _pytree as pytree
 
 from ..errors import UserError, suggest
-from .base import Evaluation, LayerInfo, TensorInfo, index_names, integer_output_error
+from .base import Evaluation, LayerInfo, TensorInfo, check_rows, index_names, integer_output_error
 from .python_model import import_reference
 
 __all__ = [
@@ -503,9 +503,7 @@ class TorchModel:
         Evaluation
             Outputs (n, k) and the captured layers (n, units), float64.
         """
-        x = np.asarray(x)
-        if x.ndim != 2 or x.shape[1] != self.input.units:
-            raise ValueError(f"x must have shape (n, {self.input.units}), got {x.shape}.")
+        x = check_rows(x, self.input.units)
         n = len(x)
         capture = tuple(dict.fromkeys(capture))
         if capture:
