@@ -41,7 +41,22 @@ def _write(tmp: Path, name: str, data: bytes | str) -> str:
     return str(p)
 
 
+def _future_torchscript(path: Path) -> Path:
+    """The zoo's TorchScript archive, its format version raised to one this torch cannot read."""
+    import zipfile
+
+    with zipfile.ZipFile(ZOO / "greenhouse_v1.pt") as zin, zipfile.ZipFile(path, "w") as zout:
+        for name in zin.namelist():
+            data = zin.read(name)
+            zout.writestr(name, b"99\n" if name.endswith("/version") else data)
+    return path
+
+
 CASES = {
+    "TorchScript from an incompatible torch": (
+        lambda t: ["audit", str(_future_torchscript(t / "future.pt"))],
+        "incompatible torch version",
+    ),
     "missing model file": (lambda t: ["audit", str(t / "nope.onnx")], "does not exist"),
     "folder instead of file": (lambda t: ["audit", str(t)], "is a folder"),
     "empty ONNX file": (lambda t: ["audit", _write(t, "e.onnx", b"")], "empty"),

@@ -431,9 +431,8 @@ def test_validation_exact_values_by_independent_method(name):
 
 
 def _audit_api():
-    audit = pytest.importorskip("audit")
-    if not all(hasattr(audit, n) for n in ("audit_model", "audit_function", "load_spec")):
-        pytest.skip("audit.audit_model / audit_function / load_spec are not available yet")
+    import audit
+
     return audit
 
 
@@ -448,7 +447,11 @@ def test_surrogate_ranks_inputs_like_the_simulator(name):
     for o_true, o_net in zip(truth.outputs, surrogate.outputs, strict=True):
         a = [f.value.estimate for f in o_true.total_index]
         b = [f.value.estimate for f in o_net.total_index]
-        assert stats.kendalltau(a, b).statistic >= 0.8, o_true.name
+        tau = stats.kendalltau(a, b).statistic
+        print(f"{name} / {o_true.name}: Kendall τ = {tau:.3f}")
+        print("  simulator:", [f.feature for f in o_true.ranked()])
+        print("  surrogate:", [f.feature for f in o_net.ranked()])
+        assert tau >= 0.8, o_true.name
 
 
 @pytest.mark.parametrize("name", VALIDATION_NETS)
