@@ -174,9 +174,8 @@ def test_spec_matches_model(name):
 
 
 def test_spec_files_parse_with_netdim():
-    audit = pytest.importorskip("audit")
-    if not hasattr(audit, "load_spec"):
-        pytest.skip("audit.load_spec is not available yet")
+    import audit
+
     for name, rec in MODELS.items():
         spec = audit.load_spec(ZOO / f"{name}.toml")
         assert spec.dim == math.prod(rec["input_shape"]), name
