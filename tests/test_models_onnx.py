@@ -61,7 +61,7 @@ def test_ops_graph_layers(ops_model: OnnxModel) -> None:
 
 
 def test_ops_graph_matches_numpy(ops_model: OnnxModel) -> None:
-    # reference: numpy transcription of the ONNX operator definitions (onnx.ai operator docs)
+    # reference: numpy re-implementation of the ONNX operator definitions (onnx.ai operator docs)
     x = RNG.normal(size=(37, 16))
     names = [layer.name for layer in ops_model.layers()]
     ev = ops_model.evaluate(x, capture=names)
