@@ -63,7 +63,6 @@ from .errors import UserError
 from .estimators import Accumulator, t_interval
 from .inputs import InputSpec, Law
 from .models.base import Model
-from .models.python_model import PythonModel
 from .quadrature import MAX_NODES, NodeCheck, PreIntegratedModel, choose_nodes
 from .results import Estimate, OutputResult
 from .studies import (
@@ -73,6 +72,7 @@ from .studies import (
     Setup,
     _inputs_spec,
     design_info,
+    function_model,
     inputs_info,
     model_info,
     output_results,
@@ -170,9 +170,7 @@ def _fraction(value: Any, name: str, high: float = 1.0) -> float:
     except (TypeError, ValueError):
         v = math.nan
     if not 0 < v <= high:
-        raise UserError(
-            f"The advise setting `{name}` must be a number in (0, {high:g}], got {value!r}."
-        )
+        raise UserError(f"The advise setting `{name}` must be a number in (0, {high:g}], got {value!r}.")
     return v
 
 
@@ -187,9 +185,7 @@ def _gain_points(points: Sequence[int]) -> tuple[int, ...]:
             f"256,1024,4096; got {','.join(map(str, pts))}."
         )
     if len(pts) < 2:
-        raise UserError(
-            "The RQMC gain needs at least two point counts to fit a slope, e.g. 256,4096."
-        )
+        raise UserError("The RQMC gain needs at least two point counts to fit a slope, e.g. 256,4096.")
     return pts
 
 
@@ -263,9 +259,7 @@ def prepare_advice(
     cap = _whole(node_cap, "node_cap", 2, MAX_NODES)
     floor = _whole(node_floor, "node_floor", 1, MAX_NODES)
     if plan_nodes > cap:
-        raise UserError(
-            f"The starting node count ({plan_nodes}) is above the node cap ({cap}); lower --nodes."
-        )
+        raise UserError(f"The starting node count ({plan_nodes}) is above the node cap ({cap}); lower --nodes.")
     plan_pilot = _whole(pilot, "pilot", 2)
     tol = _fraction(tolerance, "tolerance")
     eps = _fraction(freeze_threshold, "freeze_threshold")
@@ -285,9 +279,7 @@ def prepare_advice(
     notices = list(setup.notices)
     if setup.design.d < 2:
         notices.append("The model has a single input: there is nothing to pre-integrate against.")
-    return AdvicePlan(
-        setup, plan_top, cands, plan_nodes, tol, cap, floor, plan_pilot, eps, budget, gains, notices
-    )
+    return AdvicePlan(setup, plan_top, cands, plan_nodes, tol, cap, floor, plan_pilot, eps, budget, gains, notices)
 
 
 # ----------------------------------------------------------------------------- helpers
@@ -368,9 +360,7 @@ def _fit(points: Sequence[int], variances: np.ndarray) -> tuple[float, float]:
     return float(slope), float(intercept)
 
 
-def _equal_cost_ratio(
-    points: Sequence[int], before: np.ndarray, after: np.ndarray, cost: int
-) -> float:
+def _equal_cost_ratio(points: Sequence[int], before: np.ndarray, after: np.ndarray, cost: int) -> float:
     """Fitted variance of f's estimate at n·cost points over f̃'s at n, for the largest n."""
     sb, ib = _fit(points, before)
     sa, ia = _fit(points, after)
@@ -458,9 +448,7 @@ class _Integrated:
     model: PreIntegratedModel
 
 
-def _integrate(
-    plan: AdvicePlan, index: int, scale: np.ndarray, progress: Progress | None
-) -> _Integrated:
+def _integrate(plan: AdvicePlan, index: int, scale: np.ndarray, progress: Progress | None) -> _Integrated:
     s = plan.setup
     seed = s.design.seed
     check = choose_nodes(
@@ -481,9 +469,7 @@ def _integrate(
     pm = PreIntegratedModel(s.model, s.laws, index, check.nodes, feature_names=s.names)
     names = [n for j, n in enumerate(s.names) if j != index]
     laws = [law for j, law in enumerate(s.laws) if j != index]
-    spec = InputSpec(
-        names=names, laws=laws, outputs=list(s.output_names), source=f"{name} integrated out"
-    )
+    spec = InputSpec(names=names, laws=laws, outputs=list(s.output_names), source=f"{name} integrated out")
     sub = prepare(
         pm,
         spec,
@@ -499,9 +485,7 @@ def _integrate(
     return _Integrated(index, check, st, results, check.evaluations + sub.evaluations * pm.cost, pm)
 
 
-def _candidate(
-    plan: AdvicePlan, main: GroupStats, k: int, total: Estimate, it: _Integrated
-) -> Candidate:
+def _candidate(plan: AdvicePlan, main: GroupStats, k: int, total: Estimate, it: _Integrated) -> Candidate:
     s = plan.setup
     out = it.results[k]
     predicted = _estimate(main.var[:, k] - main.total[:, it.index, k])  # type: ignore[index]
@@ -561,9 +545,7 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
     tops: dict[int, list[int]] = {}
     for k in live:
         order = sorted(range(d), key=lambda j, k=k: -audits[k].total_index[j].value.estimate)
-        keep = [
-            j for j in order if not audits[k].total_index[j].value.ci_high < plan.freeze_threshold
-        ]
+        keep = [j for j in order if not audits[k].total_index[j].value.ci_high < plan.freeze_threshold]
         tops[k] = keep[: plan.top] if d >= 2 else []
     # distinct inputs to integrate out, rank by rank across outputs, at most max_candidates
     union: list[int] = []
@@ -598,10 +580,7 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
 
     candidates: dict[int, list[Candidate]] = {}
     for k in live:
-        cs = [
-            _candidate(plan, main, k, audits[k].total_index[j].value, integrated[j])
-            for j in tops[k]
-        ]
+        cs = [_candidate(plan, main, k, audits[k].total_index[j].value, integrated[j]) for j in tops[k]]
         candidates[k] = sorted(cs, key=_rank_key)
 
     # -- RQMC gain: f once, each distinct best candidate once
@@ -624,9 +603,7 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
             pm = integrated[j].model
             laws = [law for i, law in enumerate(s.laws) if i != j]
 
-            def evaluate_g(
-                x: np.ndarray, pm: PreIntegratedModel = pm, feature: str = feature
-            ) -> np.ndarray:
+            def evaluate_g(x: np.ndarray, pm: PreIntegratedModel = pm, feature: str = feature) -> np.ndarray:
                 if progress is not None:
                     progress(len(x) * pm.cost, f"RQMC gain with {feature} integrated out")
                 return pm.evaluate(x).outputs
@@ -643,27 +620,17 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
                 ]
                 sb = _fit(plan.gain_points, var_before[:, k])[0]
                 sa = _fit(plan.gain_points, var_after[:, k])[0]
-                ecr = _equal_cost_ratio(
-                    plan.gain_points, var_before[:, k], var_after[:, k], pm.cost
-                )
-                gains[k] = RqmcGain(
-                    feature, pm.cost, R, rows, sb, sa, ecr, n_max * R, n_max * R * pm.cost
-                )
+                ecr = _equal_cost_ratio(plan.gain_points, var_before[:, k], var_after[:, k], pm.cost)
+                gains[k] = RqmcGain(feature, pm.cost, R, rows, sb, sa, ecr, n_max * R, n_max * R * pm.cost)
 
     # -- freezing: greedy group per output, then one confirming pass for the distinct groups
     freeze_items: dict[int, list[FreezeItem]] = {}
     chosen: dict[int, tuple[list[int], Estimate, Estimate]] = {}
     for k in live:
-        below = [
-            j for j in range(d) if audits[k].total_index[j].value.ci_high < plan.freeze_threshold
-        ]
+        below = [j for j in range(d) if audits[k].total_index[j].value.ci_high < plan.freeze_threshold]
         below.sort(key=lambda j, k=k: audits[k].total_index[j].value.estimate)
-        group, bound, bound_n = _greedy_group(
-            below, main.total[:, :, k], main.var[:, k], plan.freeze_budget
-        )  # type: ignore[index]
-        freeze_items[k] = [
-            FreezeItem(s.names[j], audits[k].total_index[j].value, j in group) for j in below
-        ]
+        group, bound, bound_n = _greedy_group(below, main.total[:, :, k], main.var[:, k], plan.freeze_budget)  # type: ignore[index]
+        freeze_items[k] = [FreezeItem(s.names[j], audits[k].total_index[j].value, j in group) for j in below]
         if group and bound is not None and bound_n is not None:
             chosen[k] = (group, bound, bound_n)
     groups = list(dict.fromkeys(tuple(sorted(g)) for g, _, _ in chosen.values()))
@@ -702,8 +669,7 @@ def execute_advice(plan: AdvicePlan, *, progress: Progress | None = None) -> Adv
     ]
     design = design_info(s, time.perf_counter() - t0)
     design["seeds"] = (
-        "each phase (pilot, pre-integrated audits, gain, freeze check) has its own seed "
-        "derived from this one"
+        "each phase (pilot, pre-integrated audits, gain, freeze check) has its own seed derived from this one"
     )
     design["evaluations"] = int(sum(phases.values()))
     design["evaluations_by_phase"] = phases
@@ -769,11 +735,5 @@ def advise_function(
     -------
     AdviceResult
     """
-    spec = _inputs_spec(inputs)
-    d = dim if dim is not None else spec.dim
-    if d is None:
-        raise UserError(
-            "The number of inputs is unknown: pass dim=D or an InputSpec that lists the features."
-        )
-    source = getattr(func, "__module__", "") + ":" + getattr(func, "__qualname__", repr(func))
-    return advise_model(PythonModel(func, d, source=source), spec, **options)
+    model, spec = function_model(func, inputs, dim)
+    return advise_model(model, spec, **options)

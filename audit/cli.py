@@ -243,6 +243,14 @@ def _shape_arg(text: str | None) -> tuple[int, ...] | None:
     return shape
 
 
+def _design_options(args: argparse.Namespace) -> dict[str, Any]:
+    """The design options shared by audit, compare and advise."""
+    return {
+        "points": args.points, "replicates": args.replicates, "seed": args.seed,
+        "sampler": args.sampler, "estimator": args.estimator,
+    }
+
+
 def _spec(args: argparse.Namespace):
     from .inputs import load_spec, uniform_spec
 
@@ -377,11 +385,7 @@ def cmd_audit(args: argparse.Namespace) -> int:
     setup = prepare(
         model,
         spec,
-        points=args.points,
-        replicates=args.replicates,
-        seed=args.seed,
-        sampler=args.sampler,
-        estimator=args.estimator,
+        **_design_options(args),
         layers=args.layers,
         unit_detail=[n for item in args.unit_detail for n in item.split(",") if n],
         memory_limit=None if args.memory_limit is None else int(args.memory_limit * 2**30),
@@ -424,11 +428,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
             old,
             new,
             spec,
-            points=args.points,
-            replicates=args.replicates,
-            seed=args.seed,
-            sampler=args.sampler,
-            estimator=args.estimator,
+            **_design_options(args),
             layers=args.layers,
             output_map=output_map,
             gates=gates,
@@ -460,11 +460,7 @@ def cmd_advise(args: argparse.Namespace) -> int:
     plan = prepare_advice(
         model,
         spec,
-        points=args.points,
-        replicates=args.replicates,
-        seed=args.seed,
-        sampler=args.sampler,
-        estimator=args.estimator,
+        **_design_options(args),
         top=args.top,
         nodes=args.nodes,
         tolerance=args.tolerance,

@@ -457,6 +457,20 @@ def _model_options(spec: InputSpec) -> dict[str, Any]:
     return opts
 
 
+def function_model(
+    func: Callable[[np.ndarray], np.ndarray],
+    inputs: InputSpec | str | Sequence[Law] | None,
+    dim: int | None,
+) -> tuple[PythonModel, InputSpec]:
+    """A Python function as a model, with its input spec; d from ``dim`` or the spec."""
+    spec = _inputs_spec(inputs)
+    d = dim if dim is not None else spec.dim
+    if d is None:
+        raise UserError("The number of inputs is unknown: pass dim=D or an InputSpec that lists the features.")
+    source = getattr(func, "__module__", "") + ":" + getattr(func, "__qualname__", repr(func))
+    return PythonModel(func, d, source=source), spec
+
+
 def audit_function(
     func: Callable[[np.ndarray], np.ndarray],
     inputs: InputSpec | str | Sequence[Law] | None = None,
@@ -488,11 +502,6 @@ def audit_function(
     >>> r.outputs[0].mean_dimension.covers(1.0)
     True
     """
-    spec = _inputs_spec(inputs)
-    d = dim if dim is not None else spec.dim
-    if d is None:
-        raise UserError("The number of inputs is unknown: pass dim=D or an InputSpec that lists the features.")
-    source = getattr(func, "__module__", "") + ":" + getattr(func, "__qualname__", repr(func))
-    model = PythonModel(func, d, source=source)
+    model, spec = function_model(func, inputs, dim)
     options.setdefault("layers", "none")
     return audit_model(model, spec, **options)
