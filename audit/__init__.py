@@ -2,41 +2,67 @@
 
 Mean dimension and Sobol' indices of every output and hidden unit, with
 confidence intervals from randomized quasi-Monte Carlo.
+
+The names below are loaded on first use, so that ``import audit`` (and the
+command line's start-up) does not pay for scipy, onnx or torch until a study
+needs them.
 """
 
-from .advice import advise_function, advise_model
-from .advice_results import AdviceResult
-from .comparison import Gates, compare_models
-from .design import Design
-from .errors import UserError
-from .inputs import InputSpec, Law, load_spec, parse_spec
-from .models.open import open_model
-from .quadrature import PreIntegrated
-from .results import AuditResult, Estimate, FeatureEstimate, LayerResult, OutputResult, UnitResult
-from .studies import audit_function, audit_model
+from __future__ import annotations
 
-__all__ = [
-    "AdviceResult",
-    "AuditResult",
-    "Design",
-    "Estimate",
-    "FeatureEstimate",
-    "Gates",
-    "InputSpec",
-    "Law",
-    "LayerResult",
-    "OutputResult",
-    "PreIntegrated",
-    "UnitResult",
-    "UserError",
-    "advise_function",
-    "advise_model",
-    "audit_function",
-    "audit_model",
-    "compare_models",
-    "load_spec",
-    "open_model",
-    "parse_spec",
-]
+import importlib
+from typing import Any
+
+from .results.base import set_renderer
 
 __version__ = "0.1.0"
+
+#: Public name -> module that defines it.
+_EXPORTS = {
+    "AdviceResult": "audit.results",
+    "AuditResult": "audit.results",
+    "ComparisonResult": "audit.results",
+    "Design": "audit.design",
+    "Estimate": "audit.results",
+    "FeatureEstimate": "audit.results",
+    "Gates": "audit.comparison",
+    "InputSpec": "audit.inputs",
+    "Law": "audit.inputs",
+    "LayerResult": "audit.results",
+    "OutputResult": "audit.results",
+    "PreIntegrated": "audit.quadrature",
+    "UnitResult": "audit.results",
+    "UserError": "audit.errors",
+    "advise_function": "audit.advice",
+    "advise_model": "audit.advice",
+    "audit_function": "audit.studies",
+    "audit_model": "audit.studies",
+    "compare_models": "audit.comparison",
+    "load_spec": "audit.inputs",
+    "open_model": "audit.models.open",
+    "parse_spec": "audit.inputs",
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name: str) -> Any:
+    if name not in _EXPORTS:
+        raise AttributeError(f"module 'audit' has no attribute {name!r}")
+    value = getattr(importlib.import_module(_EXPORTS[name]), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted([*globals(), *_EXPORTS])
+
+
+def _render(result: Any) -> Any:
+    """Results shown in a rich console or a notebook: the report layer's renderable."""
+    from .report import renderable
+
+    return renderable(result)
+
+
+set_renderer(_render)

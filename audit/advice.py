@@ -48,7 +48,14 @@ from scipy import stats as sps
 from scipy.stats import qmc
 
 from . import engine
-from .advice_results import (
+from .design import Design
+from .errors import UserError
+from .estimators import Accumulator, t_interval
+from .inputs import InputSpec, Law
+from .models.base import Model
+from .quadrature import MAX_NODES, NodeCheck, PreIntegratedModel, choose_nodes
+from .results import Estimate, OutputResult
+from .results.advice import (
     AdviceResult,
     Candidate,
     FreezeGroup,
@@ -58,13 +65,6 @@ from .advice_results import (
     RqmcGain,
     VarianceIdentity,
 )
-from .design import Design
-from .errors import UserError
-from .estimators import Accumulator, t_interval
-from .inputs import InputSpec, Law
-from .models.base import Model
-from .quadrature import MAX_NODES, NodeCheck, PreIntegratedModel, choose_nodes
-from .results import Estimate, OutputResult
 from .studies import (
     LEVEL,
     OUTPUTS,

@@ -288,31 +288,13 @@ def _print_result(result, args: argparse.Namespace) -> None:
     if fmt == "json":
         print(json.dumps(result.to_dict(), indent=2))
         return
-    kind = getattr(result, "kind", "audit")
-    if kind == "advice":
-        from .report.advice import advice_markdown, render_advice
+    from . import report
 
-        if fmt == "markdown":
-            print(advice_markdown(result))
-        else:
-            render_advice(result, _console(False))
-        return
-    if kind == "comparison":
-        from .report.comparison import comparison_markdown, render_comparison
-
-        if fmt == "markdown":
-            print(comparison_markdown(result))
-        else:
-            render_comparison(result, _console(False))
-        return
+    options = {"all_outputs": getattr(args, "all_outputs", False)} if result.kind == "audit" else {}
     if fmt == "markdown":
-        from .report import audit_markdown
-
-        print(audit_markdown(result))
-        return
-    from .report import render_audit
-
-    render_audit(result, _console(False), all_outputs=getattr(args, "all_outputs", False))
+        print(report.markdown(result))
+    else:
+        report.render(result, _console(False), **options)
 
 
 def _finish(result, args: argparse.Namespace) -> Path | None:
@@ -475,29 +457,25 @@ def cmd_advise(args: argparse.Namespace) -> int:
 
 
 def cmd_layers(args: argparse.Namespace) -> int:
-    from .report.signature import render_signature
+    from .report import render
+    from .studies import model_signature
 
     spec = _spec(args)
     model = _open(args, spec)
     if not args.quiet:
-        render_signature(model, _console(False))
+        render(model_signature(model), _console(False))
     return EXIT_OK
 
 
 def cmd_show(args: argparse.Namespace) -> int:
-    from .advice_results import AdviceResult
-    from .results import AuditResult, ComparisonResult
+    from .results import result_from_dict
 
     path = Path(args.report)
     if not path.is_file():
         raise UserError(f"The report '{args.report}' does not exist or is not a file.")
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
-        kinds = {"audit": AuditResult, "comparison": ComparisonResult, "advice": AdviceResult}
-        kind = data.get("kind", "audit") if isinstance(data, dict) else "audit"
-        if kind not in kinds:
-            raise ValueError(f"unknown report kind '{kind}'")
-        result = kinds[kind].from_dict(data)
+        result = result_from_dict(data)
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise UserError(f"'{args.report}' is not a JSON file: {exc}.") from exc
     except (KeyError, TypeError, ValueError) as exc:

@@ -12,14 +12,52 @@ Needs the ``cluster`` extra: ``pip install "netdim[cluster]"``.
 
 from __future__ import annotations
 
+import hashlib
+import io
+import pickle
 from collections.abc import Callable, Iterator, Sequence
 from typing import Any
 
 from .design import Design
 from .engine import Evaluator, Group, Task, run_task
 from .errors import UserError
+from .models.open import reopen
 
-__all__ = ["connect", "dask_executor"]
+__all__ = ["connect", "dask_executor", "portable_dumps", "portable_loads"]
+
+
+class _Portable(pickle.Pickler):
+    """Pickles model files as "open this file again" (``open_args``), everything else as usual."""
+
+    def reducer_override(self, obj: Any) -> Any:
+        args = getattr(obj, "open_args", None) if not isinstance(obj, type) else None
+        if isinstance(args, dict):
+            return reopen, (args,)
+        return NotImplemented
+
+
+def portable_dumps(obj: Any) -> bytes:
+    """Pickle ``obj`` for another process: opened model files travel as their open arguments."""
+    buffer = io.BytesIO()
+    _Portable(buffer, protocol=pickle.HIGHEST_PROTOCOL).dump(obj)
+    return buffer.getvalue()
+
+
+_LOADED: dict[str, Any] = {}
+
+
+def portable_loads(blob: bytes) -> Any:
+    """Unpickle what :func:`portable_dumps` made, once per process (models are opened once)."""
+    key = hashlib.sha256(blob).hexdigest()
+    if key not in _LOADED:
+        if len(_LOADED) >= 8:
+            _LOADED.clear()
+        _LOADED[key] = pickle.loads(blob)
+    return _LOADED[key]
+
+
+def _run_portable(blob: bytes, *args: Any) -> Any:
+    return run_task(portable_loads(blob), *args)
 
 
 def connect(address: str) -> Any:
@@ -70,7 +108,8 @@ def dask_executor(
     from dask.distributed import as_completed
 
     try:
-        ev, des = client.scatter([evaluator, design], broadcast=True, hash=False)
+        blob = portable_dumps(evaluator)
+        ev, des = client.scatter([blob, design], broadcast=True, hash=False)
     except Exception as exc:
         raise UserError(
             f"The model could not be sent to the cluster's workers ({type(exc).__name__}: {exc}). Python "
@@ -80,7 +119,7 @@ def dask_executor(
 
     def execute(tasks: Sequence[Task]) -> Iterator[tuple[Task, dict]]:
         futures = {
-            client.submit(run_task, ev, des, list(groups), estimator, t, feature_names, dt, pure=False): t
+            client.submit(_run_portable, ev, des, list(groups), estimator, t, feature_names, dt, pure=False): t
             for t in tasks
         }
         for fut in as_completed(futures):

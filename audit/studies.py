@@ -22,8 +22,9 @@ from .inputs import InputSpec, Law, uniform_spec
 from .models.base import LayerInfo, Model, index_names
 from .models.python_model import PythonModel
 from .results import AuditResult, Estimate, FeatureEstimate, LayerResult, OutputResult, UnitResult
+from .results.signature import LayerEntry, ModelSignature, TensorEntry
 
-__all__ = ["LAYER_CHOICES", "Setup", "audit_function", "audit_model", "prepare", "select_layers"]
+__all__ = ["LAYER_CHOICES", "Setup", "audit_function", "audit_model", "model_signature", "prepare", "select_layers"]
 
 #: Special values of ``layers``.
 LAYER_CHOICES = ("activations", "all", "none")
@@ -505,3 +506,17 @@ def audit_function(
     model, spec = function_model(func, inputs, dim)
     options.setdefault("layers", "none")
     return audit_model(model, spec, **options)
+
+
+def model_signature(model: Model) -> ModelSignature:
+    """The signature of an opened model, as ``netdim layers`` shows it."""
+    tensor = lambda t: TensorEntry(t.name, tuple(t.shape), t.dtype)  # noqa: E731
+    layers = [LayerEntry(x.name, x.op, tuple(x.shape), x.activation) for x in model.layers()]
+    return ModelSignature(
+        model.source,
+        model.format,
+        [tensor(model.input)],
+        [tensor(t) for t in model.outputs],
+        layers,
+        list(getattr(model, "notices", []) or []),
+    )

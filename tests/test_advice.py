@@ -37,7 +37,6 @@ from scipy.special import ndtr
 
 from audit import Law, audit_function
 from audit.advice import advise_function, advise_model, prepare_advice
-from audit.advice_results import AdviceResult
 from audit.errors import UserError
 from audit.inputs import load_spec
 from audit.models.open import open_model
@@ -52,6 +51,7 @@ from audit.quadrature import (
 from audit.report import make_console
 from audit.report.advice import advice_markdown, render_advice
 from audit.report.findings import CAUTION, fmt
+from audit.results import AdviceResult
 from model_zoo.functions import ishigami
 
 ZOO = Path(__file__).resolve().parent.parent / "model_zoo"

@@ -21,6 +21,7 @@ from rich.console import Console
 from audit.errors import UserError
 from audit.models import LayerInfo, Model, OnnxModel, TensorInfo, open_model
 from audit.report.signature import render_signature
+from audit.studies import model_signature
 
 RNG = np.random.default_rng(20240611)
 
@@ -165,7 +166,7 @@ def test_cnn_export_all_layers(cnn_files) -> None:
 
 def test_signature_plain_when_not_a_terminal(ops_model: OnnxModel) -> None:
     buffer = io.StringIO()
-    render_signature(ops_model, Console(file=buffer, width=200))
+    render_signature(model_signature(ops_model), Console(file=buffer, width=200))
     text = buffer.getvalue()
     assert "d = 16" in text and "Conv" in text and "(2, 4, 4)" in text
     assert max(len(line) for line in text.splitlines()) <= 80
@@ -193,7 +194,7 @@ class _LongNames:
 def test_signature_folds_long_names_within_80_columns() -> None:
     for terminal in (False, True):
         buffer = io.StringIO()
-        render_signature(_LongNames(), Console(file=buffer, width=200, force_terminal=terminal))
+        render_signature(model_signature(_LongNames()), Console(file=buffer, width=200, force_terminal=terminal))
         plain = re.sub(r"\x1b\[[0-9;]*m", "", buffer.getvalue())
         assert max(len(line) for line in plain.splitlines()) <= 80
         assert plain.count("/block/deep/") == 1 and "yes" in plain

@@ -188,12 +188,6 @@ class OnnxModel:
 
     format = "onnx"
 
-    def __reduce__(self) -> tuple:
-        """Pickle as "open the same file again" (sessions do not pickle); see ``open.reopen``."""
-        from .open import reduce_by_reopening
-
-        return reduce_by_reopening(self)
-
     def __init__(self, path: str | os.PathLike[str], *, input_shape: Sequence[int] | None = None):
         self.path = Path(path)
         self.source = str(path)

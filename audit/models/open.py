@@ -107,16 +107,9 @@ def open_model(
 def reopen(open_args: dict[str, Any]) -> Model:
     """Open a model file again from the arguments it was first opened with.
 
-    File models pickle as a call to this function, so that a process of a
-    ``dask.distributed`` cluster opens its own session (sessions themselves do not pickle).
+    Models travel to the processes of a ``dask.distributed`` cluster as a call to this
+    function (see :mod:`audit.cluster`), so that each process opens its own session
+    (sessions themselves do not pickle).
     """
     args = dict(open_args)
     return open_model(args.pop("ref"), **args)
-
-
-def reduce_by_reopening(model: Any) -> tuple[Any, tuple[dict[str, Any]]]:
-    """``__reduce__`` of file models: reopen from ``model.open_args``."""
-    args = getattr(model, "open_args", None)
-    if args is None:
-        raise TypeError(f"{type(model).__name__} opened without open_model() cannot be sent to another process.")
-    return reopen, (args,)

@@ -360,12 +360,6 @@ class TorchModel:
 
     format = "torch"
 
-    def __reduce__(self) -> tuple:
-        """Pickle as "open the same file again" (sessions do not pickle); see ``open.reopen``."""
-        from .open import reduce_by_reopening
-
-        return reduce_by_reopening(self)
-
     def __init__(
         self,
         path: Path,

@@ -1,6 +1,6 @@
 """Terminal and Markdown reports of ``netdim advise``.
 
-:func:`render_advice` prints an :class:`~audit.advice_results.AdviceResult` on
+:func:`render_advice` prints an :class:`~audit.results.advice.AdviceResult` on
 a rich console (80 columns: numeric cells never wrap, only names fold);
 :func:`advice_markdown` gives the same content as Markdown. Both take every
 row and sentence from the functions here (:func:`candidate_rows`,
@@ -28,7 +28,7 @@ from rich.console import Console, Group, RenderableType
 from rich.rule import Rule
 from rich.text import Text
 
-from ..advice_results import AdviceResult, FreezeGroup, OutputAdvice, RqmcGain
+from ..results.advice import AdviceResult, FreezeGroup, OutputAdvice, RqmcGain
 from .findings import (
     CAUTION,
     GLUE,

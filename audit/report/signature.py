@@ -1,6 +1,6 @@
 """What ``netdim layers MODEL`` prints: a model's signature and probe-able layers.
 
-:func:`signature_renderable` turns any :class:`~audit.models.base.Model` into
+:func:`signature_renderable` turns a :class:`~audit.results.ModelSignature` into
 one rich ``Group``: the input tensor (name, shape, number of features d), the
 output tensors (name, shape, units) and a table of hidden layers (name,
 operation, shape, units, activation or not); :func:`render_signature` prints
@@ -8,8 +8,7 @@ it. On a terminal the tables have light borders; elsewhere (a pipe, a file)
 the output is plain aligned text in ASCII. Everything fits 80 columns: long
 layer names fold, numbers never do.
 
-This module reads only the model's signature (``input``, ``outputs``,
-``layers()``, ``notices``); it never imports Torch or onnxruntime.
+It renders the signature object only; it never imports a backend, Torch or onnxruntime.
 """
 
 from __future__ import annotations
@@ -22,7 +21,7 @@ from rich.console import Console, Group, RenderableType
 from rich.table import Table
 from rich.text import Text
 
-from ..models.base import LayerInfo, Model, TensorInfo
+from ..results.signature import LayerEntry, ModelSignature, TensorEntry
 
 __all__ = ["format_shape", "render_signature", "signature_renderable"]
 
@@ -51,7 +50,7 @@ def _table(title: str, plain: bool, columns: Sequence[tuple[str, str]]) -> Table
     return table
 
 
-def _tensors(title: str, tensors: Sequence[TensorInfo], units_header: str, plain: bool) -> Table:
+def _tensors(title: str, tensors: Sequence[TensorEntry], units_header: str, plain: bool) -> Table:
     columns = [("name", "name"), ("shape", "text"), (units_header, "num"), ("dtype", "text")]
     table = _table(title, plain, columns)
     for info in tensors:
@@ -59,7 +58,7 @@ def _tensors(title: str, tensors: Sequence[TensorInfo], units_header: str, plain
     return table
 
 
-def _layers(layers: Sequence[LayerInfo], plain: bool) -> Table:
+def _layers(layers: Sequence[LayerEntry], plain: bool) -> Table:
     columns = [
         ("layer", "name"),
         ("op", "text"),
@@ -79,13 +78,13 @@ def _layers(layers: Sequence[LayerInfo], plain: bool) -> Table:
     return table
 
 
-def signature_renderable(model: Model, *, plain: bool = False) -> RenderableType:
+def signature_renderable(model: ModelSignature, *, plain: bool = False) -> RenderableType:
     """The signature of ``model`` as one rich renderable.
 
     Parameters
     ----------
-    model : Model
-        Any opened model.
+    model : ModelSignature
+        The signature of an opened model.
     plain : bool
         Plain aligned text without borders or styles (for pipes and files).
 
@@ -93,12 +92,13 @@ def signature_renderable(model: Model, *, plain: bool = False) -> RenderableType
     -------
     rich.console.Group
     """
-    layers = model.layers()
+    layers = model.layers
     header = Text()
     header.append("Model ", style="" if plain else "bold")
     header.append(f"{model.source}  [{model.format}]")
     parts: list[RenderableType] = [header, Text("")]
-    parts.append(_tensors(f"Input (d = {model.input.units} features)", [model.input], "d", plain))
+    noun = "Input" if len(model.inputs) == 1 else "Inputs"
+    parts.append(_tensors(f"{noun} (d = {model.features} features)", model.inputs, "d", plain))
     parts.append(Text(""))
     k = sum(info.units for info in model.outputs)
     parts.append(_tensors(f"Outputs ({k} units)", model.outputs, "units", plain))
@@ -116,18 +116,18 @@ def signature_renderable(model: Model, *, plain: bool = False) -> RenderableType
         )
     else:
         parts.append(Text("This model has no hidden layers to probe; only outputs are audited."))
-    for notice in getattr(model, "notices", None) or []:
+    for notice in model.notices:
         parts.append(Text(f"Note: {notice}", style="" if plain else "yellow"))
     return Group(*parts)
 
 
-def render_signature(model: Model, console: Console | None = None) -> None:
+def render_signature(model: ModelSignature, console: Console | None = None) -> None:
     """Print the signature of ``model``.
 
     Parameters
     ----------
-    model : Model
-        Any opened model.
+    model : ModelSignature
+        The signature of an opened model.
     console : rich.console.Console, optional
         Where to print; default a console on standard output. The output is
         plain (no borders, styles or colour) when the console is not a

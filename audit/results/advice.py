@@ -26,7 +26,8 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from .results import SCHEMA, AuditResult, Estimate, OutputResult, _num, _unnum
+from .audit import AuditResult, OutputResult
+from .base import SCHEMA, Displayable, Estimate, _num, _unnum
 
 __all__ = [
     "AdviceResult",
@@ -383,7 +384,7 @@ class OutputAdvice:
 
 
 @dataclass(frozen=True)
-class AdviceResult:
+class AdviceResult(Displayable):
     """Everything one ``advise`` run measured.
 
     Attributes

@@ -1,0 +1,206 @@
+"""Results of an audit: outputs, hidden units and layers, and the whole run."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dict, _opt_estimate
+
+__all__ = ["AuditResult", "LayerResult", "OutputResult", "UnitResult"]
+
+
+@dataclass(frozen=True)
+class OutputResult:
+    """ANOVA summary of one scalar output.
+
+    Attributes
+    ----------
+    name : str
+        Output unit name.
+    mean, variance : Estimate
+        Mean and variance of the output under the input laws.
+    mean_dimension : Estimate or None
+        Mean dimension in the superposition sense; ``None`` when the output
+        is inert (zero variance).
+    total_index, first_order : list of FeatureEstimate
+        Normalised total and first-order Sobol' indices in input order
+        (empty when inert; ``first_order`` is empty for the fast estimator).
+    inert : bool
+        True when the output does not vary at all under the input laws.
+    """
+
+    name: str
+    mean: Estimate
+    variance: Estimate
+    mean_dimension: Estimate | None
+    total_index: list[FeatureEstimate] = field(default_factory=list)
+    first_order: list[FeatureEstimate] = field(default_factory=list)
+    inert: bool = False
+
+    @property
+    def additive_share(self) -> float:
+        """Sum of first-order indices: the share of variance of the additive part."""
+        return float(sum(f.value.estimate for f in self.first_order))
+
+    def ranked(self) -> list[FeatureEstimate]:
+        """Total indices, largest first."""
+        return sorted(self.total_index, key=lambda f: -f.value.estimate)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name,
+            "inert": self.inert,
+            "mean": self.mean.to_dict(),
+            "variance": self.variance.to_dict(),
+            "mean_dimension": _opt_dict(self.mean_dimension),
+            "total_index": [f.to_dict() for f in self.total_index],
+            "first_order": [f.to_dict() for f in self.first_order],
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> OutputResult:
+        return cls(
+            name=d["name"],
+            mean=Estimate.from_dict(d["mean"]),
+            variance=Estimate.from_dict(d["variance"]),
+            mean_dimension=_opt_estimate(d.get("mean_dimension")),
+            total_index=[FeatureEstimate.from_dict(x) for x in d.get("total_index", [])],
+            first_order=[FeatureEstimate.from_dict(x) for x in d.get("first_order", [])],
+            inert=bool(d.get("inert", False)),
+        )
+
+
+@dataclass(frozen=True)
+class UnitResult:
+    """Variance and mean dimension of one hidden unit."""
+
+    unit: str
+    variance: Estimate
+    mean_dimension: Estimate | None
+    inert: bool = False
+    total_index: list[FeatureEstimate] = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        d = {
+            "unit": self.unit,
+            "inert": self.inert,
+            "variance": self.variance.to_dict(),
+            "mean_dimension": _opt_dict(self.mean_dimension),
+        }
+        if self.total_index:
+            d["total_index"] = [f.to_dict() for f in self.total_index]
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> UnitResult:
+        return cls(
+            unit=d["unit"],
+            variance=Estimate.from_dict(d["variance"]),
+            mean_dimension=_opt_estimate(d.get("mean_dimension")),
+            inert=bool(d.get("inert", False)),
+            total_index=[FeatureEstimate.from_dict(x) for x in d.get("total_index", [])],
+        )
+
+
+@dataclass(frozen=True)
+class LayerResult:
+    """Mean dimension of every unit of one hidden layer, and a summary.
+
+    ``summary`` holds ``units``, ``inert_units``, the quantiles ``nu_min``,
+    ``nu_median``, ``nu_p90``, ``nu_max`` of the unit estimates (inert units
+    left out) and ``nu_weighted``, the variance-weighted mean of ν over units.
+    """
+
+    name: str
+    op: str
+    shape: tuple[int, ...]
+    summary: dict[str, Any]
+    units: list[UnitResult]
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name,
+            "op": self.op,
+            "shape": list(self.shape),
+            "summary": {k: (_num(v) if isinstance(v, float) else v) for k, v in self.summary.items()},
+            "units": [u.to_dict() for u in self.units],
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> LayerResult:
+        summary = {k: (math.nan if v is None else v) for k, v in d["summary"].items()}
+        return cls(
+            name=d["name"],
+            op=d.get("op", ""),
+            shape=tuple(d.get("shape", ())),
+            summary=summary,
+            units=[UnitResult.from_dict(u) for u in d["units"]],
+        )
+
+
+@dataclass(frozen=True)
+class AuditResult(Displayable):
+    """Everything one audit measured.
+
+    Attributes
+    ----------
+    model : dict
+        Where the model came from: ``source``, ``format``, ``input_shape``...
+    inputs : list of dict
+        One entry per feature: ``name`` and its law (``law`` plus parameters).
+    design : dict
+        ``points``, ``replicates``, ``seed``, ``sampler``, ``estimator``,
+        ``evaluations``, ``interval`` (how intervals were made) and timings.
+    outputs : list of OutputResult
+    layers : list of LayerResult
+    notices : list of str
+        Things the user should know about the run (rounded N, ...).
+    """
+
+    model: dict[str, Any]
+    inputs: list[dict[str, Any]]
+    design: dict[str, Any]
+    outputs: list[OutputResult]
+    layers: list[LayerResult] = field(default_factory=list)
+    notices: list[str] = field(default_factory=list)
+
+    kind = "audit"
+
+
+    def output(self, name: str) -> OutputResult:
+        for o in self.outputs:
+            if o.name == name:
+                return o
+        raise KeyError(f"no output named {name!r}; outputs: {[o.name for o in self.outputs]}")
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "tool": "netdim",
+            "schema": SCHEMA,
+            "kind": self.kind,
+            "model": dict(self.model),
+            "inputs": [dict(i) for i in self.inputs],
+            "design": dict(self.design),
+            "outputs": [o.to_dict() for o in self.outputs],
+            "layers": [layer.to_dict() for layer in self.layers],
+            "notices": list(self.notices),
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> AuditResult:
+        if d.get("tool") != "netdim":
+            raise ValueError('not a netdim report (missing "tool": "netdim")')
+        if d.get("schema") != SCHEMA:
+            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
+        return cls(
+            model=d["model"],
+            inputs=d["inputs"],
+            design=d["design"],
+            outputs=[OutputResult.from_dict(o) for o in d["outputs"]],
+            layers=[LayerResult.from_dict(x) for x in d.get("layers", [])],
+            notices=list(d.get("notices", [])),
+        )
+
+
