@@ -36,22 +36,17 @@ from rich.console import Console
 from scipy.special import ndtr
 
 from audit import Law, audit_function
-from audit.advice import advise_function, advise_model, prepare_advice
 from audit.errors import UserError
 from audit.inputs import load_spec
 from audit.models.open import open_model
 from audit.models.python_model import PythonModel
-from audit.quadrature import (
-    MAX_NODES,
-    PreIntegrated,
-    PreIntegratedModel,
-    choose_nodes,
-    preintegrate,
-)
+from audit.nodes import choose_nodes
+from audit.quadrature import MAX_NODES, PreIntegrated, PreIntegratedModel, preintegrate
 from audit.report import make_console
 from audit.report.advice import advice_markdown, render_advice
 from audit.report.findings import CAUTION, fmt
 from audit.results import AdviceResult
+from audit.studies import advise_function, advise_model, prepare_advice
 from model_zoo.functions import ishigami
 
 ZOO = Path(__file__).resolve().parent.parent / "model_zoo"

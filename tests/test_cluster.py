@@ -36,14 +36,14 @@ def _same(a, b):
 def test_python_model_on_local_cluster(client):
     m = PythonModel(fz.g_function, 8, source="model_zoo.functions:g_function")
     kw = dict(points=1024, replicates=4, seed=1, block=128)
-    _same(audit_model(m, "uniform", executor=client, **kw), audit_model(m, "uniform", **kw))
+    _same(audit_model(m, "uniform", cluster=client, **kw), audit_model(m, "uniform", **kw))
 
 
 def test_onnx_model_with_layers_on_local_cluster(client):
     spec = load_spec(ZOO / "greenhouse_v1.toml")
     m = open_model(str(ZOO / "greenhouse_v1.onnx"))
     kw = dict(points=512, replicates=3, seed=2, block=64)
-    a, b = audit_model(m, spec, executor=client, **kw), audit_model(m, spec, **kw)
+    a, b = audit_model(m, spec, cluster=client, **kw), audit_model(m, spec, **kw)
     _same(a, b)
     for la, lb in zip(a.layers, b.layers, strict=True):
         assert la.summary["nu_weighted"] == pytest.approx(lb.summary["nu_weighted"], rel=1e-12)

@@ -10,9 +10,9 @@ import clifuncs
 import numpy as np
 import pytest
 
-from audit.comparison import Gates, compare_models
 from audit.errors import UserError
 from audit.models.python_model import PythonModel
+from audit.studies import Gates, compare_models
 
 ROOT = Path(__file__).resolve().parent.parent
 ENV = {**os.environ, "PYTHONPATH": os.pathsep.join([str(ROOT / "tests"), str(ROOT)])}
@@ -77,7 +77,7 @@ def test_common_random_numbers_narrow_the_interval():
 def test_signatures_must_match():
     with pytest.raises(UserError, match="different numbers of inputs"):
         compare_models(_m(clifuncs.additive6), _m(clifuncs.two_outputs, 5), "normal", points=64, seed=1)
-    with pytest.raises(UserError, match="--output-map"):
+    with pytest.raises(UserError, match="`output_map`"):
         compare_models(_m(clifuncs.additive6), _m(clifuncs.two_outputs), "normal", points=64, seed=1)
     r = compare_models(
         _m(clifuncs.additive6), _m(clifuncs.two_outputs), "normal", points=64, seed=1, output_map=[(0, 0)]

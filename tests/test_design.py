@@ -4,8 +4,9 @@ import numpy as np
 import pytest
 from scipy.stats import qmc
 
-from audit.design import Design, resolve_seed, round_points
+from audit.design import Design, round_points
 from audit.inputs import Law
+from audit.seeds import resolve_seed
 
 LAWS = [Law("uniform")] * 3
 

@@ -4,9 +4,10 @@ import numpy as np
 import pytest
 
 from audit import Law, audit_function
+from audit.checkpoint import Checkpoint
 from audit.design import Design
-from audit.engine import Group, Task, make_tasks, run, run_task
-from audit.estimators import Accumulator, fast_assignment, fast_counts, t_interval
+from audit.engine import Group, Job, Task, iter_tasks, run, run_task
+from audit.estimators import fast_assignment, fast_counts, make_estimator, t_interval
 from model_zoo import functions as fz
 
 
@@ -18,17 +19,23 @@ def _evaluator(x):
 LAWS = [Law("uniform", {"low": -np.pi, "high": np.pi})] * 3
 
 
+def _job(evaluator, design, groups, estimator="jansen"):
+    est = make_estimator(estimator, d=design.d, points=design.points)
+    return Job("test", evaluator, design, est, groups)
+
+
 @pytest.mark.parametrize("estimator", ["jansen", "fast"])
 @pytest.mark.parametrize("detail", [True, False])
 def test_merge_of_halves_equals_whole(estimator, detail):
     design = Design(LAWS, 1024, 1, seed=3)
     groups = [Group("out", 3, detail)]
-    whole = run_task(_evaluator, design, groups, estimator, Task(0, 0, 1024))["out"]
-    parts = [run_task(_evaluator, design, groups, estimator, Task(0, s, 128))["out"] for s in range(0, 1024, 128)]
+    job = _job(_evaluator, design, groups, estimator)
+    whole = run_task(job, Task(0, 0, 1024))["out"]
+    parts = [run_task(job, Task(0, s, 128))["out"] for s in range(0, 1024, 128)]
     merged = parts[0]
     for p in parts[1:]:
         merged.merge(p)
-    a, b = whole.estimates(), merged.estimates()
+    a, b = whole.finish(1), merged.finish(1)
     for name in ("mean", "variance", "total_sum", "total", "first"):
         x, y = getattr(a, name), getattr(b, name)
         if x is None:
@@ -40,15 +47,16 @@ def test_merge_of_halves_equals_whole(estimator, detail):
 def test_merge_in_any_order_and_state_round_trip():
     design = Design(LAWS, 256, 1, seed=4)
     groups = [Group("out", 3, True)]
-    parts = [run_task(_evaluator, design, groups, "jansen", Task(0, s, 64))["out"] for s in range(0, 256, 64)]
-    fwd = Accumulator.from_state(parts[0].state())
+    job = _job(_evaluator, design, groups)
+    parts = [run_task(job, Task(0, s, 64))["out"] for s in range(0, 256, 64)]
+    fwd = job.estimator.restore(parts[0].state())
     for p in parts[1:]:
-        fwd.merge(Accumulator.from_state(p.state()))
+        fwd.merge(job.estimator.restore(p.state()))
     rev = parts[3]
     for p in reversed(parts[:3]):
         rev.merge(p)
-    np.testing.assert_allclose(fwd.estimates().first, rev.estimates().first, rtol=1e-12, atol=1e-14)
-    np.testing.assert_allclose(fwd.estimates().total, rev.estimates().total, rtol=1e-12)
+    np.testing.assert_allclose(fwd.finish(1).first, rev.finish(1).first, rtol=1e-12, atol=1e-14)
+    np.testing.assert_allclose(fwd.finish(1).total, rev.finish(1).total, rtol=1e-12)
 
 
 def test_block_size_does_not_change_the_answer():
@@ -91,9 +99,9 @@ def test_fast_estimator_costs_2n_whatever_d():
             return {"y": x.sum(axis=1, keepdims=True)}
 
         design = Design([Law("normal")] * d, 256, 8, seed=1)
-        accs = run(f, design, [Group("y", 1)], "fast", block=64)
+        accs = run(_job(f, design, [Group("y", 1)], "fast"), block=64)
         assert sum(calls) == 2 * 256 * 8
-        nu = [a.estimates(ddof=0).total_sum[0] / a.estimates(ddof=0).variance[0] for a in accs["y"]]
+        nu = [a.finish(0).total_sum[0] / a.finish(0).variance[0] for a in accs["y"]]
         _, lo, hi, _ = t_interval(np.array(nu))
         assert lo <= 1.0 <= hi  # a sum of inputs is additive: ν = 1
 
@@ -130,14 +138,15 @@ def test_checkpoint_resume_after_failure_loses_nothing(tmp_path):
             raise KeyboardInterrupt  # a kill in the middle of the run
         return _evaluator(x)
 
-    with pytest.raises(KeyboardInterrupt):
-        run(flaky, design, groups, block=128, checkpoint=ckpt)
+    with pytest.raises(KeyboardInterrupt), Checkpoint(ckpt, interval=0) as store:
+        run(_job(flaky, design, groups), block=128, checkpoint=store)
     assert ckpt.exists()
     seen = []
-    resumed = run(lambda x: seen.append(1) or _evaluator(x), design, groups, block=128, checkpoint=ckpt)
-    total = len(make_tasks(512, 3, 128))
+    with Checkpoint(ckpt) as store:
+        resumed = run(_job(lambda x: seen.append(1) or _evaluator(x), design, groups), block=128, checkpoint=store)
+    total = len(list(iter_tasks(512, 3, 128)))
     assert len(seen) == total - 4  # only the unfinished tasks run again
-    fresh = run(_evaluator, design, groups, block=128)
+    fresh = run(_job(_evaluator, design, groups), block=128)
     for a, b in zip(resumed["out"], fresh["out"], strict=True):
-        np.testing.assert_allclose(a.estimates().total, b.estimates().total, rtol=1e-12)
-        np.testing.assert_allclose(a.estimates().first, b.estimates().first, rtol=1e-12, atol=1e-14)
+        np.testing.assert_allclose(a.finish(1).total, b.finish(1).total, rtol=1e-12)
+        np.testing.assert_allclose(a.finish(1).first, b.finish(1).first, rtol=1e-12, atol=1e-14)

@@ -1,0 +1,280 @@
+"""The subcommands: read the arguments, call a workflow, print and save its report. No numerics here."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+from typing import Any
+
+from ..errors import UserError
+from .output import check_report_target, console, print_result, progress, save_report
+
+__all__ = ["COMMANDS", "EXIT_GATE", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE"]
+
+EXIT_OK, EXIT_RUNTIME, EXIT_USAGE, EXIT_GATE = 0, 1, 2, 3
+
+ZOO = Path(__file__).resolve().parents[2] / "model_zoo"
+
+
+def _json_arg(text: str | None, what: str) -> dict[str, Any]:
+    if not text:
+        return {}
+    try:
+        v = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise UserError(f"{what} must be a JSON object like '{{\"hidden\": 32}}'; got '{text}' ({exc}).") from exc
+    if not isinstance(v, dict):
+        raise UserError(f"{what} must be a JSON object like '{{\"hidden\": 32}}'; got '{text}'.")
+    return v
+
+
+def _shape_arg(text: str | None) -> tuple[int, ...] | None:
+    if not text:
+        return None
+    try:
+        shape = tuple(int(s) for s in text.split(","))
+    except ValueError:
+        raise UserError(f"--input-shape must be whole numbers separated by commas, e.g. 1,8,8; got '{text}'.") from None
+    if not shape or min(shape) < 1:
+        raise UserError(f"--input-shape must be positive whole numbers, got '{text}'.")
+    return shape
+
+
+def _spec(args: argparse.Namespace) -> Any:
+    from ..inputs import load_spec, uniform_spec
+
+    if getattr(args, "inputs", None):
+        return load_spec(args.inputs)
+    return uniform_spec(getattr(args, "law", None) or "normal")
+
+
+def _open(args: argparse.Namespace, spec: Any, ref: str | None = None) -> Any:
+    from ..models.open import open_model
+
+    kwargs: dict[str, Any] = {"dim": args.dim if args.dim is not None else spec.dim}
+    torch_class = args.torch_class or spec.model.get("class")
+    if torch_class:
+        kwargs["torch_class"] = torch_class
+        kwargs["torch_arguments"] = _json_arg(args.torch_args, "--torch-args") or spec.model.get("arguments", {})
+    if args.trust_pickle:
+        kwargs["trust"] = True
+    shape = _shape_arg(args.input_shape) or (tuple(spec.model["input_shape"]) if "input_shape" in spec.model else None)
+    if shape is not None:
+        kwargs["input_shape"] = shape
+    return open_model(ref or args.model, **kwargs)
+
+
+def _design(args: argparse.Namespace) -> Any:
+    from ..studies.options import DesignOptions
+
+    return DesignOptions(
+        points=args.points, replicates=args.replicates, seed=args.seed, sampler=args.sampler, estimator=args.estimator
+    )
+
+
+def _run_options(args: argparse.Namespace, advance: Any) -> dict[str, Any]:
+    """The run options of ``audit``, ``compare`` and ``advise`` as keywords of the Python API."""
+    return {
+        "progress": advance,
+        "checkpoint": args.checkpoint,
+        "checkpoint_seconds": args.checkpoint_every,
+        "cluster": args.cluster,
+        "memory_limit": _memory_limit(args),
+    }
+
+
+def _run(args: argparse.Namespace, bar: Any) -> Any:
+    from ..studies.options import RunOptions
+
+    return RunOptions(**_run_options(args, bar.advance))
+
+
+def _memory_limit(args: argparse.Namespace) -> int | None:
+    if args.memory_limit is None:
+        return None
+    from ..errors import check_number
+
+    return int(check_number(args.memory_limit, "memory_limit", 0.0, low_open=True, why="(GiB)") * 2**30)
+
+
+def _finish(result: Any, args: argparse.Namespace) -> Path | None:
+    """Print the report, then save its JSON (and say where)."""
+    print_result(result, args)
+    saved = save_report(result, args)
+    if saved is not None and not args.quiet and args.format == "text":
+        print(f"Report saved to {saved}")
+    return saved
+
+
+def cmd_audit(args: argparse.Namespace) -> int:
+    from ..studies import execute, prepare
+
+    spec = _spec(args)
+    check_report_target(args.json, [args.model, getattr(args, "inputs", None)])
+    model = _open(args, spec)
+    setup = prepare(
+        model,
+        spec,
+        design=_design(args),
+        layers=args.layers,
+        unit_detail=[n for item in args.unit_detail for n in item.split(",") if n],
+        memory_limit=_memory_limit(args),
+    )
+    with progress(args, setup.evaluations) as bar:
+        result = execute(setup, _run(args, bar))
+    _finish(result, args)
+    return EXIT_OK
+
+
+def cmd_compare(args: argparse.Namespace) -> int:
+    from ..studies import Gates, compare_models, parse_output_map
+
+    spec = _spec(args)
+    check_report_target(args.json, [args.old, args.new, getattr(args, "inputs", None)])
+    old, new = _open(args, spec, args.old), _open(args, spec, args.new)
+    output_map = None
+    if args.output_map:
+        names = [list(spec.outputs) if spec.outputs is not None else m.output_names() for m in (old, new)]
+        output_map = parse_output_map(args.output_map, *names)
+    gates = Gates(args.max_dimension_rise, args.min_rank_agreement, args.max_index_shift)
+    design = _design(args)
+    from ..estimators import make_estimator
+
+    per = make_estimator(design.estimator, d=old.input.units, points=design.points).rows_per_point()
+    total = 2 * design.points * design.replicates * per
+    with progress(args, total) as bar:
+        # the paired run reports each row once for both models
+        advance = bar.advance if args.independent else (lambda n, phase: bar.advance(2 * n, phase))
+        result = compare_models(
+            old,
+            new,
+            spec,
+            layers=args.layers,
+            output_map=output_map,
+            gates=gates,
+            top_k=args.top_k,
+            paired=not args.independent,
+            **{k: getattr(design, k) for k in ("points", "replicates", "seed", "sampler", "estimator")},
+            **_run_options(args, advance),
+        )
+    _finish(result, args)
+    if not result.passed:
+        failed = ", ".join(g.name for g in result.gates if not g.passed)
+        print(f"netdim: gate failed: {failed}", file=sys.stderr)
+        return EXIT_GATE
+    return EXIT_OK
+
+
+def cmd_advise(args: argparse.Namespace) -> int:
+    from ..studies import execute_advice, prepare_advice
+
+    spec = _spec(args)
+    check_report_target(args.json, [args.model, getattr(args, "inputs", None)])
+    model = _open(args, spec)
+    options: dict[str, Any] = {}
+    if args.gain_points is not None:
+        try:
+            options["gain_points"] = tuple(int(v) for v in args.gain_points.split(",") if v.strip())
+        except ValueError:
+            raise UserError(
+                f"--gain-points takes whole numbers separated by commas, got '{args.gain_points}'."
+            ) from None
+    plan = prepare_advice(
+        model,
+        spec,
+        design=_design(args),
+        top=args.top,
+        nodes=args.nodes,
+        tolerance=args.tolerance,
+        freeze_threshold=args.freeze_threshold,
+        freeze_budget=args.freeze_budget,
+        memory_limit=_memory_limit(args),
+        **options,
+    )
+    with progress(args, plan.evaluations) as bar:
+        result = execute_advice(plan, _run(args, bar))
+    _finish(result, args)
+    return EXIT_OK
+
+
+def cmd_layers(args: argparse.Namespace) -> int:
+    from ..report import render
+    from ..studies import model_signature
+
+    spec = _spec(args)
+    model = _open(args, spec)
+    if not args.quiet:
+        render(model_signature(model), console(False))
+    return EXIT_OK
+
+
+def cmd_show(args: argparse.Namespace) -> int:
+    from ..results import result_from_dict
+
+    path = Path(args.report)
+    if not path.is_file():
+        raise UserError(f"The report '{args.report}' does not exist or is not a file.")
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+        result = result_from_dict(data)
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise UserError(f"'{args.report}' is not a JSON file: {exc}.") from exc
+    except (KeyError, TypeError, ValueError, AttributeError, RecursionError) as exc:
+        raise UserError(f"'{args.report}' is not a netdim report this version can read: {exc}.") from exc
+    print_result(result, args)
+    return EXIT_OK
+
+
+def _short_path(p: Path) -> str:
+    """``p`` relative to the working folder when it lies below it."""
+    try:
+        return str(p.relative_to(Path.cwd()))
+    except ValueError:
+        return str(p)
+
+
+def cmd_demo(args: argparse.Namespace) -> int:
+    from ..inputs import load_spec
+    from ..models.open import open_model
+    from ..studies import execute, prepare
+    from ..studies.options import DesignOptions, RunOptions
+
+    model_path = ZOO / "greenhouse_v1.onnx"
+    spec_path = ZOO / "greenhouse_v1.toml"
+    if not model_path.exists() or not spec_path.exists():
+        raise UserError(
+            f"The bundled greenhouse model is missing from {ZOO}. Reinstall netdim from its source "
+            "folder, or rebuild the zoo with `python -m model_zoo.build`."
+        )
+    spec = load_spec(_short_path(spec_path))
+    model = open_model(_short_path(model_path))
+    design = DesignOptions(points=args.points, replicates=args.replicates, seed=args.seed)
+    setup = prepare(model, spec, design=design)
+    with progress(args, setup.evaluations) as bar:
+        result = execute(setup, RunOptions(progress=bar.advance))
+    args.format, args.all_outputs = "text", True
+    print_result(result, args)
+    saved = save_report(result, args)
+    if not args.quiet:
+        if saved is not None:
+            print(f"Report saved to {saved}")
+        v1, v2, sp = (_short_path(p) for p in (model_path, ZOO / "greenhouse_v2.onnx", spec_path))
+        print(
+            "Next: compare with the retrained surrogate v2\n"
+            f"  netdim compare {v1} {v2} \\\n      --inputs {sp}\n"
+            "or ask which inputs to pre-integrate or freeze\n"
+            f"  netdim advise {v1} --inputs {sp}"
+        )
+    return EXIT_OK
+
+
+COMMANDS = {
+    "audit": cmd_audit,
+    "compare": cmd_compare,
+    "advise": cmd_advise,
+    "layers": cmd_layers,
+    "show": cmd_show,
+    "demo": cmd_demo,
+}

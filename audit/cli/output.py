@@ -1,0 +1,197 @@
+"""What the command line prints and writes: reports, saved JSON, progress, and error messages.
+
+Reports are written atomically (a temporary file in the same folder, then a
+rename), so a failed write never destroys an existing report; when the chosen
+place fails the report goes to a temporary file whose path is printed, and as
+a last resort to standard error. Default report names never collide.
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import json
+import os
+import re
+import sys
+import tempfile
+import time
+from pathlib import Path
+from typing import Any
+
+from ..errors import UserError
+
+__all__ = ["FLAGS", "as_flags", "check_report_target", "console", "print_result", "progress", "save_report"]
+
+#: Parameters of the Python API and the flags that set them on the command line.
+FLAGS = {
+    "points": "--points",
+    "replicates": "--replicates",
+    "seed": "--seed",
+    "sampler": "--sampler",
+    "estimator": "--estimator",
+    "layers": "--layers",
+    "unit_detail": "--unit-detail",
+    "checkpoint": "--checkpoint",
+    "checkpoint_seconds": "--checkpoint-every",
+    "cluster": "--cluster",
+    "memory_limit": "--memory-limit",
+    "dim": "--dim",
+    "inputs": "--inputs",
+    "torch_class": "--torch-class",
+    "torch_arguments": "--torch-args",
+    "input_shape": "--input-shape",
+    "trust": "--trust-pickle",
+    "output_map": "--output-map",
+    "top_k": "--top-k",
+    "top": "--top",
+    "nodes": "--nodes",
+    "tolerance": "--tolerance",
+    "freeze_threshold": "--freeze-threshold",
+    "freeze_budget": "--freeze-budget",
+    "gain_points": "--gain-points",
+}
+
+
+def as_flags(message: str) -> str:
+    """A library message with its backticked parameter names (```points```) written as flags (``--points``)."""
+    return re.sub(r"`([a-z_]+)`", lambda m: FLAGS.get(m.group(1), m.group(0)), message)
+
+
+def console(quiet: bool) -> Any:
+    """A report console on standard output (one writing nowhere when quiet)."""
+    from ..report import make_console
+
+    return make_console(file=open(os.devnull, "w") if quiet else None)  # lives as long as the run
+
+
+def print_result(result: Any, args: argparse.Namespace) -> None:
+    """Print a result as the chosen format asks (nothing when quiet)."""
+    if args.quiet:
+        return
+    fmt = getattr(args, "format", "text")
+    if fmt == "json":
+        print(json.dumps(result.to_dict(), indent=2))
+        return
+    from .. import report
+
+    options = {"all_outputs": getattr(args, "all_outputs", False)} if result.kind == "audit" else {}
+    if fmt == "markdown":
+        print(report.markdown(result, **options))
+    else:
+        report.render(result, console(False), **options)
+
+
+def _is_report(path: Path) -> bool:
+    try:
+        with path.open(encoding="utf-8") as f:
+            head = f.read(4096)
+        return '"tool": "netdim"' in head or '"tool":"netdim"' in head
+    except (OSError, UnicodeDecodeError):
+        return False
+
+
+def check_report_target(path: str | None, protected: list[str]) -> None:
+    """Refuse, before any work, a ``--json`` path that would overwrite something other than a netdim report."""
+    if not path:
+        return
+    target = Path(path)
+    for other in protected:
+        with contextlib.suppress(OSError, ValueError):
+            if other and Path(other).exists() and target.exists() and os.path.samefile(target, other):
+                raise UserError(
+                    f"--json '{path}' is the model or input spec of this run; writing the report there "
+                    "would destroy it. Give another path."
+                )
+    if target.is_dir():
+        raise UserError(f"--json '{path}' is a folder; give a file path such as reports/run.json.")
+    if target.exists() and not _is_report(target):
+        raise UserError(
+            f"--json '{path}' exists and is not a netdim report; netdim does not overwrite it. "
+            "Give another path, or remove the file first."
+        )
+
+
+def _default_path(source: str) -> Path:
+    stem = re.sub(r"[^A-Za-z0-9_.-]+", "_", Path(source.split(":")[-1]).stem or "model").strip("_") or "model"
+    return Path("reports") / f"{stem}-{time.strftime('%Y%m%d-%H%M%S')}.json"
+
+
+def _write_atomic(path: Path, text: str, *, exclusive: bool = False) -> Path:
+    """Write ``text`` to ``path`` through a temporary file in the same folder; with
+    ``exclusive``, never replace an existing file (a suffix -2, -3... is added)."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as f:
+            f.write(text)
+            f.flush()
+            os.fsync(f.fileno())
+        if not exclusive:
+            os.replace(tmp, path)
+            return path
+        for k in range(1, 1000):
+            target = path if k == 1 else path.with_name(f"{path.stem}-{k}{path.suffix}")
+            try:
+                os.link(tmp, target)  # fails when the name is taken: no report is ever replaced
+            except FileExistsError:
+                continue
+            os.unlink(tmp)
+            return target
+        raise OSError(f"no free report name next to {path}")
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+
+
+def save_report(result: Any, args: argparse.Namespace) -> Path | None:
+    """Write the JSON report; if the chosen place fails, keep it in a temporary file (or on stderr)."""
+    if getattr(args, "no_save", False) and not args.json:
+        return None
+    source = result.to_dict()["model"]
+    source = source["new"]["source"] if "new" in source else source.get("source", "model")
+    path = Path(args.json) if args.json else _default_path(source)
+    text = json.dumps(result.to_dict(), indent=2)
+    try:
+        return _write_atomic(path, text, exclusive=not args.json)
+    except OSError as exc:
+        why = exc.strerror or str(exc)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix="netdim-report-", suffix=".json")
+        with os.fdopen(fd, "w", encoding="utf-8") as f:
+            f.write(text)
+    except OSError:
+        sys.stderr.write(text + "\n")
+        raise UserError(
+            f"The report could not be written to '{path}' ({why}), nor to a temporary file. Nothing is lost: "
+            "its JSON is printed above on standard error. Choose a writable place with --json PATH."
+        ) from None
+    raise UserError(
+        f"The report could not be written to '{path}' ({why}). Nothing is lost: it was saved to '{tmp}' "
+        "instead. Choose a writable place with --json PATH."
+    )
+
+
+class _Bar:
+    """Progress bar on stderr for a run (nothing when stderr is not a terminal or when quiet)."""
+
+    def __init__(self, args: argparse.Namespace, total: int) -> None:
+        from ..report import RunProgress
+
+        self._bar = RunProgress(total, enabled=not args.quiet)
+
+    def __enter__(self) -> _Bar:
+        self._bar.__enter__()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self._bar.__exit__(*exc)
+
+    def advance(self, n: int, phase: str) -> None:
+        self._bar.advance(n, phase=phase)
+
+
+def progress(args: argparse.Namespace, total: int) -> _Bar:
+    """A progress bar for ``total`` model evaluations."""
+    return _Bar(args, total)

@@ -1,0 +1,234 @@
+"""The argument parser of ``netdim``: each subcommand takes only the options it honours."""
+
+from __future__ import annotations
+
+import argparse
+
+from .. import __version__
+
+__all__ = ["build_parser"]
+
+SAMPLER_HELP = "'sobol' (scrambled Sobol' points, default) or 'mc' (plain Monte Carlo)"
+ESTIMATOR_HELP = (
+    "'jansen' (every total and first-order index, N(d+2) evaluations; default) or "
+    "'fast' (the mean dimension alone, 2N whatever d is)"
+)
+
+
+def _positive_int(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got '{text}'") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"must be at least 1, got {v}")
+    return v
+
+
+def _seed(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a non-negative whole number, got '{text}'") from None
+    if v < 0:
+        raise argparse.ArgumentTypeError(f"must be ≥ 0, got {v}")
+    return v
+
+
+def _common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+    p.add_argument("--quiet", "-q", action="store_true", help="print nothing but errors")
+
+
+def _model_loading(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("model loading")
+    g.add_argument("--torch-class", metavar="MODULE:CLASS", help="class to rebuild a state-dict file")
+    g.add_argument("--torch-args", metavar="JSON", help="constructor keyword arguments for --torch-class, as JSON")
+    g.add_argument("--input-shape", metavar="D1,D2,...", help="non-batch input shape of a Torch file, e.g. 1,8,8")
+    g.add_argument(
+        "--trust-pickle",
+        action="store_true",
+        help="allow loading a whole pickled Torch module (runs code from the file: only for files you trust)",
+    )
+
+
+def _inputs(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("inputs")
+    src = g.add_mutually_exclusive_group()
+    src.add_argument("--inputs", metavar="SPEC.toml", help="input spec file: names and laws of the inputs")
+    src.add_argument("--law", help="every input N(0, 1) ('normal') or U[0, 1] ('uniform'); default normal")
+    g.add_argument("--dim", type=_positive_int, help="number of inputs of a Python callable")
+
+
+def _design(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("design")
+    g.add_argument("--points", type=int, default=1024, help="points N per randomization, a power of two (default 1024)")
+    g.add_argument("--replicates", type=int, default=8, help="independent randomizations R (default 8)")
+    g.add_argument("--seed", type=_seed, help="seed for the randomizations (default: fresh, recorded in the report)")
+    g.add_argument("--sampler", default="sobol", help=SAMPLER_HELP)
+    g.add_argument("--estimator", default="jansen", help=ESTIMATOR_HELP)
+
+
+def _running(p: argparse.ArgumentParser) -> None:
+    g = p.add_argument_group("running")
+    g.add_argument("--checkpoint", metavar="PATH", help="save finished work there and resume from it")
+    g.add_argument(
+        "--checkpoint-every",
+        type=float,
+        default=30.0,
+        metavar="SECONDS",
+        help="least seconds between two checkpoint saves (default 30)",
+    )
+    g.add_argument(
+        "--memory-limit", type=float, metavar="GIB", help="memory the run may use (default: what is available)"
+    )
+    g.add_argument(
+        "--cluster",
+        metavar="ADDRESS",
+        help="run the work on dask.distributed: 'local', 'local:N' (N worker processes) or a scheduler address",
+    )
+
+
+def _output(p: argparse.ArgumentParser, *, all_outputs: bool) -> None:
+    g = p.add_argument_group("report")
+    g.add_argument("--json", metavar="PATH", help="write the JSON report there (default: under reports/)")
+    g.add_argument("--no-save", action="store_true", help="do not save the JSON report")
+    g.add_argument("--format", default="text", choices=("text", "markdown", "json"), help="what to print")
+    if all_outputs:
+        g.add_argument("--all-outputs", action="store_true", help="detail every output, not just the first few")
+
+
+def _audit(sub: argparse._SubParsersAction) -> None:
+    a = sub.add_parser("audit", help="measure a model's outputs and hidden layers")
+    a.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
+    _inputs(a)
+    _design(a)
+    g = a.add_argument_group("hidden layers")
+    g.add_argument(
+        "--layers", default="activations", help="hidden layers: activations (default), all, none, or NAME,NAME"
+    )
+    g.add_argument(
+        "--unit-detail",
+        metavar="LAYER",
+        action="append",
+        default=[],
+        help="also rank inputs for every unit of this layer (costs d sums per unit)",
+    )
+    _running(a)
+    _model_loading(a)
+    _output(a, all_outputs=True)
+    _common(a)
+
+
+def _compare(sub: argparse._SubParsersAction) -> None:
+    c = sub.add_parser("compare", help="compare two model versions on the same points, with pipeline gates")
+    c.add_argument("old", metavar="OLD", help="the current model (file or package.module:function)")
+    c.add_argument("new", metavar="NEW", help="the candidate model (file or package.module:function)")
+    _inputs(c)
+    _design(c)
+    g = c.add_argument_group("what to compare")
+    g.add_argument("--layers", default="activations", help="hidden layers to compare (same name and size in both)")
+    g.add_argument("--output-map", metavar="OLD=NEW,...", help="pair outputs by name or index when they differ")
+    g.add_argument("--top-k", type=_positive_int, default=3, help="size of the leading-input sets compared (3)")
+    g.add_argument(
+        "--independent",
+        action="store_true",
+        help="use independent points for the two sides (wider intervals; for checking the pairing)",
+    )
+    gates = c.add_argument_group("gates (exit code 3 when one fails)")
+    gates.add_argument(
+        "--max-dimension-rise",
+        type=float,
+        metavar="X",
+        help="fail when any output's ν rises by more than X (judged on the interval's lower end)",
+    )
+    gates.add_argument(
+        "--min-rank-agreement",
+        type=float,
+        metavar="T",
+        help="fail when the Kendall τ of any output's total-index ranking falls below T",
+    )
+    gates.add_argument(
+        "--max-index-shift",
+        type=float,
+        metavar="S",
+        help="fail when any input's total index moves by more than S (interval end nearest 0)",
+    )
+    _running(c)
+    _model_loading(c)
+    _output(c, all_outputs=False)
+    _common(c)
+
+
+def _advise(sub: argparse._SubParsersAction) -> None:
+    ad = sub.add_parser("advise", help="which inputs to pre-integrate (measured gain) and which to freeze")
+    ad.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
+    _inputs(ad)
+    _design(ad)
+    ga = ad.add_argument_group("advice")
+    ga.add_argument("--top", type=_positive_int, default=3, help="pre-integration candidates tried per output (3)")
+    ga.add_argument("--nodes", type=_positive_int, default=32, help="starting Gauss nodes per pre-integration (32)")
+    ga.add_argument(
+        "--tolerance",
+        type=float,
+        default=1e-3,
+        help="largest quadrature error allowed, relative to the output's sd (0.001)",
+    )
+    ga.add_argument(
+        "--freeze-threshold",
+        type=float,
+        default=1e-3,
+        help="inputs whose total index stays below this (upper interval end) may be frozen (0.001)",
+    )
+    ga.add_argument(
+        "--freeze-budget",
+        type=float,
+        default=0.01,
+        help="largest mean squared error of freezing, as a share of the variance (0.01)",
+    )
+    ga.add_argument(
+        "--gain-points",
+        metavar="N,N,...",
+        help="point counts for the measured RQMC gain (default 256,...,16384; empty to skip)",
+    )
+    _running(ad)
+    _model_loading(ad)
+    _output(ad, all_outputs=False)
+    _common(ad)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of ``netdim``."""
+    parser = argparse.ArgumentParser(
+        prog="netdim",
+        description="Audit a trained model by its ANOVA structure: mean dimension and Sobol' indices "
+        "of every output and hidden unit, with confidence intervals from randomized quasi-Monte Carlo.",
+    )
+    parser.add_argument("--version", action="version", version=f"netdim {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+    _audit(sub)
+    _compare(sub)
+    _advise(sub)
+
+    lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
+    lay.add_argument("model", metavar="MODEL")
+    lay.add_argument("--dim", type=_positive_int, help="number of inputs of a Python callable")
+    lay.add_argument("--inputs", metavar="SPEC.toml", help="input spec (for names and a state-dict class)")
+    _model_loading(lay)
+    _common(lay)
+
+    s = sub.add_parser("show", help="print a saved JSON report again")
+    s.add_argument("report", metavar="REPORT.json")
+    s.add_argument("--format", default="text", choices=("text", "markdown"))
+    s.add_argument("--all-outputs", action="store_true", help="detail every output, not just the first few")
+    _common(s)
+
+    dm = sub.add_parser("demo", help="audit the bundled greenhouse surrogate")
+    dm.add_argument("--points", type=int, default=1024, help="points N per randomization (default 1024)")
+    dm.add_argument("--replicates", type=int, default=8, help="independent randomizations R (default 8)")
+    dm.add_argument("--seed", type=_seed, default=2026, help="seed (default 2026)")
+    dm.add_argument("--no-save", action="store_true", help="do not save the JSON report")
+    dm.add_argument("--json", metavar="PATH", help="write the JSON report there (default: under reports/)")
+    _common(dm)
+    return parser

@@ -1,0 +1,64 @@
+"""Estimators: streaming, mergeable sums from which indices and the mean dimension follow.
+
+``ESTIMATORS`` is the registry of the estimators a user can choose (each one
+module: :mod:`~audit.estimators.jansen`, :mod:`~audit.estimators.fast`); the
+workflows also use two internal ones, the freezing error
+(:mod:`~audit.estimators.freeze`) and prefix means for the RQMC gain
+(:mod:`~audit.estimators.prefix`). :mod:`~audit.estimators.intervals` builds
+every confidence interval. The protocol is in :mod:`~audit.estimators.base`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from .base import Estimator, Moments, RepEstimates, Sums
+from .fast import Fast, fast_assignment, fast_counts
+from .freeze import FreezeError
+from .inert import is_inert
+from .intervals import LEVEL, Interval, t_interval
+from .jansen import Jansen
+from .prefix import PrefixMeans
+
+__all__ = [
+    "ESTIMATORS",
+    "LEVEL",
+    "Estimator",
+    "Fast",
+    "FreezeError",
+    "Interval",
+    "Jansen",
+    "Moments",
+    "PrefixMeans",
+    "RepEstimates",
+    "Sums",
+    "fast_assignment",
+    "fast_counts",
+    "is_inert",
+    "make_estimator",
+    "t_interval",
+]
+
+#: Estimators a user can choose, by name (each class has ``label``, ``help`` and ``build``).
+ESTIMATORS: dict[str, type] = {"jansen": Jansen, "fast": Fast}
+
+
+def make_estimator(
+    name: str, *, d: int, points: int | None = None, groups: Sequence[Sequence[int]] | None = None
+) -> Estimator:
+    """The estimator ``name`` for d inputs (and N points, and groups of inputs where it supports them).
+
+    Raises
+    ------
+    ValueError
+        For an unknown name (listing the valid ones).
+
+    Examples
+    --------
+    >>> from audit.estimators import make_estimator
+    >>> make_estimator("jansen", d=3).rows_per_point()
+    5
+    """
+    if name not in ESTIMATORS:
+        raise ValueError(f"unknown estimator {name!r}; valid choices: {', '.join(ESTIMATORS)}.")
+    return ESTIMATORS[name].build(d=d, points=points if points is not None else 0, groups=groups)

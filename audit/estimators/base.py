@@ -1,0 +1,136 @@
+"""What every estimator implements, and the sums they share.
+
+An *estimator* turns blocks of design points into model rows and those rows'
+outputs into mergeable float64 sums, one :class:`Sums` per group of units and
+randomization. Sums of disjoint blocks of the same randomization merge exactly
+(up to rounding), so any split of the work -- blocks, processes, machines,
+checkpoints -- gives the same answer.
+
+The protocol (:class:`Estimator`):
+
+``name``, ``label``
+    Registry name (recorded in reports and checkpoints) and what reports call it.
+``copies``
+    Blocks of d uniform columns each design point needs (2: A and B).
+``rows_per_point()``
+    Model rows evaluated per design point (the cost: N · rows_per_point · R).
+``check(points)``
+    Refuse a design the estimator cannot use (a :class:`~audit.errors.UserError`).
+``layout(block, dtype)``
+    The model rows of a block, and a context for ``add``.
+``sums(units, detail, block)`` / ``restore(state)``
+    Empty sums for a group of units (per-input sums with ``detail``), or sums
+    rebuilt from :meth:`Sums.state`.
+``state_size(units, detail)``
+    Floats one :class:`Sums` holds (for the memory estimate).
+
+And every :class:`Sums` has ``rows`` (design points added), ``add(y, context)``,
+``merge(other)``, ``state()`` and ``finish(ddof)``.
+
+References
+----------
+.. [1] "Updating formulae and a pairwise algorithm for computing sample
+   variances", COMPSTAT, 1982 (the pairwise mean/M2 merge of :class:`Moments`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Protocol
+
+import numpy as np
+
+__all__ = ["Estimator", "Moments", "RepEstimates", "Sums"]
+
+
+class Moments:
+    """Count, mean and sum of squared deviations of k columns, mergeable (Chan's update).
+
+    Parameters
+    ----------
+    k : int
+        Number of columns.
+    """
+
+    def __init__(self, k: int) -> None:
+        self.count = 0
+        self.mean = np.zeros(k)
+        self.m2 = np.zeros(k)
+
+    def add(self, y: np.ndarray) -> None:
+        """Add the rows of ``y`` (n, k)."""
+        n_b = y.shape[0]
+        mean_b = y.mean(axis=0)
+        m2_b = ((y - mean_b) ** 2).sum(axis=0)
+        self.merge_values(n_b, mean_b, m2_b)
+
+    def merge_values(self, n_b: int, mean_b: np.ndarray, m2_b: np.ndarray) -> None:
+        """Merge the moments of ``n_b`` other values."""
+        n_a = self.count
+        if n_b == 0:
+            return
+        if n_a == 0:
+            self.count, self.mean, self.m2 = n_b, mean_b.copy(), m2_b.copy()
+            return
+        n = n_a + n_b
+        delta = mean_b - self.mean
+        self.mean = self.mean + delta * (n_b / n)
+        self.m2 = self.m2 + m2_b + delta**2 * (n_a * n_b / n)
+        self.count = n
+
+    def merge(self, other: Moments) -> None:
+        self.merge_values(other.count, other.mean, other.m2)
+
+    def variance(self, ddof: int) -> np.ndarray:
+        """``m2 / (count - ddof)``."""
+        return self.m2 / max(self.count - ddof, 1)
+
+
+@dataclass
+class RepEstimates:
+    """Un-normalised estimates of one randomization for k units.
+
+    ``total`` and ``first`` have shape (G, k) for G inputs or groups (``None``
+    without detail; ``first`` is ``None`` for estimators without first-order
+    indices); ``total_sum`` is ``sum_j total`` of shape (k,).
+    """
+
+    mean: np.ndarray
+    variance: np.ndarray
+    total: np.ndarray | None
+    first: np.ndarray | None
+    total_sum: np.ndarray
+
+
+class Sums(Protocol):
+    """Mergeable sums of one group of units over some rows of one randomization."""
+
+    rows: int
+
+    def add(self, y: np.ndarray, context: Any) -> None: ...
+
+    def merge(self, other: Any) -> None: ...
+
+    def state(self) -> dict[str, np.ndarray]: ...
+
+    def finish(self, ddof: int) -> Any: ...
+
+
+class Estimator(Protocol):
+    """See the module docstring."""
+
+    name: str
+    label: str
+    copies: int
+
+    def rows_per_point(self) -> int: ...
+
+    def check(self, points: int) -> None: ...
+
+    def layout(self, block: Any, dtype: Any) -> tuple[np.ndarray, Any]: ...
+
+    def sums(self, units: int, detail: bool, block: Any) -> Sums: ...
+
+    def restore(self, state: dict[str, np.ndarray]) -> Sums: ...
+
+    def state_size(self, units: int, detail: bool) -> int: ...

@@ -1,0 +1,261 @@
+"""Resolve a study before any evaluation: model, inputs, outputs, layers, design, estimator, memory.
+
+:func:`prepare` turns a model, an input spec and :class:`~audit.studies.options.DesignOptions`
+into a :class:`Setup`: names and laws of the inputs, output names, the hidden
+layers to capture, the design and the estimator, the groups of units the
+engine measures and the block size -- and refuses, before any work, a run
+whose memory would not fit. Every workflow (audit, compare, advise) starts here.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import inspect
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .. import engine
+from ..design import Design
+from ..errors import UserError, suggest
+from ..estimators import make_estimator
+from ..estimators.base import Estimator
+from ..inputs import InputSpec, Law, uniform_spec
+from ..models.base import LayerInfo, Model
+from .evaluators import ModelEvaluator
+from .options import DesignOptions
+
+__all__ = [
+    "LAYER_CHOICES",
+    "OUTPUTS",
+    "Setup",
+    "check_memory",
+    "inputs_spec",
+    "model_identity",
+    "prepare",
+    "resolve_model",
+    "select_layers",
+]
+
+#: Special values of ``layers``.
+LAYER_CHOICES = ("activations", "all", "none")
+#: Group name of a model's outputs (hidden layers are ``layer:NAME``).
+OUTPUTS = "outputs"
+
+
+def inputs_spec(inputs: InputSpec | str | Path | Sequence[Law] | None) -> InputSpec:
+    """An :class:`InputSpec` from a spec, a spec file path, ``"normal"`` / ``"uniform"``, laws, or ``None``."""
+    from ..inputs import load_spec
+
+    if inputs is None:
+        return uniform_spec("normal")
+    if isinstance(inputs, InputSpec):
+        return inputs
+    if isinstance(inputs, Path) or (isinstance(inputs, str) and inputs.endswith(".toml")):
+        return load_spec(inputs)
+    if isinstance(inputs, str):
+        return uniform_spec(inputs)
+    laws = list(inputs)
+    if not all(isinstance(x, Law) for x in laws):
+        raise UserError("`inputs` must be an InputSpec, a spec file path, 'normal', 'uniform' or a sequence of Law.")
+    return InputSpec(laws=laws, source="laws given in Python")
+
+
+def resolve_model(model: Any, spec: InputSpec, **open_options: Any) -> Model:
+    """An opened model: ``model`` itself, or the file / reference it names, opened with the spec's [model] table."""
+    if not isinstance(model, str | Path):
+        return model
+    from ..models.open import open_model
+
+    options = {"dim": spec.dim}
+    if "class" in spec.model:
+        options["torch_class"] = spec.model["class"]
+        options["torch_arguments"] = spec.model.get("arguments", {})
+    if "input_shape" in spec.model:
+        options["input_shape"] = tuple(spec.model["input_shape"])
+    options.update({k: v for k, v in open_options.items() if v is not None})
+    return open_model(str(model), **options)
+
+
+def _file_hash(path: Path) -> str:
+    digest = hashlib.sha256()
+    with path.open("rb") as f:
+        for chunk in iter(lambda: f.read(1 << 20), b""):
+            digest.update(chunk)
+    return digest.hexdigest()
+
+
+def model_identity(model: Any) -> dict[str, Any]:
+    """What identifies a model's numbers: its file's hash, or a function's module source and name."""
+    args = getattr(model, "open_args", None)
+    if isinstance(args, dict) and Path(str(args.get("ref", ""))).is_file():
+        return {"model_sha256": _file_hash(Path(args["ref"])), "model_format": getattr(model, "format", "")}
+    inner = getattr(model, "model", None)
+    if inner is not None and inner is not model and hasattr(model, "index"):  # a pre-integrated model
+        return {**model_identity(inner), "integrated": [int(model.index), int(model.cost)]}
+    func = getattr(model, "func", None)
+    if func is not None:
+        identity = {"model": str(getattr(model, "source", ""))}
+        try:
+            source = inspect.getsource(inspect.getmodule(func) or func)
+            identity["model_sha256"] = hashlib.sha256(source.encode()).hexdigest()
+        except (OSError, TypeError):
+            pass
+        return identity
+    return {"model": str(getattr(model, "source", type(model).__name__))}
+
+
+def select_layers(model: Model, layers: str | Sequence[str]) -> list[LayerInfo]:
+    """Hidden layers to capture: ``"activations"`` (default), ``"all"``, ``"none"`` or names."""
+    if isinstance(layers, str) and layers == "none":
+        return []
+    available = model.layers()
+    if isinstance(layers, str):
+        if layers == "activations":
+            return [x for x in available if x.activation]
+        if layers == "all":
+            return list(available)
+        layers = [s.strip() for s in layers.split(",") if s.strip()]
+    by_name = {x.name: x for x in available}
+    chosen = []
+    for name in layers:
+        if name not in by_name:
+            if not available:
+                raise UserError(f"The model has no hidden layers to capture, so '{name}' cannot be chosen.")
+            raise UserError(
+                f"The model has no layer named '{name}'."
+                + suggest(name, by_name)
+                + " List them with `netdim layers MODEL`, or set `layers` to all, none or activations."
+            )
+        chosen.append(by_name[name])
+    return chosen
+
+
+@dataclass
+class Setup:
+    """Everything a run needs, resolved and checked before any evaluation."""
+
+    model: Model
+    names: list[str]
+    laws: list[Law]
+    output_names: list[str]
+    layers: list[LayerInfo]
+    design: Design
+    estimator: Estimator
+    groups: list[engine.Group]
+    block: int
+    spec: InputSpec
+    options: DesignOptions
+    notices: list[str] = field(default_factory=list)
+    identity: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def dtype(self) -> type:
+        """Row type for the evaluator: float32 for networks stored in float32."""
+        return np.float32 if self.model.input.dtype == "float32" else np.float64
+
+    @property
+    def evaluations(self) -> int:
+        return self.design.points * self.design.replicates * self.estimator.rows_per_point()
+
+    def evaluator(self) -> ModelEvaluator:
+        return ModelEvaluator(self.model, [x.name for x in self.layers])
+
+    def job(self, name: str = "audit") -> engine.Job:
+        """The engine job of this setup."""
+        return engine.Job(
+            name,
+            self.evaluator(),
+            self.design,
+            self.estimator,
+            self.groups,
+            self.names,
+            self.dtype,
+            identity=self.identity,
+        )
+
+
+def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | None) -> None:
+    """Refuse, before any work, jobs whose largest memory need does not fit (each job runs alone)."""
+    need = max((engine.estimate_memory(job, block) for job, block in jobs), default=0)
+    have = memory_limit if memory_limit is not None else engine.available_memory()
+    if need > 0.8 * have:
+        raise UserError(
+            f"This run would need about {need / 2**30:.1f} GiB of memory but {have / 2**30:.1f} GiB is "
+            f"available. Capture fewer layers (`layers` NAME,... or none), drop `unit_detail`, or use "
+            f"fewer replicates."
+        )
+
+
+def prepare(
+    model: Model,
+    inputs: InputSpec | str | Sequence[Law] | None = None,
+    *,
+    design: DesignOptions | None = None,
+    layers: str | Sequence[str] = "activations",
+    unit_detail: Sequence[str] = (),
+    block: int | None = None,
+    memory_limit: int | None = None,
+    seed: int | None = None,
+) -> Setup:
+    """Resolve inputs, outputs, layers and design for ``model``; check memory.
+
+    Parameters
+    ----------
+    model : Model
+        An opened model.
+    inputs : InputSpec, spec path, {"normal", "uniform"}, sequence of Law, optional
+    design : DesignOptions, optional
+        Points, replicates, seed, sampler, estimator (defaults as documented there).
+    layers : {"activations", "all", "none"} or list of str
+    unit_detail : list of str
+        Layers whose units also get per-input total indices.
+    block : int, optional
+        Points per task (default from the memory budget).
+    memory_limit : int, optional
+        Bytes the run may use (default what is available).
+    seed : int, optional
+        Use this root seed instead of ``design.seed`` (the second model of a comparison on
+        independent points).
+
+    Raises
+    ------
+    UserError
+        For any choice that cannot work (listing the valid ones).
+    """
+    options = design or DesignOptions()
+    spec = inputs_spec(inputs)
+    notices: list[str] = list(options.notices)
+    d = model.input.units
+    names, laws = spec.resolve(d, model.feature_names())
+    if spec.names is None and getattr(model, "format", "") == "python":
+        names = [f"x{i}" for i in range(d)]
+    out_names = model.output_names()
+    if spec.outputs is not None:
+        if len(spec.outputs) != len(out_names):
+            raise UserError(
+                f"The input spec {spec.source} names {len(spec.outputs)} outputs but the model has "
+                f"{len(out_names)} output units. Fix [outputs] names in the spec."
+            )
+        out_names = list(spec.outputs)
+    chosen = select_layers(model, layers)
+    for name in unit_detail:
+        if name not in {x.name for x in chosen}:
+            raise UserError(f"`unit_detail` names layer '{name}', which is not captured; add it to `layers`.")
+    root = options.seed if seed is None else seed
+    dsg = Design(laws, options.points, options.replicates, root, options.sampler)  # type: ignore[arg-type]
+    estimator = make_estimator(options.estimator, d=d, points=options.points)
+    estimator.check(options.points)
+    groups = [engine.Group(OUTPUTS, len(out_names), True)]
+    groups += [engine.Group("layer:" + x.name, x.units, x.name in unit_detail) for x in chosen]
+    units = sum(g.units for g in groups)
+    budget = None if memory_limit is None else memory_limit // 2
+    blk = block or engine.plan_block(options.points, d, units, estimator.rows_per_point(), budget)
+    notices.extend(getattr(model, "notices", []) or [])
+    identity = model_identity(model)
+    setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
+    check_memory([(setup.job(), blk)], memory_limit)
+    return setup

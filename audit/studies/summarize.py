@@ -1,0 +1,212 @@
+"""From per-randomization sums to result objects: estimates with intervals, and run descriptions.
+
+:class:`GroupStats` collects the per-randomization estimates of one group of
+units; :func:`output_results` and :func:`layer_result` turn them into
+:mod:`audit.results` objects (ratios such as normalised indices and ν are
+formed per randomization, then averaged, with Student-t intervals from
+:mod:`audit.estimators.intervals`). :func:`model_info`, :func:`inputs_info` and
+:func:`design_info` describe a run the way the JSON report records it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from ..estimators import LEVEL, is_inert
+from ..estimators.intervals import Interval, t_interval
+from ..models.base import LayerInfo, Model, index_names
+from ..results import Estimate, FeatureEstimate, LayerResult, OutputResult, UnitResult
+from ..results.signature import LayerEntry, ModelSignature, TensorEntry
+from .setup import Setup
+
+__all__ = [
+    "GroupStats",
+    "design_info",
+    "estimate",
+    "estimates",
+    "inputs_info",
+    "layer_result",
+    "model_info",
+    "model_signature",
+    "output_results",
+]
+
+
+def estimates(interval: Interval) -> list[Estimate]:
+    """One :class:`Estimate` per entry of a 1-d :class:`Interval`."""
+    parts = (np.atleast_1d(x) for x in interval)
+    return [Estimate(float(a), float(b), float(c), float(s)) for a, b, c, s in zip(*parts, strict=True)]
+
+
+def estimate(interval: Interval) -> Estimate:
+    """The :class:`Estimate` of a scalar :class:`Interval`."""
+    return estimates(interval)[0]
+
+
+def intervals(values: np.ndarray) -> list[Estimate]:
+    """Per-column estimates of per-randomization values (randomizations on axis 0)."""
+    return estimates(t_interval(values, LEVEL, axis=0))
+
+
+@dataclass
+class GroupStats:
+    """Per-randomization arrays of one group, shape (R, ...)."""
+
+    mean: np.ndarray
+    var: np.ndarray
+    total: np.ndarray | None
+    first: np.ndarray | None
+    total_sum: np.ndarray
+    inert: np.ndarray
+
+    @classmethod
+    def of(cls, sums: list[Any], ddof: int) -> GroupStats:
+        reps = [s.finish(ddof) for s in sums]
+        mean = np.array([r.mean for r in reps])
+        var = np.array([r.variance for r in reps])
+        total = None if reps[0].total is None else np.array([r.total for r in reps])
+        first = None if reps[0].first is None else np.array([r.first for r in reps])
+        total_sum = np.array([r.total_sum for r in reps])
+        inert = is_inert(mean.mean(axis=0), var.mean(axis=0))
+        return cls(mean, var, total, first, total_sum, inert)
+
+    def ratio(self, num: np.ndarray) -> np.ndarray:
+        """num / variance per randomization, NaN where the variance is 0."""
+        var = self.var if num.ndim == self.var.ndim else self.var[:, None, :]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(var > 0, num / np.where(var > 0, var, 1.0), np.nan)
+
+    def weighted_nu(self) -> np.ndarray:
+        """Per randomization, Σ total indices / Σ variances over the live units (NaN if none)."""
+        live = ~self.inert
+        if not live.any():
+            return np.full(self.var.shape[0], np.nan)
+        return self.total_sum[:, live].sum(axis=1) / self.var[:, live].sum(axis=1)
+
+
+def _features(per_input: list[list[Estimate]] | None, k: int, features: list[str], inert: bool) -> list:
+    if inert or per_input is None:
+        return []
+    return [FeatureEstimate(f, per_input[j][k]) for j, f in enumerate(features)]
+
+
+def output_results(stats: GroupStats, names: list[str], features: list[str]) -> list[OutputResult]:
+    """One :class:`OutputResult` per output unit of the group."""
+    means, variances = intervals(stats.mean), intervals(stats.var)
+    nus = intervals(stats.ratio(stats.total_sum))
+    tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
+    fo = [intervals(x) for x in stats.ratio(stats.first).transpose(1, 0, 2)] if stats.first is not None else None
+    results = []
+    for k, name in enumerate(names):
+        inert = bool(stats.inert[k])
+        results.append(
+            OutputResult(
+                name=name,
+                mean=means[k],
+                variance=variances[k],
+                mean_dimension=None if inert else nus[k],
+                total_index=_features(tot, k, features, inert),
+                first_order=_features(fo, k, features, inert),
+                inert=inert,
+            )
+        )
+    return results
+
+
+def layer_result(info: LayerInfo, stats: GroupStats, features: list[str]) -> LayerResult:
+    """The :class:`LayerResult` of one hidden layer: every unit and a summary."""
+    unit_names = index_names(info.name, info.shape)
+    variances = intervals(stats.var)
+    nus = intervals(stats.ratio(stats.total_sum))
+    tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
+    units = []
+    for u, name in enumerate(unit_names):
+        inert = bool(stats.inert[u])
+        units.append(
+            UnitResult(
+                unit=name,
+                variance=variances[u],
+                mean_dimension=None if inert else nus[u],
+                inert=inert,
+                total_index=_features(tot, u, features, inert),
+            )
+        )
+    live = ~stats.inert
+    nu_live = np.array([nus[u].estimate for u in np.flatnonzero(live)])
+    # variance-weighted mean of nu = sum of all total indices / sum of variances, per randomization
+    w = intervals(stats.weighted_nu())[0] if live.any() else None
+    q = (lambda p: float(np.quantile(nu_live, p))) if len(nu_live) else (lambda p: float("nan"))
+    summary: dict[str, Any] = {
+        "units": len(unit_names),
+        "inert_units": int(stats.inert.sum()),
+        "nu_min": q(0.0),
+        "nu_median": q(0.5),
+        "nu_p90": q(0.9),
+        "nu_max": q(1.0),
+        "nu_weighted": w.estimate if w else float("nan"),
+        "nu_weighted_ci_low": w.ci_low if w else float("nan"),
+        "nu_weighted_ci_high": w.ci_high if w else float("nan"),
+    }
+    return LayerResult(info.name, info.op, tuple(info.shape), summary, units)
+
+
+def inputs_info(setup: Setup) -> list[dict[str, Any]]:
+    """Names, laws and units of the inputs, as the JSON report lists them."""
+    units = list(setup.spec.units) if setup.spec.units else [""] * len(setup.names)
+    return [
+        {"name": n, **law.to_dict(), **({"unit": u} if u else {})}
+        for n, law, u in zip(setup.names, setup.laws, units, strict=True)
+    ]
+
+
+def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
+    """The design of a run, as the JSON report records it."""
+    return {
+        "points": setup.design.points,
+        "replicates": setup.design.replicates,
+        "seed": setup.design.seed,
+        "sampler": setup.design.sampler,
+        "estimator": setup.estimator.name,
+        "evaluations": setup.evaluations,
+        "block": setup.block,
+        "interval": f"Student-t over {setup.design.replicates} independent randomizations, {LEVEL:.0%}",
+        "level": LEVEL,
+        "seconds": round(seconds, 3),
+        **({"spec": setup.spec.source} if setup.spec.source.endswith(".toml") else {}),
+    }
+
+
+def model_info(setup: Setup) -> dict[str, Any]:
+    """Where the model came from and its signature, as the JSON report records it."""
+    model = setup.model
+    info: dict[str, Any] = {
+        "source": model.source,
+        "format": model.format,
+        "input": {"name": model.input.name, "shape": list(model.input.shape)},
+        "outputs": [{"name": t.name, "shape": list(t.shape)} for t in model.outputs],
+    }
+    if setup.spec.title:
+        info["title"] = setup.spec.title
+    if setup.spec.output_units:
+        info["output_units"] = list(setup.spec.output_units)
+    return info
+
+
+def model_signature(model: Model) -> ModelSignature:
+    """The signature of an opened model, as ``netdim layers`` shows it."""
+
+    def tensor(t: Any) -> TensorEntry:
+        return TensorEntry(t.name, tuple(t.shape), t.dtype)
+
+    layers = [LayerEntry(x.name, x.op, tuple(x.shape), x.activation) for x in model.layers()]
+    return ModelSignature(
+        model.source,
+        model.format,
+        [tensor(model.input)],
+        [tensor(t) for t in model.outputs],
+        layers,
+        list(getattr(model, "notices", []) or []),
+    )
