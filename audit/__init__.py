@@ -14,8 +14,7 @@ import importlib
 from typing import Any
 
 from .results.base import set_renderer
-
-__version__ = "0.1.0"
+from .version import __version__
 
 #: Public name -> module that defines it.
 _EXPORTS = {

@@ -36,3 +36,19 @@ def slow_sum(x):
 
     time.sleep(0.2)
     return x[:, 0] + x[:, 1] * x[:, 2]
+
+
+def slow_sum_v2(x):
+    """A retrained slow_sum: x0 + 1.1 x1 x2, slowly (0.2 s a call): for checkpoint tests of compare."""
+    import time
+
+    time.sleep(0.2)
+    return x[:, 0] + 1.1 * x[:, 1] * x[:, 2]
+
+
+def slow_ridge(x):
+    """tanh(x0 + 0.5 x1 - 0.2 x2) + 1e-4 x3, slowly (0.1 s a call): for checkpoint tests of advise."""
+    import time
+
+    time.sleep(0.1)
+    return np.tanh(x[:, 0] + 0.5 * x[:, 1] - 0.2 * x[:, 2]) + 1e-4 * x[:, 3]

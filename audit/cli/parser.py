@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from .. import __version__
+from ..version import __version__
 
 __all__ = ["build_parser"]
 

@@ -1,0 +1,41 @@
+"""Compare two JSON reports number by number (a test helper)."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+#: Keys whose values are not results of the computation.
+NOT_RESULTS = frozenset({"seconds", "source", "spec", "block"})
+
+
+def differences(old: Any, new: Any, rtol: float, where: str = "report", ignore=NOT_RESULTS) -> list[str]:
+    """Every place where ``new`` differs from ``old`` (numbers beyond ``rtol``; keys of ``old`` only)."""
+    out: list[str] = []
+    _walk(old, new, where, out, rtol, ignore)
+    return out
+
+
+def _walk(old: Any, new: Any, where: str, out: list[str], rtol: float, ignore) -> None:
+    if isinstance(old, dict):
+        if not isinstance(new, dict):
+            out.append(f"{where}: was an object, now {type(new).__name__}")
+            return
+        for key, value in old.items():
+            if key in ignore:
+                continue
+            if key not in new:
+                out.append(f"{where}.{key}: missing")
+                continue
+            _walk(value, new[key], f"{where}.{key}", out, rtol, ignore)
+    elif isinstance(old, list):
+        if not isinstance(new, list) or len(new) != len(old):
+            out.append(f"{where}: list of {len(old)} became {new!r:.60}")
+            return
+        for i, (a, b) in enumerate(zip(old, new, strict=True)):
+            _walk(a, b, f"{where}[{i}]", out, rtol, ignore)
+    elif isinstance(old, float) and isinstance(new, int | float) and not isinstance(new, bool):
+        if not math.isclose(old, new, rel_tol=rtol, abs_tol=1e-300):
+            out.append(f"{where}: {old!r} became {new!r}")
+    elif old != new:
+        out.append(f"{where}: {old!r} became {new!r}")
