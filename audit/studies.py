@@ -20,7 +20,7 @@ from .errors import UserError, suggest
 from .estimators import ESTIMATORS, Accumulator, is_inert, t_interval
 from .inputs import InputSpec, Law, uniform_spec
 from .models.base import LayerInfo, Model, index_names
-from .models.python_model import PythonModel
+from .models.python import PythonModel
 from .results import AuditResult, Estimate, FeatureEstimate, LayerResult, OutputResult, UnitResult
 from .results.signature import LayerEntry, ModelSignature, TensorEntry
 

@@ -39,8 +39,8 @@ from audit import Law, audit_function
 from audit.advice import advise_function, advise_model, prepare_advice
 from audit.errors import UserError
 from audit.inputs import load_spec
+from audit.models import PythonModel
 from audit.models.open import open_model
-from audit.models.python_model import PythonModel
 from audit.quadrature import (
     MAX_NODES,
     PreIntegrated,

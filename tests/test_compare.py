@@ -12,7 +12,7 @@ import pytest
 
 from audit.comparison import Gates, compare_models
 from audit.errors import UserError
-from audit.models.python_model import PythonModel
+from audit.models import PythonModel
 
 ROOT = Path(__file__).resolve().parent.parent
 ENV = {**os.environ, "PYTHONPATH": os.pathsep.join([str(ROOT / "tests"), str(ROOT)])}

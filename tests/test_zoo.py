@@ -221,7 +221,7 @@ def test_netdim_opens_every_shipped_file(name):
                 raise
             # TorchScript does not record input shapes; the zoo's archives carry it in
             # netdim.json, which the backend may not read yet: pass it explicitly.
-            from audit.models.torch_model import open_torch
+            from audit.models import open_torch
 
             model = open_torch(path, input_shape=rec["input_shape"])
         assert model.input.units == x.shape[1], (fmt, model.input)

@@ -8,7 +8,7 @@ from typing import Any
 
 from ..errors import UserError
 from .base import Model
-from .python_model import PythonModel, import_reference
+from .python import PythonModel, import_reference
 
 __all__ = ["is_python_reference", "open_model"]
 
@@ -75,11 +75,11 @@ def open_model(
         raise UserError(f"'{ref}' is a folder, not a model file. Give the path of the model file itself.")
     suffix = path.suffix.lower()
     if suffix == ".onnx":
-        from .onnx_model import OnnxModel
+        from .onnx import OnnxModel
 
         model: Any = OnnxModel(path, input_shape=input_shape)
     elif suffix in (".pt", ".pth", ".pt2", ".ts", ".torchscript"):
-        from .torch_model import open_torch
+        from .torch import open_torch
 
         model = open_torch(
             path,

@@ -1,15 +1,17 @@
-"""ONNX backend: loading, layer discovery, evaluation against numpy, batching.
+"""ONNX backend: loading, layer discovery, evaluation against numpy, batching, refusals.
 
 Reference values come from independent numpy code written from the ONNX
 operator definitions (ONNX Operators specification, onnx.ai, opset 17) or from
 the Torch network the file was exported from; nothing is copied from netdim's
-own output.
+own output. Bad files are built here (common practice, no source): the
+assertions check the error type and the words a user needs to fix the problem.
 """
 
 from __future__ import annotations
 
 import io
-import re
+import os
+from pathlib import Path
 
 import netbuild
 import numpy as np
@@ -19,7 +21,7 @@ from onnx import TensorProto
 from rich.console import Console
 
 from audit.errors import UserError
-from audit.models import LayerInfo, Model, OnnxModel, TensorInfo, open_model
+from audit.models import Model, OnnxModel, open_model
 from audit.report.signature import render_signature
 from audit.studies import model_signature
 
@@ -30,6 +32,17 @@ RNG = np.random.default_rng(20240611)
 def ops_model(tmp_path_factory: pytest.TempPathFactory) -> OnnxModel:
     path = netbuild.ops_graph(tmp_path_factory.mktemp("ops") / "ops.onnx")
     return OnnxModel(path)
+
+
+@pytest.fixture(scope="module")
+def mlp_paths(tmp_path_factory: pytest.TempPathFactory) -> dict[str, Path]:
+    net = netbuild.seeded(netbuild.TinyMLP, seed=0)
+    return netbuild.export_all(net, torch.zeros(2, 3), tmp_path_factory.mktemp("err"), "mlp")
+
+
+def _random_bytes(path: Path, size: int = 4096) -> Path:
+    path.write_bytes(os.urandom(size))
+    return path
 
 
 @pytest.fixture(scope="module")
@@ -178,29 +191,6 @@ def test_signature_plain_when_not_a_terminal(ops_model: OnnxModel) -> None:
                     ["gemm", "Gemm", "(6,)", "6", "no"]]  # fmt: skip
 
 
-class _LongNames:
-    """A stand-in model with very long names, to check that tables fold them."""
-
-    def __init__(self) -> None:
-        self.source, self.format = "stand-in", "python"
-        self.input = TensorInfo("x", (3,))
-        self.outputs = [TensorInfo("y" * 90, (2,))]
-        self.notices = ["a notice"]
-
-    def layers(self) -> list[LayerInfo]:
-        return [LayerInfo("/block/" + "deep/" * 25 + "Relu_output_0", "Relu", (4, 4), True)]
-
-
-def test_signature_folds_long_names_within_80_columns() -> None:
-    for terminal in (False, True):
-        buffer = io.StringIO()
-        render_signature(model_signature(_LongNames()), Console(file=buffer, width=200, force_terminal=terminal))
-        plain = re.sub(r"\x1b\[[0-9;]*m", "", buffer.getvalue())
-        assert max(len(line) for line in plain.splitlines()) <= 80
-        assert plain.count("/block/deep/") == 1 and "yes" in plain
-        assert "a notice" in plain and "16" in plain  # units of the (4, 4) layer
-
-
 def test_input_shape_override_checked(tmp_path) -> None:
     path = netbuild.linear_graph(tmp_path / "lin.onnx")
     assert OnnxModel(path, input_shape=(3,)).input.shape == (3,)
@@ -208,6 +198,66 @@ def test_input_shape_override_checked(tmp_path) -> None:
         OnnxModel(path, input_shape=(4,))
 
 
-def test_open_model_dispatch_passes_input_shape(tmp_path) -> None:
-    path = netbuild.linear_graph(tmp_path / "lin.onnx")
-    assert open_model(str(path), input_shape=(3,)).input.units == 3
+# -- files and signatures netdim refuses ------------------------------------------------------
+
+
+def test_truncated_onnx(tmp_path: Path, mlp_paths: dict[str, Path]) -> None:
+    data = mlp_paths["onnx"].read_bytes()
+    path = tmp_path / "cut.onnx"
+    path.write_bytes(data[: len(data) // 2])
+    with pytest.raises(UserError, match=r"truncated|damaged|invalid"):
+        open_model(str(path))
+
+
+def test_random_bytes_onnx(tmp_path: Path) -> None:
+    with pytest.raises(UserError, match=r"ONNX"):
+        open_model(str(_random_bytes(tmp_path / "noise.onnx")))
+
+
+def test_unsupported_operator(tmp_path: Path) -> None:
+    path = netbuild.unknown_op_graph(tmp_path / "custom.onnx")
+    with pytest.raises(UserError, match=r"cannot be used.*operator.*Frobnicate"):
+        open_model(str(path))
+
+
+def test_two_input_onnx(tmp_path: Path) -> None:
+    path = netbuild.two_input_graph(tmp_path / "two.onnx")
+    with pytest.raises(UserError, match=r"2 input tensors \('a', 'b'\).*exactly one"):
+        open_model(str(path))
+
+
+def test_integer_input_onnx(tmp_path: Path) -> None:
+    path = netbuild.linear_graph(tmp_path / "int.onnx", dtype=TensorProto.INT64)
+    with pytest.raises(UserError, match=r"tensor\(int64\).*float, double and float16"):
+        open_model(str(path))
+
+
+def test_external_data_outside_folder(tmp_path: Path) -> None:
+    inner = tmp_path / "models"
+    inner.mkdir()
+    path = netbuild.external_data_graph(inner / "ext.onnx", "../elsewhere/a.bin")
+    assert (tmp_path / "elsewhere" / "a.bin").is_file()
+    with pytest.raises(UserError, match=r"outside the model's folder"):
+        open_model(str(path))
+
+
+def test_external_data_missing(tmp_path: Path) -> None:
+    path = netbuild.external_data_graph(tmp_path / "ext.onnx", "a.bin")
+    (tmp_path / "a.bin").unlink()
+    with pytest.raises(UserError, match="does not exist"):
+        open_model(str(path))
+
+
+def test_symbolic_feature_dims_need_input_shape(tmp_path: Path) -> None:
+    from onnx import helper
+
+    graph = helper.make_graph(
+        [helper.make_node("Relu", ["x"], ["y"])],
+        "sym",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", "F"])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", "F"])],
+    )
+    path = netbuild.save_onnx(graph, tmp_path / "sym.onnx")
+    with pytest.raises(UserError, match=r"--input-shape"):
+        open_model(str(path))
+    assert open_model(str(path), input_shape=(4,)).input.units == 4

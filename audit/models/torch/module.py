@@ -1,0 +1,128 @@
+"""Eager ``torch.nn.Module`` models (a state dict rebuilt with its class, or a trusted pickle).
+
+Layers are submodules, named by qualified name (``net.1``); their outputs are
+read with forward hooks registered only while capturing.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import torch
+
+from ..base import LayerInfo
+from .common import ACTIVATION_MODULES, TorchModel, float_dtype, leaves, shape_error
+
+__all__ = ["ModuleModel"]
+
+
+class ModuleModel(TorchModel):
+    """An eager ``torch.nn.Module`` (rebuilt from a state dict, or a trusted pickle).
+
+    Layers are submodules, named by qualified name; their outputs are read
+    with forward hooks registered only while capturing.
+    """
+
+    def __init__(
+        self,
+        module: torch.nn.Module,
+        path: Path,
+        format: str,
+        *,
+        input_shape: tuple[int, ...] | None = None,
+    ) -> None:
+        self.module = module.eval()
+        self.format = format
+        if input_shape is None:
+            input_shape = self._infer_shape(path)
+        dtype = float_dtype(list(module.parameters()) + list(module.buffers()))
+        super().__init__(path, input_shape, dtype)
+        self._submodules = dict(module.named_modules())
+
+    def _infer_shape(self, path: Path) -> tuple[int, ...]:
+        for _, sub in self.module.named_modules():
+            if next(sub.parameters(recurse=False), None) is None:
+                continue
+            if isinstance(sub, torch.nn.Linear):
+                return (sub.in_features,)
+            raise shape_error(path, f"its first layer with weights is a {type(sub).__name__}")
+        raise shape_error(path, "it has no layer with weights to read the shape from")
+
+    def _forward(
+        self, x: torch.Tensor, capture: tuple[str, ...]
+    ) -> tuple[list[torch.Tensor], list[torch.Tensor]]:
+        if not capture:
+            return leaves(self.module(x)), []
+        store: dict[str, torch.Tensor] = {}
+        handles = []
+        for name in capture:
+
+            def hook(_mod: Any, _inp: Any, out: Any, name: str = name) -> None:
+                # Copy now: a later in-place operation (ReLU(inplace=True)) must not alter it.
+                store[name] = out.detach().reshape(out.shape[0], -1).to(torch.float64, copy=True)
+
+            handles.append(self._submodules[name].register_forward_hook(hook))
+        try:
+            outs = leaves(self.module(x))
+        finally:
+            for handle in handles:
+                handle.remove()
+        return outs, [store[name] for name in capture]
+
+    def _discover_layers(self) -> list[LayerInfo]:
+        rows = self._probe_rows()
+        seen: dict[str, list[torch.Tensor]] = {}
+        order: list[str] = []
+        handles = []
+        for name, sub in self.module.named_modules():
+            if not name:
+                continue
+
+            def hook(_mod: Any, _inp: Any, out: Any, name: str = name) -> None:
+                if name not in seen:
+                    order.append(name)
+                seen.setdefault(name, []).append(out)
+
+            handles.append(sub.register_forward_hook(hook))
+        try:
+            with torch.inference_mode():
+                result = leaves(self.module(self._tensor(np.zeros((rows, self.input.units)))))
+        finally:
+            for handle in handles:
+                handle.remove()
+        repeated = [name for name in order if len(seen[name]) > 1]
+        kept = [
+            (name, seen[name][0])
+            for name in order
+            if len(seen[name]) == 1
+            and isinstance(seen[name][0], torch.Tensor)
+            and seen[name][0].is_floating_point()
+            and seen[name][0].ndim >= 1
+            and seen[name][0].shape[0] == rows
+        ]
+        # A container returns the very tensor of one of its submodules: keep the submodule.
+        # Siblings may share a tensor too (an in-place ReLU after a Linear); hooks copy at
+        # call time, so each keeps its own values. Of a tensor the model returns, the last
+        # module to hand it on is the output itself, not a hidden layer.
+        kept = [
+            (name, out)
+            for name, out in kept
+            if not any(o is out and n.startswith(name + ".") for n, o in kept)
+        ]
+        returned = {id(out) for out in result}
+        last = {id(out): name for name, out in kept}
+        layers = []
+        for name, out in kept:
+            if id(out) in returned and last[id(out)] == name:
+                continue
+            op = type(self._submodules[name]).__name__
+            layers.append(LayerInfo(name, op, tuple(out.shape[1:]), op in ACTIVATION_MODULES))
+        if repeated:
+            self.notices.append(
+                "Modules called more than once per forward pass are not offered as layers: "
+                + ", ".join(repeated)
+                + "."
+            )
+        return layers
