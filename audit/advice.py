@@ -414,7 +414,7 @@ def _freeze_pass(
                 ab[:, list(u)] = b.B[:, list(u)]
                 parts.append(ab)
             X = np.concatenate(parts)
-            y = model.evaluate(X).outputs.reshape(len(X), -1)
+            y = np.asarray(model.evaluate(X).outputs, dtype=np.float64).reshape(len(X), -1)
             evaluations += len(X)
             n = b.n
             yA = y[:n]

@@ -401,7 +401,9 @@ def cmd_compare(args: argparse.Namespace) -> int:
         names = [prepare(m, spec, points=2, replicates=2, seed=0, layers="none").output_names for m in (old, new)]
         output_map = parse_output_map(args.output_map, *names)
     gates = Gates(args.max_dimension_rise, args.min_rank_agreement, args.max_index_shift)
-    per = 2 if args.estimator == "fast" else old.input.units + 2
+    from .models.base import feature_count
+
+    per = 2 if args.estimator == "fast" else feature_count(old) + 2
     from .design import round_points
 
     total = 2 * round_points(max(args.points, 1)) * max(args.replicates, 1) * per

@@ -19,7 +19,7 @@ from .design import SAMPLERS, Design, resolve_seed, round_points
 from .errors import UserError, suggest
 from .estimators import ESTIMATORS, Accumulator, is_inert, t_interval
 from .inputs import InputSpec, Law, uniform_spec
-from .models.base import LayerInfo, Model, index_names
+from .models.base import LayerInfo, Model, feature_count, index_names, row_dtype
 from .models.python import PythonModel
 from .results import AuditResult, Estimate, FeatureEstimate, LayerResult, OutputResult, UnitResult
 from .results.signature import LayerEntry, ModelSignature, TensorEntry
@@ -91,7 +91,7 @@ class Setup:
     @property
     def dtype(self) -> type:
         """Row type for the evaluator: float32 for networks stored in float32."""
-        return np.float32 if self.model.input.dtype == "float32" else np.float64
+        return row_dtype(self.model)
 
     @property
     def evaluations(self) -> int:
@@ -157,7 +157,7 @@ def prepare(
         )
     spec = _inputs_spec(inputs)
     notices: list[str] = []
-    d = model.input.units
+    d = feature_count(model)
     names, laws = spec.resolve(d, model.feature_names())
     if spec.names is None and isinstance(model, PythonModel):
         names = [f"x{i}" for i in range(d)]
@@ -327,13 +327,19 @@ def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
     }
 
 
+def _inputs_entry(model: Model) -> dict[str, Any]:
+    """``input`` for a model with one input tensor (as reports always had), else ``inputs``."""
+    entries = [{"name": t.name, "shape": list(t.shape)} for t in model.inputs]
+    return {"input": entries[0]} if len(entries) == 1 else {"inputs": entries}
+
+
 def model_info(setup: Setup) -> dict[str, Any]:
     """Where the model came from and its signature, as the JSON report records it."""
     model = setup.model
     info: dict[str, Any] = {
         "source": model.source,
         "format": model.format,
-        "input": {"name": model.input.name, "shape": list(model.input.shape)},
+        **_inputs_entry(model),
         "outputs": [{"name": t.name, "shape": list(t.shape)} for t in model.outputs],
     }
     if setup.spec.title:
@@ -515,7 +521,7 @@ def model_signature(model: Model) -> ModelSignature:
     return ModelSignature(
         model.source,
         model.format,
-        [tensor(model.input)],
+        [tensor(t) for t in model.inputs],
         [tensor(t) for t in model.outputs],
         layers,
         list(getattr(model, "notices", []) or []),

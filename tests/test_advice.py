@@ -115,7 +115,7 @@ def test_preintegrated_returns_what_the_function_returns():
     # a model gives a model with d - 1 inputs
     pm = preintegrate(PythonModel(two, 3, source="two"), laws, 1, 3)
     assert isinstance(pm, PreIntegratedModel)
-    assert pm.input.units == 2 and pm.feature_names() == ["x[0]", "x[2]"]
+    assert pm.inputs[0].units == 2 and pm.feature_names() == ["x[0]", "x[2]"]
     np.testing.assert_allclose(pm.evaluate(x).outputs, g(x), atol=1e-15)
     assert g(np.zeros((0, 2))).shape == (0, 2)
 

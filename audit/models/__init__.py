@@ -26,7 +26,7 @@ import importlib
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from .base import Evaluation, LayerInfo, Model, TensorInfo, index_names
+    from .base import Evaluation, LayerInfo, Model, TensorInfo, feature_count, index_names, row_dtype
     from .onnx import OnnxModel
     from .open import is_python_reference, open_model, reopen
     from .python import PythonModel, import_reference
@@ -38,6 +38,8 @@ _EXPORTS = {
     "LayerInfo": "base",
     "Model": "base",
     "TensorInfo": "base",
+    "feature_count": "base",
+    "row_dtype": "base",
     "index_names": "base",
     "OnnxModel": "onnx",
     "is_python_reference": "open",
@@ -57,12 +59,14 @@ __all__ = [
     "PythonModel",
     "TensorInfo",
     "TorchModel",
+    "feature_count",
     "import_reference",
     "index_names",
     "is_python_reference",
     "open_model",
     "open_torch",
     "reopen",
+    "row_dtype",
 ]
 
 

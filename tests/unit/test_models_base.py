@@ -1,4 +1,5 @@
-"""The model interface: names of tensor elements, and what studies see of a stand-in model.
+"""The model interface: feature counts, row types, names of tensor elements, and what studies
+see of a stand-in model.
 
 Common practice, no source: the expected names follow from the C order of the element
 indices.
@@ -9,9 +10,12 @@ from __future__ import annotations
 import io
 import re
 
+import numpy as np
+import pytest
 from rich.console import Console
 
-from audit.models import LayerInfo, TensorInfo, index_names
+from audit.models import Evaluation, LayerInfo, Model, TensorInfo, feature_count, index_names, row_dtype
+from audit.models.base import check_rows, element_names
 from audit.report.signature import render_signature
 from audit.studies import model_signature
 
@@ -27,7 +31,7 @@ class _LongNames:
 
     def __init__(self) -> None:
         self.source, self.format = "stand-in", "python"
-        self.input = TensorInfo("x", (3,))
+        self.inputs = [TensorInfo("x", (3,))]
         self.outputs = [TensorInfo("y" * 90, (2,))]
         self.notices = ["a notice"]
 
@@ -44,3 +48,44 @@ def test_signature_folds_long_names_within_80_columns() -> None:
         assert plain.count("/block/deep/") == 1 and "yes" in plain
         assert "a notice" in plain and "16" in plain  # units of the (4, 4) layer
 
+
+
+class _TwoTensors:
+    """A stand-in with two input tensors of different types."""
+
+    def __init__(self, dtypes: tuple[str, str]) -> None:
+        self.source, self.format, self.notices = "stand-in", "python", []
+        self.inputs = [TensorInfo("a", (2,), dtypes[0]), TensorInfo("b", (2, 3), dtypes[1])]
+        self.outputs = [TensorInfo("y", ())]
+
+    def layers(self) -> list[LayerInfo]:
+        return []
+
+    def feature_names(self) -> list[str]:
+        return element_names(self.inputs)
+
+    def output_names(self) -> list[str]:
+        return ["y"]
+
+    def evaluate(self, x, capture=()) -> Evaluation:
+        return Evaluation(np.zeros((len(x), 1)))
+
+
+def test_feature_count_and_row_dtype() -> None:
+    model = _TwoTensors(("float32", "float16"))
+    assert isinstance(model, Model)
+    assert feature_count(model) == 8
+    assert row_dtype(model) is np.float32
+    for other in ("float64", "int64", "bfloat16", "bool"):
+        assert row_dtype(_TwoTensors(("float32", other))) is np.float64, other
+
+
+def test_element_names_tensor_after_tensor() -> None:
+    names = _TwoTensors(("float32", "float32")).feature_names()
+    assert names[:3] == ["a[0]", "a[1]", "b[0,0]"] and names[-1] == "b[1,2]" and len(names) == 8
+
+
+def test_check_rows() -> None:
+    assert check_rows(np.zeros((4, 3)), 3).shape == (4, 3)
+    with pytest.raises(ValueError, match=r"shape \(n, 3\)"):
+        check_rows(np.zeros(3), 3)

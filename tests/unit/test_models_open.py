@@ -62,7 +62,7 @@ def test_formats_are_recognised(mlp_models) -> None:
     assert {kind: m.format for kind, m in mlp_models.items()} == expected
     for model in mlp_models.values():
         assert isinstance(model, Model)
-        assert model.input.units == 3  # inferred from the first Linear or stored in the file
+        assert model.inputs[0].units == 3  # inferred from the first Linear or stored in the file
         assert model.output_names() == [f"{model.outputs[0].name}[0]", f"{model.outputs[0].name}[1]"]
     assert mlp_models["pt2_fixed"].batch_size == 4 and mlp_models["pt2"].batch_size is None
     assert mlp_models["onnx_fixed"].batch_size == 4
@@ -106,7 +106,7 @@ def test_unknown_suffix(tmp_path: Path) -> None:
 
 def test_open_model_dispatch_passes_input_shape(tmp_path) -> None:
     path = netbuild.linear_graph(tmp_path / "lin.onnx")
-    assert open_model(str(path), input_shape=(3,)).input.units == 3
+    assert open_model(str(path), input_shape=(3,)).inputs[0].units == 3
 
 
 # -- every format, the same numbers ----------------------------------------------------------
@@ -118,7 +118,7 @@ def test_same_outputs_in_every_format(mlp, mlp_models) -> None:
     ref = _eager(net, x)
     for kind, model in mlp_models.items():
         ev = model.evaluate(x)
-        assert ev.outputs.dtype == np.float64, kind
+        assert ev.outputs.dtype == np.float32, kind  # a float32 network, in its own precision
         np.testing.assert_allclose(ev.outputs, ref, rtol=1e-5, atol=1e-6, err_msg=kind)
 
 

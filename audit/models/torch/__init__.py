@@ -22,12 +22,12 @@ runs under ``torch.inference_mode()`` in the model's own precision
 from __future__ import annotations
 
 import os
-from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
 import torch
 
+from ..tensors import InputShape
 from .common import ACTIVATION_MODULES, TorchModel
 from .exported import ACTIVATION_TARGETS, ExportedModel
 from .load import check_file, load_weights, rebuild, sniff, state_dict
@@ -52,7 +52,7 @@ def open_torch(
     torch_class: str | None = None,
     torch_arguments: dict[str, Any] | None = None,
     trust: bool = False,
-    input_shape: Sequence[int] | None = None,
+    input_shape: InputShape | None = None,
 ) -> TorchModel:
     """Open a Torch model file.
 
@@ -68,10 +68,12 @@ def open_torch(
     trust : bool
         Load a file holding a whole pickled ``nn.Module``. Unpickling runs
         code from the file, so this is off by default.
-    input_shape : tuple of int, optional
-        Non-batch shape of the input. Torch files do not store it, except
-        ``.pt2`` programs; it is inferred when the network starts with a
-        ``Linear`` layer.
+    input_shape : tuple of int or dict of str to tuple of int, optional
+        Non-batch shape of the input, or ``{argument name: shape}`` when the
+        forward takes several tensors. Torch files do not store it, except
+        ``.pt2`` programs (and TorchScript archives that record it in
+        :data:`SHAPE_FILE`); for one input it is inferred when the network
+        starts with a ``Linear`` layer.
 
     Returns
     -------
@@ -80,14 +82,13 @@ def open_torch(
     path = Path(path)
     check_file(path)
     torch.set_num_threads(os.cpu_count() or 1)
-    shape = None if input_shape is None else tuple(int(s) for s in input_shape)
     kind = sniff(path)
     if kind == "export":
-        return ExportedModel(path, input_shape=shape)
+        return ExportedModel(path, input_shape=input_shape)
     if kind == "torchscript":
-        return ScriptModel(path, input_shape=shape)
+        return ScriptModel(path, input_shape=input_shape)
     obj = load_weights(path, trust)
     if isinstance(obj, torch.nn.Module):
-        return ModuleModel(obj, path, "torch-module", input_shape=shape)
+        return ModuleModel(obj, path, "torch-module", input_shape=input_shape)
     module = rebuild(state_dict(obj, path), torch_class, torch_arguments, path)
-    return ModuleModel(module, path, "state-dict", input_shape=shape)
+    return ModuleModel(module, path, "state-dict", input_shape=input_shape)

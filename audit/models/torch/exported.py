@@ -15,8 +15,9 @@ import torch
 from torch.utils import _pytree as pytree
 
 from ...errors import UserError
-from ..base import LayerInfo
-from .common import TorchModel, leaves, shape_error
+from ..base import LayerInfo, TensorInfo, feature_count
+from ..tensors import InputShape, input_shapes
+from .common import TorchModel, dtype_name, leaves, shape_error
 
 __all__ = ["ACTIVATION_TARGETS", "ExportedModel"]
 
@@ -31,6 +32,12 @@ ACTIVATION_TARGETS = frozenset(
 )  # fmt: skip
 
 
+def _narrow(a: tuple[int, int | None], b: tuple[int, int | None]) -> tuple[int, int | None]:
+    """Batch sizes both ranges allow."""
+    high = b[1] if a[1] is None else a[1] if b[1] is None else min(a[1], b[1])
+    return max(a[0], b[0]), high
+
+
 def _finite(value: Any) -> int | None:
     """An integer range bound, or None when it is unbounded (sympy infinity)."""
     try:
@@ -43,14 +50,15 @@ def _finite(value: Any) -> int | None:
 class ExportedModel(TorchModel):
     """A ``torch.export`` program (``.pt2``). Layers are graph nodes (``relu``, ``linear_1``).
 
-    The program records its example input, which gives the input shape. When
-    the program was exported with a fixed batch size, rows are fed in chunks
-    of that size.
+    The program records its example inputs, which give the input tensors (one
+    per placeholder, in order), their shapes and element types. When the
+    program was exported with a fixed batch size, rows are fed in chunks of
+    that size.
     """
 
     format = "torch-export"
 
-    def __init__(self, path: Path, *, input_shape: tuple[int, ...] | None = None) -> None:
+    def __init__(self, path: Path, *, input_shape: InputShape | None = None) -> None:
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
@@ -65,17 +73,43 @@ class ExportedModel(TorchModel):
             ) from exc
         self._modules: dict[tuple[str, ...], torch.fx.GraphModule] = {}
         placeholders = [n for n in self.module.graph.nodes if n.op == "placeholder"]
-        if len(placeholders) != 1:
+        if not placeholders:
             raise UserError(
-                f"The torch.export program '{path}' takes {len(placeholders)} inputs; netdim "
-                "supports programs with exactly one floating-point input tensor."
+                f"The torch.export program '{path}' takes no input; netdim audits programs whose "
+                "forward takes one or more tensors."
             )
-        example = placeholders[0].meta.get("val")
-        if not isinstance(example, torch.Tensor) or not example.is_floating_point():
+        names = [node.name for node in placeholders]
+        given = input_shapes(input_shape, names, str(path))
+        inputs, limits = [], (1, None)
+        for node in placeholders:
+            info, bounds = self._input(node, path, program, given, names)
+            inputs.append(info)
+            limits = _narrow(limits, bounds)
+        super().__init__(path, inputs, batch=limits)
+        if limits[0] == limits[1] == 1:
+            self.notices.append(
+                f"The program '{path.name}' was exported with a batch size of 1, so netdim "
+                "evaluates it one row at a time, which is slow. Export it with a dynamic batch "
+                "dimension (torch.export.Dim)."
+            )
+
+    @staticmethod
+    def _input(
+        node: torch.fx.Node, path: Path, program: Any, given: dict[str, tuple[int, ...]], names: list[str]
+    ) -> tuple[TensorInfo, tuple[int, int | None]]:
+        """The input tensor of placeholder ``node`` and the batch sizes it allows."""
+        example = node.meta.get("val")
+        if not isinstance(example, torch.Tensor) or example.ndim == 0:
+            what = f"a scalar {example.dtype}" if isinstance(example, torch.Tensor) else type(example).__name__
             raise UserError(
-                f"The input of the torch.export program '{path}' is "
-                f"{getattr(example, 'dtype', type(example).__name__)}; netdim supports one "
-                "floating-point tensor input."
+                f"The input '{node.name}' of the torch.export program '{path}' is {what}; netdim "
+                "feeds tensors with a batch axis first. Export the program with example tensors of "
+                "shape (batch, ...)."
+            )
+        if example.is_complex():
+            raise UserError(
+                f"The input '{node.name}' of the torch.export program '{path}' is {example.dtype}; "
+                "netdim feeds real numbers. Export the program with a real-valued input."
             )
         batch, *rest = example.shape
         if isinstance(batch, int):
@@ -86,21 +120,16 @@ class ExportedModel(TorchModel):
             high = _finite(bounds.upper) if bounds is not None else None
             limits = (max(low, 1), high)
         known = tuple(int(s) for s in rest) if all(isinstance(s, int) for s in rest) else None
-        if input_shape is not None and known is not None and tuple(input_shape) != known:
+        wanted = given.get(node.name)
+        if wanted is not None and known is not None and wanted != known:
             raise UserError(
-                f"The input shape {tuple(input_shape)} given for '{path}' does not match the "
+                f"The input shape {wanted} given for '{node.name}' of '{path}' does not match the "
                 f"program's own input shape {known}. Leave --input-shape out for this model."
             )
-        shape = known or input_shape
+        shape = known if known is not None else wanted
         if shape is None:
-            raise shape_error(path, "the program's input has symbolic non-batch dimensions")
-        super().__init__(path, tuple(shape), example.dtype, batch=limits)
-        if limits[0] == limits[1] == 1:
-            self.notices.append(
-                f"The program '{path.name}' was exported with a batch size of 1, so netdim "
-                "evaluates it one row at a time, which is slow. Export it with a dynamic batch "
-                "dimension (torch.export.Dim)."
-            )
+            raise shape_error(path, f"the program's input '{node.name}' has symbolic non-batch dimensions", names)
+        return TensorInfo(node.name, tuple(shape), dtype_name(example.dtype)), limits
 
     def _graph_module(self, names: tuple[str, ...]) -> torch.fx.GraphModule:
         key = tuple(sorted(names))
@@ -117,12 +146,12 @@ class ExportedModel(TorchModel):
         return self._modules[key]
 
     def _forward(
-        self, x: torch.Tensor, capture: tuple[str, ...]
+        self, xs: list[torch.Tensor], capture: tuple[str, ...]
     ) -> tuple[list[torch.Tensor], list[torch.Tensor]]:
         if not capture:
-            return leaves(self.module(x)), []
+            return leaves(self.module(*xs)), []
         key = tuple(sorted(capture))
-        result = self._graph_module(capture)(x)
+        result = self._graph_module(capture)(*xs)
         k = len(result) - len(key)
         captured = dict(zip(key, result[k:], strict=True))
         return [r for r in result[:k] if isinstance(r, torch.Tensor)], [
@@ -147,7 +176,7 @@ class ExportedModel(TorchModel):
             return []
         names = tuple(node.name for node in candidates)
         rows = self._probe_rows()
-        _, values = self._run(np.zeros((rows, self.input.units)), names)
+        _, values = self._run(np.zeros((rows, feature_count(self))), names)
         self._modules.pop(tuple(sorted(names)), None)
         layers = []
         for node, value in zip(candidates, values, strict=True):

@@ -1,19 +1,23 @@
 """Eager ``torch.nn.Module`` models (a state dict rebuilt with its class, or a trusted pickle).
 
-Layers are submodules, named by qualified name (``net.1``); their outputs are
-read with forward hooks registered only while capturing.
+The input tensors are the forward's positional parameters without a default,
+in order (a forward taking only ``*args`` counts as one input ``x``); their
+shapes come from ``input_shape``, or, for one input, from a first ``Linear``
+layer. Layers are submodules, named by qualified name (``net.1``); their outputs
+are read with forward hooks registered only while capturing.
 """
 
 from __future__ import annotations
 
+import inspect
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import torch
 
 from ..base import LayerInfo
-from .common import ACTIVATION_MODULES, TorchModel, float_dtype, leaves, shape_error
+from ..tensors import InputShape, input_shapes
+from .common import ACTIVATION_MODULES, TorchModel, float_dtype, input_tensors, leaves, shape_error
 
 __all__ = ["ModuleModel"]
 
@@ -31,14 +35,15 @@ class ModuleModel(TorchModel):
         path: Path,
         format: str,
         *,
-        input_shape: tuple[int, ...] | None = None,
+        input_shape: InputShape | None = None,
     ) -> None:
         self.module = module.eval()
         self.format = format
-        if input_shape is None:
-            input_shape = self._infer_shape(path)
+        names = _arguments(module)
+        given = input_shapes(input_shape, names, str(path))
         dtype = float_dtype(list(module.parameters()) + list(module.buffers()))
-        super().__init__(path, input_shape, dtype)
+        inputs = input_tensors(path, names, given, dtype, lambda: self._infer_shape(path))
+        super().__init__(path, inputs)
         self._submodules = dict(module.named_modules())
 
     def _infer_shape(self, path: Path) -> tuple[int, ...]:
@@ -51,21 +56,21 @@ class ModuleModel(TorchModel):
         raise shape_error(path, "it has no layer with weights to read the shape from")
 
     def _forward(
-        self, x: torch.Tensor, capture: tuple[str, ...]
+        self, xs: list[torch.Tensor], capture: tuple[str, ...]
     ) -> tuple[list[torch.Tensor], list[torch.Tensor]]:
         if not capture:
-            return leaves(self.module(x)), []
+            return leaves(self.module(*xs)), []
         store: dict[str, torch.Tensor] = {}
         handles = []
         for name in capture:
 
             def hook(_mod: Any, _inp: Any, out: Any, name: str = name) -> None:
                 # Copy now: a later in-place operation (ReLU(inplace=True)) must not alter it.
-                store[name] = out.detach().reshape(out.shape[0], -1).to(torch.float64, copy=True)
+                store[name] = out.detach().reshape(out.shape[0], -1).clone()
 
             handles.append(self._submodules[name].register_forward_hook(hook))
         try:
-            outs = leaves(self.module(x))
+            outs = leaves(self.module(*xs))
         finally:
             for handle in handles:
                 handle.remove()
@@ -88,7 +93,7 @@ class ModuleModel(TorchModel):
             handles.append(sub.register_forward_hook(hook))
         try:
             with torch.inference_mode():
-                result = leaves(self.module(self._tensor(np.zeros((rows, self.input.units)))))
+                result = leaves(self.module(*self._zeros()))
         finally:
             for handle in handles:
                 handle.remove()
@@ -126,3 +131,14 @@ class ModuleModel(TorchModel):
                 + "."
             )
         return layers
+
+
+def _arguments(module: torch.nn.Module) -> list[str]:
+    """Names of the forward's positional parameters without a default (or ``["x"]``)."""
+    try:
+        parameters = inspect.signature(module.forward).parameters.values()
+    except (TypeError, ValueError):  # no signature to read: one tensor, as most networks take
+        return ["x"]
+    kinds = (inspect.Parameter.POSITIONAL_ONLY, inspect.Parameter.POSITIONAL_OR_KEYWORD)
+    names = [p.name for p in parameters if p.kind in kinds and p.default is inspect.Parameter.empty]
+    return names or ["x"]

@@ -12,33 +12,34 @@ import contextlib
 import json
 import re
 import warnings
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import torch
 
 from ...errors import UserError
 from ..base import LayerInfo
-from .common import ACTIVATION_MODULES, TorchModel, float_dtype, leaves, shape_error
+from ..tensors import InputShape, input_shapes
+from .common import ACTIVATION_MODULES, TorchModel, float_dtype, input_tensors, leaves, shape_error
 
 __all__ = ["SHAPE_FILE", "ScriptModel"]
 
 #: Extra file of a TorchScript archive where netdim (and the model zoo) record the input shape:
-#: ``{"input_shape": [1, 8, 8]}``; save it with ``torch.jit.save(m, path, _extra_files={...})``.
+#: ``{"input_shape": [1, 8, 8]}``, or one per forward argument ``{"input_shape": {"a": [3], ...}}``;
+#: save it with ``torch.jit.save(m, path, _extra_files={...})``.
 SHAPE_FILE = "netdim.json"
 
 
-def _recorded_shape(text: str | bytes) -> tuple[int, ...] | None:
+def _recorded_shapes(text: str | bytes, names: Sequence[str], path: Path) -> dict[str, tuple[int, ...]]:
+    """Input shapes recorded in the archive's :data:`SHAPE_FILE`; {} when absent or unreadable."""
     if not text:
-        return None
+        return {}
     try:
         shape = json.loads(text).get("input_shape")
-        return tuple(int(s) for s in shape) if shape else None
-    except (ValueError, TypeError, AttributeError):
-        return None
-
-
+        return input_shapes(shape, names, str(path)) if shape else {}
+    except (ValueError, AttributeError, UserError):
+        return {}
 
 
 _SCOPE = re.compile(r"([^.()]+)\(([^()]*)\)")
@@ -73,7 +74,7 @@ class ScriptModel(TorchModel):
 
     format = "torchscript"
 
-    def __init__(self, path: Path, *, input_shape: tuple[int, ...] | None = None) -> None:
+    def __init__(self, path: Path, *, input_shape: InputShape | None = None) -> None:
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
@@ -86,22 +87,33 @@ class ScriptModel(TorchModel):
                 "damaged or was saved by an incompatible torch version: save it again."
             ) from exc
         self._functions: dict[tuple[str, ...], Any] = {}
-        inputs = list(self.module.graph.inputs())[1:]
-        if len(inputs) != 1:
-            raise UserError(
-                f"The TorchScript model '{path}' takes {len(inputs)} inputs; netdim supports "
-                "models with exactly one floating-point input tensor. Wrap the model so that all "
-                "features arrive in one tensor."
-            )
-        if not isinstance(inputs[0].type(), torch._C.TensorType):
-            raise UserError(
-                f"The input of the TorchScript model '{path}' has type {inputs[0].type()}; "
-                "netdim supports one floating-point tensor input."
-            )
-        if input_shape is None:
-            input_shape = _recorded_shape(extra[SHAPE_FILE]) or self._infer_shape(path)
+        names = self._arguments(path)
+        given = input_shapes(input_shape, names, str(path)) or _recorded_shapes(extra[SHAPE_FILE], names, path)
         dtype = float_dtype(list(self.module.parameters()) + list(self.module.buffers()))
-        super().__init__(path, input_shape, dtype)
+        super().__init__(path, input_tensors(path, names, given, dtype, lambda: self._infer_shape(path)))
+
+    def _arguments(self, path: Path) -> list[str]:
+        """Names of the forward's tensor arguments; a UserError for any other argument."""
+        values = list(self.module.graph.inputs())[1:]
+        try:
+            names = [argument.name for argument in self.module.forward.schema.arguments[1:]]
+        except (AttributeError, RuntimeError):
+            names = []
+        if len(names) != len(values):
+            names = [re.sub(r"\.\d+$", "", value.debugName()) for value in values]
+        if not values:
+            raise UserError(
+                f"The TorchScript model '{path}' takes no input; netdim audits models whose forward "
+                "takes one or more tensors."
+            )
+        for name, value in zip(names, values, strict=True):
+            if not isinstance(value.type(), torch._C.TensorType):
+                raise UserError(
+                    f"The argument '{name}' of the TorchScript model '{path}' has type {value.type()}; "
+                    "netdim feeds tensors only. Wrap the model so that its forward takes tensors "
+                    "(fix other arguments inside the wrapper)."
+                )
+        return names
 
     def _inlined(self) -> tuple[torch._C.Graph, dict[str, tuple[torch._C.Value, str]]]:
         """A fresh inlined copy of the forward graph and, per submodule, its output value."""
@@ -158,12 +170,12 @@ class ScriptModel(TorchModel):
         return self._functions[key]
 
     def _forward(
-        self, x: torch.Tensor, capture: tuple[str, ...]
+        self, xs: list[torch.Tensor], capture: tuple[str, ...]
     ) -> tuple[list[torch.Tensor], list[torch.Tensor]]:
         if not capture:
-            return leaves(self.module(x)), []
+            return leaves(self.module(*xs)), []
         function, key = self._function(capture)
-        result = function(self.module._c, x)
+        result = function(self.module._c, *xs)
         captured = dict(zip(key, result[1:], strict=True))
         return leaves(result[0]), [captured[name] for name in capture]
 
@@ -175,7 +187,7 @@ class ScriptModel(TorchModel):
         rows = self._probe_rows()
         function, key = self._function(names)
         with torch.inference_mode():
-            result = function(self.module._c, self._tensor(np.zeros((rows, self.input.units))))
+            result = function(self.module._c, *self._zeros())
         values = dict(zip(key, result[1:], strict=True))
         layers = []
         for name in names:
