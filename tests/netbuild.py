@@ -1,9 +1,11 @@
 """Tiny networks for the model-backend tests, saved into a temporary folder.
 
-Torch networks are exported to ONNX (the TorchScript-based exporter, which
-needs no extra packages), TorchScript, ``torch.export`` programs (.pt2), state
-dicts and whole pickles. Hand-made ONNX graphs (built with ``onnx.helper``)
-cover operators one by one and the broken files the error tests need.
+Torch networks (with one or several forward tensors) are exported to ONNX (the
+TorchScript-based exporter, which needs no extra packages), TorchScript,
+``torch.export`` programs (.pt2), state dicts and whole pickles. Hand-made ONNX
+graphs (built with ``onnx.helper``) cover operators one by one, several and
+typed inputs, outputs that hold no real numbers, and the broken files the error
+tests need.
 """
 
 from __future__ import annotations
@@ -25,10 +27,15 @@ __all__ = [
     "TinyMLP",
     "TwoShapes",
     "export_all",
+    "label_and_score_graph",
     "ops_graph",
     "ops_reference",
     "save_onnx",
+    "string_input_graph",
+    "symbolic_pair_graph",
     "two_input_graph",
+    "typed_graph",
+    "zipmap_graph",
 ]
 
 OPSET = 17

@@ -8,6 +8,7 @@ here; the assertions check the error type and the words a user needs to fix the 
 
 from __future__ import annotations
 
+import pickle
 from pathlib import Path
 
 import netbuild
@@ -16,7 +17,16 @@ import pytest
 import torch
 
 from audit.errors import UserError
-from audit.models import Model, OnnxModel, open_model, open_torch
+from audit.models import (
+    Model,
+    OnnxModel,
+    PythonModel,
+    feature_count,
+    is_python_reference,
+    open_model,
+    open_torch,
+    reopen,
+)
 
 RNG = np.random.default_rng(7)
 MLP_CLASS = "netbuild:TinyMLP"
@@ -107,6 +117,24 @@ def test_unknown_suffix(tmp_path: Path) -> None:
 def test_open_model_dispatch_passes_input_shape(tmp_path) -> None:
     path = netbuild.linear_graph(tmp_path / "lin.onnx")
     assert open_model(str(path), input_shape=(3,)).inputs[0].units == 3
+
+
+def test_reopen_with_shapes_per_tensor(tmp_path) -> None:
+    path = netbuild.symbolic_pair_graph(tmp_path / "pair.onnx")
+    model = open_model(str(path), input_shape={"b": [4]})
+    # the open arguments travel to other processes: plain, picklable values
+    args = pickle.loads(pickle.dumps(model.open_args))
+    assert args["input_shape"] == {"b": (4,)} and Path(args["ref"]).is_absolute()
+    again = reopen(args)
+    assert again is not model and [t.shape for t in again.inputs] == [(3,), (4,)]
+    x = RNG.normal(size=(3, 7))
+    np.testing.assert_array_equal(again.evaluate(x).outputs, model.evaluate(x).outputs)
+
+
+def test_python_reference_is_opened_as_a_python_model() -> None:
+    assert is_python_reference("clifuncs:two_outputs") and not is_python_reference("model.onnx")
+    model = open_model("clifuncs:two_outputs", dim=2)
+    assert isinstance(model, PythonModel) and feature_count(model) == 2
 
 
 # -- every format, the same numbers ----------------------------------------------------------
