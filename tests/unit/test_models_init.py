@@ -101,3 +101,46 @@ def test_import_rules_of_every_module() -> None:
     for path in files:
         problems += _violations(path.read_text(encoding="utf-8"), _module_name(path), path.name == "__init__.py")
     assert problems == []
+
+
+def _cycle(edges: dict[str, set[str]]) -> list[str]:
+    """One import cycle of ``edges`` (module -> modules it imports), or [] when there is none."""
+    done: set[str] = set()
+
+    def visit(name: str, path: list[str]) -> list[str]:
+        if name in path:
+            return [*path[path.index(name) :], name]
+        if name in done:
+            return []
+        for target in sorted(edges.get(name, ())):
+            found = visit(target, [*path, name])
+            if found:
+                return found
+        done.add(name)
+        return []
+
+    for name in sorted(edges):
+        found = visit(name, [])
+        if found:
+            return found
+    return []
+
+
+def test_the_cycle_finder_finds_cycles() -> None:
+    assert _cycle({"a": {"b"}, "b": {"c"}, "c": {"a"}}) == ["a", "b", "c", "a"]
+    assert _cycle({"a": {"b", "c"}, "b": {"c"}, "c": set()}) == []
+
+
+def test_no_import_cycles_inside_the_package() -> None:
+    modules = {_module_name(path): path for path in sorted(PACKAGE.rglob("*.py"))}
+    # an import of a package's own ancestor runs that __init__ first: not a cycle
+    edges = {
+        name: {
+            target
+            for target in _imports(path.read_text(encoding="utf-8"), name, path.name == "__init__.py")
+            if target in modules and target != name and not name.startswith(target + ".")
+        }
+        for name, path in modules.items()
+    }
+    assert edges["audit.models.torch.common"] >= {"audit.models.base", "audit.models.tensors"}
+    assert _cycle(edges) == []
