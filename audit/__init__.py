@@ -14,7 +14,7 @@ import importlib
 from typing import Any
 
 from .results.base import set_renderer
-from .version import __version__
+from .version import __version__ as __version__
 
 #: Public name -> module that defines it.
 _EXPORTS = {

@@ -59,7 +59,7 @@ class NodeCheck:
 
 
 def _outputs_of(func: Callable[[np.ndarray], Any] | Model, X: np.ndarray) -> np.ndarray:
-    if hasattr(func, "evaluate") and hasattr(func, "input"):
+    if hasattr(func, "evaluate") and hasattr(func, "inputs"):
         y = func.evaluate(X).outputs  # type: ignore[union-attr]
     else:
         y = func(X)  # type: ignore[operator]

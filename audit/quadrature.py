@@ -34,7 +34,7 @@ import numpy as np
 
 from .errors import UserError
 from .inputs import Law
-from .models.base import Evaluation, LayerInfo, Model, TensorInfo
+from .models.base import Evaluation, LayerInfo, Model, TensorInfo, feature_count
 
 __all__ = ["MAX_NODES", "MAX_ROWS", "PreIntegrated", "PreIntegratedModel", "check_index", "check_nodes", "preintegrate"]
 
@@ -120,7 +120,7 @@ class PreIntegrated:
             raise ValueError(f"max_rows must be at least 1, got {max_rows}.")
         self.max_rows = int(max_rows)
         self.func = func
-        self.is_model = hasattr(func, "evaluate") and hasattr(func, "input")
+        self.is_model = hasattr(func, "evaluate") and hasattr(func, "inputs")
         if not self.is_model and not callable(func):
             raise TypeError("func must be callable or a model with an evaluate method.")
         z, w = self.laws[self.index].quadrature(self.nodes)
@@ -225,11 +225,11 @@ class PreIntegratedModel(PreIntegrated):
         max_rows: int = MAX_ROWS,
         feature_names: Sequence[str] | None = None,
     ) -> None:
-        if not (hasattr(model, "evaluate") and hasattr(model, "input")):
+        if not (hasattr(model, "evaluate") and hasattr(model, "inputs")):
             raise TypeError("model must implement the audit.models.base.Model protocol.")
-        if model.input.units != len(laws):
+        if feature_count(model) != len(laws):
             raise ValueError(
-                f"the model takes {model.input.units} inputs but {len(laws)} laws were given."
+                f"the model takes {feature_count(model)} inputs but {len(laws)} laws were given."
             )
         super().__init__(model, laws, index, nodes, max_rows=max_rows)
         self.model = model
@@ -239,7 +239,8 @@ class PreIntegratedModel(PreIntegrated):
         self.source = (
             f"{model.source} with {self.integrated} integrated out ({len(self.weights)} nodes)"
         )
-        self.input = TensorInfo(model.input.name, (self.d - 1,), "float64")
+        name = model.inputs[0].name if len(model.inputs) == 1 else "x"
+        self.inputs = [TensorInfo(name, (self.d - 1,), "float64")]
         self.outputs = list(model.outputs)
         self.notices = list(getattr(model, "notices", []) or [])
 
@@ -295,6 +296,6 @@ def preintegrate(
         rows to what the wrapped object returns for n rows, at the cost of
         n·m evaluations.
     """
-    if hasattr(evaluator_or_model, "evaluate") and hasattr(evaluator_or_model, "input"):
+    if hasattr(evaluator_or_model, "evaluate") and hasattr(evaluator_or_model, "inputs"):
         return PreIntegratedModel(evaluator_or_model, laws, index, m)  # type: ignore[arg-type]
     return PreIntegrated(evaluator_or_model, laws, index, m)

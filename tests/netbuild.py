@@ -1,13 +1,16 @@
 """Tiny networks for the model-backend tests, saved into a temporary folder.
 
-Torch networks are exported to ONNX (the TorchScript-based exporter, which
-needs no extra packages), TorchScript, ``torch.export`` programs (.pt2), state
-dicts and whole pickles. Hand-made ONNX graphs (built with ``onnx.helper``)
-cover operators one by one and the broken files the error tests need.
+Torch networks (with one or several forward tensors) are exported to ONNX (the
+TorchScript-based exporter, which needs no extra packages), TorchScript,
+``torch.export`` programs (.pt2), state dicts and whole pickles. Hand-made ONNX
+graphs (built with ``onnx.helper``) cover operators one by one, several and
+typed inputs, outputs that hold no real numbers, and the broken files the error
+tests need.
 """
 
 from __future__ import annotations
 
+import inspect
 import warnings
 from pathlib import Path
 
@@ -19,13 +22,20 @@ from scipy.special import erf
 
 __all__ = [
     "OPSET",
+    "LabelAndScore",
     "TinyCNN",
     "TinyMLP",
+    "TwoShapes",
     "export_all",
+    "label_and_score_graph",
     "ops_graph",
     "ops_reference",
     "save_onnx",
+    "string_input_graph",
+    "symbolic_pair_graph",
     "two_input_graph",
+    "typed_graph",
+    "zipmap_graph",
 ]
 
 OPSET = 17
@@ -79,7 +89,7 @@ class TwiceReLU(torch.nn.Module):
 
 
 class TwoInputs(torch.nn.Module):
-    """forward(a, b): not supported by netdim."""
+    """forward(a, b) with two (N, 3) tensors: y = Linear(a + b), one output."""
 
     def __init__(self) -> None:
         super().__init__()
@@ -89,6 +99,36 @@ class TwoInputs(torch.nn.Module):
         return self.lin(a + b)
 
 
+class TwoShapes(torch.nn.Module):
+    """forward(a, b) with a (N, 3) and b (N, 2, 2): Linear on both -> Tanh -> Linear -> 2 outputs.
+
+    Submodules ``fa``, ``fb`` (one Linear per input), ``act``, ``out``; d = 3 + 4 = 7.
+    """
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.fa = torch.nn.Linear(3, 4)
+        self.fb = torch.nn.Linear(4, 4)
+        self.act = torch.nn.Tanh()
+        self.out = torch.nn.Linear(4, 2)
+
+    def forward(self, a: torch.Tensor, b: torch.Tensor) -> torch.Tensor:
+        h = self.fa(a) + self.fb(b.reshape(b.shape[0], 4))
+        return self.out(self.act(h))
+
+
+class LabelAndScore(torch.nn.Module):
+    """forward(x) -> (argmax label, int64; scores, float): one output is not real numbers."""
+
+    def __init__(self, d: int = 3, k: int = 2) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(d, k)
+
+    def forward(self, x: torch.Tensor) -> tuple[torch.Tensor, torch.Tensor]:
+        scores = self.lin(x)
+        return scores.argmax(dim=1), scores
+
+
 def seeded(cls: type[torch.nn.Module], seed: int = 0, **kwargs: object) -> torch.nn.Module:
     """An instance of ``cls`` with weights drawn from a fixed seed, in eval mode."""
     torch.manual_seed(seed)
@@ -96,35 +136,41 @@ def seeded(cls: type[torch.nn.Module], seed: int = 0, **kwargs: object) -> torch
 
 
 def export_all(
-    net: torch.nn.Module, example: torch.Tensor, folder: Path, stem: str = "net"
+    net: torch.nn.Module,
+    example: torch.Tensor | tuple[torch.Tensor, ...],
+    folder: Path,
+    stem: str = "net",
 ) -> dict[str, Path]:
     """Save ``net`` in every format netdim reads; return {kind: path}.
 
     Kinds: ``onnx`` (dynamic batch), ``onnx_fixed`` (batch fixed at len(example)),
     ``torchscript``, ``pt2`` (dynamic batch), ``pt2_fixed``, ``state_dict``,
-    ``pickle`` (whole module).
+    ``pickle`` (whole module). A tuple ``example`` is one tensor per forward
+    argument; the ONNX inputs then take the argument names (else ``x``).
     """
     folder.mkdir(parents=True, exist_ok=True)
     paths = {kind: folder / f"{stem}_{kind}{ext}" for kind, ext in _SUFFIXES.items()}
+    examples = example if isinstance(example, tuple) else (example,)
+    names = ["x"] if len(examples) == 1 else list(inspect.signature(net.forward).parameters)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        axes = {"x": {0: "batch"}, "y": {0: "batch"}}
+        axes = {name: {0: "batch"} for name in [*names, "y"]}
         for key, dynamic in (("onnx", axes), ("onnx_fixed", None)):
             torch.onnx.export(
                 net,
-                (example,),
+                examples,
                 str(paths[key]),
                 dynamo=False,
-                input_names=["x"],
+                input_names=names,
                 output_names=["y"],
                 dynamic_axes=dynamic,
                 opset_version=OPSET,
             )
         torch.jit.script(net).save(str(paths["torchscript"]))
         batch = torch.export.Dim("batch")
-        program = torch.export.export(net, (example,), dynamic_shapes=({0: batch},))
+        program = torch.export.export(net, examples, dynamic_shapes=tuple({0: batch} for _ in examples))
         torch.export.save(program, str(paths["pt2"]))
-        torch.export.save(torch.export.export(net, (example,)), str(paths["pt2_fixed"]))
+        torch.export.save(torch.export.export(net, examples), str(paths["pt2_fixed"]))
         torch.save(net.state_dict(), paths["state_dict"])
         torch.save(net, paths["pickle"])
     return paths
@@ -291,3 +337,91 @@ def external_data_graph(path: Path, location: str) -> Path:
         [tensor, _init("c", np.array([0.5, -1.0]))],
     )
     return save_onnx(graph, path)
+
+
+def symbolic_pair_graph(path: Path) -> Path:
+    """Inputs a (N, 3) and b (N, K), K symbolic: y = concat(2 a, b), shape (N, 3 + K)."""
+    graph = helper.make_graph(
+        [
+            helper.make_node("Mul", ["a", "two"], ["a2"]),
+            helper.make_node("Concat", ["a2", "b"], ["y"], axis=1),
+        ],
+        "pair",
+        [
+            helper.make_tensor_value_info("a", TensorProto.FLOAT, ["N", 3]),
+            helper.make_tensor_value_info("b", TensorProto.FLOAT, ["N", "K"]),
+        ],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", None])],
+        [_init("two", np.array([2.0]))],
+    )
+    return save_onnx(graph, path)
+
+
+def typed_graph(path: Path, elem_type: int) -> Path:
+    """x (N, 3) -> Relu -> Neg -> y, all of ONNX element type ``elem_type`` (float16, double...)."""
+    graph = helper.make_graph(
+        [helper.make_node("Relu", ["x"], ["r"]), helper.make_node("Neg", ["r"], ["y"])],
+        "typed",
+        [helper.make_tensor_value_info("x", elem_type, ["N", 3])],
+        [helper.make_tensor_value_info("y", elem_type, ["N", 3])],
+    )
+    return save_onnx(graph, path)
+
+
+def string_input_graph(path: Path) -> Path:
+    """A graph whose input holds strings (netdim cannot feed it)."""
+    graph = helper.make_graph(
+        [helper.make_node("Identity", ["s"], ["y"])],
+        "strings",
+        [helper.make_tensor_value_info("s", TensorProto.STRING, ["N", 1])],
+        [helper.make_tensor_value_info("y", TensorProto.STRING, ["N", 1])],
+    )
+    return save_onnx(graph, path)
+
+
+def label_and_score_graph(path: Path) -> Path:
+    """x (N, 3) -> scores = x @ A (float, (N, 2)) and label = ArgMax(scores) (int64, (N, 1))."""
+    a = np.arange(1, 7, dtype=np.float32).reshape(3, 2)
+    graph = helper.make_graph(
+        [
+            helper.make_node("MatMul", ["x", "A"], ["scores"]),
+            helper.make_node("ArgMax", ["scores"], ["label"], axis=1, keepdims=1),
+        ],
+        "label_and_score",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [
+            helper.make_tensor_value_info("label", TensorProto.INT64, ["N", 1]),
+            helper.make_tensor_value_info("scores", TensorProto.FLOAT, ["N", 2]),
+        ],
+        [_init("A", a)],
+    )
+    return save_onnx(graph, path)
+
+
+def zipmap_graph(path: Path) -> Path:
+    """x (N, 3) -> scores (float, (N, 2), a graph output) -> ZipMap -> a sequence of maps output."""
+    a = np.arange(1, 7, dtype=np.float32).reshape(3, 2)
+    graph = helper.make_graph(
+        [
+            helper.make_node("MatMul", ["x", "A"], ["scores"]),
+            helper.make_node("ZipMap", ["scores"], ["maps"], domain="ai.onnx.ml", classlabels_int64s=[0, 1]),
+        ],
+        "zipmap",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [
+            helper.make_tensor_value_info("scores", TensorProto.FLOAT, ["N", 2]),
+            helper.make_value_info(
+                "maps",
+                helper.make_sequence_type_proto(
+                    helper.make_map_type_proto(TensorProto.INT64, helper.make_tensor_type_proto(TensorProto.FLOAT, []))
+                ),
+            ),
+        ],
+        [_init("A", a)],
+    )
+    model = helper.make_model(
+        graph, opset_imports=[helper.make_opsetid("", OPSET), helper.make_opsetid("ai.onnx.ml", 1)]
+    )
+    model.ir_version = 8
+    onnx.save(model, str(path))
+    return path

@@ -39,7 +39,7 @@ from audit import Law, audit_function
 from audit.errors import UserError
 from audit.inputs import load_spec
 from audit.models.open import open_model
-from audit.models.python_model import PythonModel
+from audit.models.python import PythonModel
 from audit.nodes import choose_nodes
 from audit.quadrature import MAX_NODES, PreIntegrated, PreIntegratedModel, preintegrate
 from audit.report import make_console
@@ -110,7 +110,7 @@ def test_preintegrated_returns_what_the_function_returns():
     # a model gives a model with d - 1 inputs
     pm = preintegrate(PythonModel(two, 3, source="two"), laws, 1, 3)
     assert isinstance(pm, PreIntegratedModel)
-    assert pm.input.units == 2 and pm.feature_names() == ["x[0]", "x[2]"]
+    assert pm.inputs[0].units == 2 and pm.feature_names() == ["x[0]", "x[2]"]
     np.testing.assert_allclose(pm.evaluate(x).outputs, g(x), atol=1e-15)
     assert g(np.zeros((0, 2))).shape == (0, 2)
 

@@ -8,8 +8,8 @@ pytest.importorskip("dask.distributed")
 from pathlib import Path
 
 from audit import audit_model, load_spec
+from audit.models import PythonModel
 from audit.models.open import open_model
-from audit.models.python_model import PythonModel
 from model_zoo import functions as fz
 
 ZOO = Path(__file__).resolve().parent.parent / "model_zoo"

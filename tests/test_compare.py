@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 from audit.errors import UserError
-from audit.models.python_model import PythonModel
+from audit.models.python import PythonModel
 from audit.studies import Gates, compare_models
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -221,10 +221,10 @@ def test_netdim_opens_every_shipped_file(name):
                 raise
             # TorchScript does not record input shapes; the zoo's archives carry it in
             # netdim.json, which the backend may not read yet: pass it explicitly.
-            from audit.models.torch_model import open_torch
+            from audit.models import open_torch
 
             model = open_torch(path, input_shape=rec["input_shape"])
-        assert model.input.units == x.shape[1], (fmt, model.input)
+        assert sum(t.units for t in model.inputs) == x.shape[1], (fmt, model.inputs)
         got = model.evaluate(x).outputs
         np.testing.assert_allclose(got, ref, rtol=1e-5, atol=1e-5 * np.abs(ref).max(), err_msg=fmt)
 

@@ -141,8 +141,9 @@ def cmd_compare(args: argparse.Namespace) -> int:
     gates = Gates(args.max_dimension_rise, args.min_rank_agreement, args.max_index_shift)
     design = _design(args)
     from ..estimators import make_estimator
+    from ..models.base import feature_count
 
-    per = make_estimator(design.estimator, d=old.input.units, points=design.points).rows_per_point()
+    per = make_estimator(design.estimator, d=feature_count(old), points=design.points).rows_per_point()
     total = 2 * design.points * design.replicates * per
     with progress(args, total) as bar:
         # the paired run reports each row once for both models

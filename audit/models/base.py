@@ -1,12 +1,19 @@
 """The one interface every model backend implements.
 
-A model has one input tensor whose non-batch shape is flattened in C order to
-``d`` features, one or more output tensors flattened (and concatenated, in
-order) to scalar output units, and a list of probe-able hidden layers. It is
-evaluated in batches of float64 rows; it runs in its own precision (float32
-for stored networks) and always returns float64 arrays.
+A model takes one or more input tensors. Each row of features is the
+concatenation of the input tensors' elements, tensor after tensor in feed order,
+each flattened in C order, so a model has ``d = Σ units`` features. A model
+returns one or more output tensors, flattened and concatenated in the same way
+to ``k`` scalar output units, and offers a list of probe-able hidden layers.
 
-Backends know nothing of estimators, designs or reports.
+Rows come in any floating dtype; a backend casts each tensor's columns to the
+tensor's own element type (integer tensors: rounded to the nearest integer
+first) and returns outputs and hidden tensors in the precision the runtime
+produced them (float16, float32 or float64; bfloat16 as float32). Converting to
+float64 is the job of whoever accumulates. Python-function models compute, and
+return, float64.
+
+Backends know nothing of estimators, designs, studies or reports.
 """
 
 from __future__ import annotations
@@ -18,12 +25,33 @@ from typing import Protocol, runtime_checkable
 
 import numpy as np
 
-__all__ = ["Evaluation", "LayerInfo", "Model", "TensorInfo", "index_names"]
+__all__ = [
+    "Evaluation",
+    "LayerInfo",
+    "Model",
+    "TensorInfo",
+    "check_rows",
+    "element_names",
+    "feature_count",
+    "index_names",
+    "row_dtype",
+]
 
 
 @dataclass(frozen=True)
 class TensorInfo:
-    """Name and non-batch shape of an input or output tensor."""
+    """Name, non-batch shape and element type of an input or output tensor.
+
+    Attributes
+    ----------
+    name : str
+        Tensor name (the graph's, the forward argument's, or ``y``, ``y0``...).
+    shape : tuple of int
+        Non-batch shape; ``()`` for one scalar per row.
+    dtype : str
+        Element type as numpy or Torch spell it: ``float32``, ``float64``,
+        ``float16``, ``bfloat16``, ``int64``...
+    """
 
     name: str
     shape: tuple[int, ...]
@@ -31,6 +59,7 @@ class TensorInfo:
 
     @property
     def units(self) -> int:
+        """Number of scalar elements per row."""
         return int(math.prod(self.shape)) if self.shape else 1
 
 
@@ -57,6 +86,7 @@ class LayerInfo:
 
     @property
     def units(self) -> int:
+        """Number of scalar elements per row."""
         return int(math.prod(self.shape)) if self.shape else 1
 
 
@@ -67,9 +97,10 @@ class Evaluation:
     Attributes
     ----------
     outputs : ndarray, shape (n, k)
-        All output tensors, flattened in C order and concatenated, float64.
+        All output tensors, flattened in C order and concatenated, in the
+        model's own floating dtype.
     hidden : dict of str to ndarray, shape (n, units)
-        Captured hidden tensors, flattened, float64.
+        Captured hidden tensors, flattened, in the model's own floating dtype.
     """
 
     outputs: np.ndarray
@@ -86,23 +117,27 @@ class Model(Protocol):
         Path or reference the model was opened from.
     format : str
         ``onnx``, ``torchscript``, ``torch-export``, ``state-dict``, ``torch-module`` or ``python``.
-    input : TensorInfo
-        The input tensor; ``input.units`` is the number of features d.
+    inputs : list of TensorInfo
+        The input tensors in feed order; the features are their elements,
+        tensor after tensor, each in C order (:func:`feature_count` of them).
     outputs : list of TensorInfo
         The output tensors, in order.
+    notices : list of str
+        Remarks of the backend for the user (outputs left out, slow batching...).
     """
 
     source: str
     format: str
-    input: TensorInfo
+    inputs: list[TensorInfo]
     outputs: list[TensorInfo]
+    notices: list[str]
 
     def layers(self) -> list[LayerInfo]:
         """Probe-able hidden layers, in graph / execution order."""
         ...
 
     def feature_names(self) -> list[str]:
-        """Default feature names (by index, e.g. ``x[0,3,4]``)."""
+        """Default feature names, per input tensor element (``x[0,3,4]``)."""
         ...
 
     def output_names(self) -> list[str]:
@@ -110,8 +145,42 @@ class Model(Protocol):
         ...
 
     def evaluate(self, x: np.ndarray, capture: Sequence[str] = ()) -> Evaluation:
-        """Evaluate rows ``x`` of shape (n, d), float64; capture named hidden layers."""
+        """Evaluate rows ``x`` of shape (n, d), any float dtype; capture named hidden layers."""
         ...
+
+
+def feature_count(model: Model) -> int:
+    """Number of features d of ``model``: the units of all its input tensors.
+
+    Parameters
+    ----------
+    model : Model
+
+    Returns
+    -------
+    int
+    """
+    return sum(t.units for t in model.inputs)
+
+
+def row_dtype(model: Model) -> type[np.floating]:
+    """Row type to build for ``model``: float32 when every input tensor is float32 or float16.
+
+    Rows of float32 carry every value a float32 or float16 input can hold, so
+    building them in float64 would only cost a cast. Any other input (float64,
+    integers, bfloat16) gets float64 rows.
+
+    Parameters
+    ----------
+    model : Model
+
+    Returns
+    -------
+    type
+        ``numpy.float32`` or ``numpy.float64``.
+    """
+    small = ("float32", "float16")
+    return np.float32 if model.inputs and all(t.dtype in small for t in model.inputs) else np.float64
 
 
 def check_rows(x: np.ndarray, d: int) -> np.ndarray:
@@ -132,11 +201,9 @@ def index_names(prefix: str, shape: tuple[int, ...]) -> list[str]:
     return [f"{prefix}[{','.join(map(str, idx))}]" for idx in np.ndindex(*shape)]
 
 
-def integer_output_error(source: str, name: str, dtype: str) -> str:
-    """The message for a model file whose output holds integers (labels, counts)."""
-    return (
-        f"The output '{name}' of '{source}' holds integers ({dtype}), such as class labels from an "
-        "argmax. Sobol' indices of a label measure which inputs flip the label, which is rarely what "
-        "is wanted: export the scores (logits or probabilities) instead, or wrap the model in a Python "
-        "function that returns floats if the integers are meaningful numbers."
-    )
+def element_names(tensors: Sequence[TensorInfo]) -> list[str]:
+    """Names of the elements of ``tensors``, tensor after tensor: features or output units."""
+    names: list[str] = []
+    for tensor in tensors:
+        names.extend(index_names(tensor.name or "x", tensor.shape))
+    return names

@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
 from ..errors import UserError
 from .base import Model
-from .python_model import PythonModel, import_reference
+from .python import PythonModel, import_reference
+from .tensors import InputShape
 
 __all__ = ["is_python_reference", "open_model"]
 
@@ -30,7 +31,7 @@ def open_model(
     torch_class: str | None = None,
     torch_arguments: dict[str, Any] | None = None,
     trust: bool = False,
-    input_shape: Sequence[int] | None = None,
+    input_shape: InputShape | None = None,
 ) -> Model:
     """Open a model file or a Python callable.
 
@@ -47,11 +48,13 @@ def open_model(
         Keyword arguments for ``torch_class``.
     trust : bool
         Allow unpickling a whole Torch module (runs code from the file).
-    input_shape : sequence of int, optional
-        Non-batch shape of a model file's input tensor, e.g. ``(1, 8, 8)``.
-        Torch files other than ``.pt2`` programs do not store it (it is
-        inferred when the network starts with a ``Linear`` layer); ONNX files
-        need it only when a non-batch input dimension is symbolic.
+    input_shape : sequence of int, or dict of str to sequence of int, optional
+        Non-batch shape of a model file's input tensor, e.g. ``(1, 8, 8)``, or
+        for a model with several input tensors one shape per tensor name,
+        ``{"a": (3,), "b": (1, 8, 8)}``. Torch files other than ``.pt2``
+        programs do not store it (for one input it is inferred when the
+        network starts with a ``Linear`` layer); ONNX files need it only when
+        a non-batch input dimension is symbolic.
 
     Returns
     -------
@@ -75,11 +78,11 @@ def open_model(
         raise UserError(f"'{ref}' is a folder, not a model file. Give the path of the model file itself.")
     suffix = path.suffix.lower()
     if suffix == ".onnx":
-        from .onnx_model import OnnxModel
+        from .onnx import OnnxModel
 
         model: Any = OnnxModel(path, input_shape=input_shape)
     elif suffix in (".pt", ".pth", ".pt2", ".ts", ".torchscript"):
-        from .torch_model import open_torch
+        from .torch import open_torch
 
         model = open_torch(
             path,
@@ -94,7 +97,7 @@ def open_model(
         # how to open it again elsewhere (another process or machine): see reopen()
         model.open_args = {
             "ref": str(path.resolve()), "torch_class": torch_class, "torch_arguments": torch_arguments,
-            "trust": trust, "input_shape": None if input_shape is None else tuple(input_shape),
+            "trust": trust, "input_shape": _plain_shape(input_shape),
         }
         return model
     raise UserError(
@@ -102,6 +105,15 @@ def open_model(
         "Supported: .onnx (ONNX), .pt / .pth (TorchScript or state dict), .pt2 (torch.export), "
         "or a Python reference 'package.module:function'."
     )
+
+
+def _plain_shape(input_shape: InputShape | None) -> Any:
+    """``input_shape`` as plain tuples (or a dict of them), to travel with the open arguments."""
+    if input_shape is None:
+        return None
+    if isinstance(input_shape, Mapping):
+        return {str(name): tuple(shape) for name, shape in input_shape.items()}
+    return tuple(input_shape)
 
 
 def reopen(open_args: dict[str, Any]) -> Model:

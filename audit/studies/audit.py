@@ -16,7 +16,7 @@ import numpy as np
 
 from ..errors import UserError
 from ..inputs import InputSpec, Law
-from ..models.python_model import PythonModel
+from ..models.python import PythonModel
 from ..results import AuditResult
 from .options import RunOptions, split_options
 from .session import Session

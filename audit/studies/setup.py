@@ -16,15 +16,13 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
 from .. import engine
 from ..design import Design
 from ..errors import UserError, suggest
 from ..estimators import make_estimator
 from ..estimators.base import Estimator
 from ..inputs import InputSpec, Law, uniform_spec
-from ..models.base import LayerInfo, Model
+from ..models.base import LayerInfo, Model, feature_count, row_dtype
 from .evaluators import ModelEvaluator
 from .options import DesignOptions
 
@@ -155,7 +153,7 @@ class Setup:
     @property
     def dtype(self) -> type:
         """Row type for the evaluator: float32 for networks stored in float32."""
-        return np.float32 if self.model.input.dtype == "float32" else np.float64
+        return row_dtype(self.model)
 
     @property
     def evaluations(self) -> int:
@@ -229,7 +227,7 @@ def prepare(
     options = design or DesignOptions()
     spec = inputs_spec(inputs)
     notices: list[str] = list(options.notices)
-    d = model.input.units
+    d = feature_count(model)
     names, laws = spec.resolve(d, model.feature_names())
     if spec.names is None and getattr(model, "format", "") == "python":
         names = [f"x{i}" for i in range(d)]

@@ -179,13 +179,19 @@ def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
     }
 
 
+def _inputs_entry(model: Model) -> dict[str, Any]:
+    """``input`` for a model with one input tensor (as reports always had), else ``inputs``."""
+    entries = [{"name": t.name, "shape": list(t.shape)} for t in model.inputs]
+    return {"input": entries[0]} if len(entries) == 1 else {"inputs": entries}
+
+
 def model_info(setup: Setup) -> dict[str, Any]:
     """Where the model came from and its signature, as the JSON report records it."""
     model = setup.model
     info: dict[str, Any] = {
         "source": model.source,
         "format": model.format,
-        "input": {"name": model.input.name, "shape": list(model.input.shape)},
+        **_inputs_entry(model),
         "outputs": [{"name": t.name, "shape": list(t.shape)} for t in model.outputs],
     }
     if setup.spec.title:
@@ -205,7 +211,7 @@ def model_signature(model: Model) -> ModelSignature:
     return ModelSignature(
         model.source,
         model.format,
-        [tensor(model.input)],
+        [tensor(t) for t in model.inputs],
         [tensor(t) for t in model.outputs],
         layers,
         list(getattr(model, "notices", []) or []),

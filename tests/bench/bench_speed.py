@@ -58,7 +58,7 @@ def bench(name: str, points: int = 2048, replicates: int = 4) -> dict:
     setup = prepare(model, spec, points=points, replicates=replicates, seed=1, layers="none")
     d = setup.design.d
     rows_per_task = setup.block * (d + 2)
-    raw = raw_inference(ZOO / f"{name}.onnx", setup.evaluations, rows_per_task, model.input.shape)
+    raw = raw_inference(ZOO / f"{name}.onnx", setup.evaluations, rows_per_task, model.inputs[0].shape)
     plain = best(lambda: audit_model(model, spec, points=points, replicates=replicates, seed=1, layers="none"))
     layered = best(lambda: audit_model(model, spec, points=points, replicates=replicates, seed=1))
     res = {"evaluations": setup.evaluations, "raw_s": raw, "audit_outputs_s": plain, "audit_layers_s": layered,

@@ -1,13 +1,15 @@
-"""Torch backends: one network saved in every format gives the same numbers.
+"""The dispatcher: ``open_model`` picks the backend by suffix and content, and every format
+of one network gives the same numbers.
 
-References are the eager Torch network the files were saved from (common
-practice, no source); agreement across formats is to float32 rounding
-(rtol 1e-5).
+References are the eager Torch network the files were saved from (common practice, no
+source); agreement across formats is to float32 rounding (rtol 1e-5). Error cases are built
+here; the assertions check the error type and the words a user needs to fix the problem.
 """
 
 from __future__ import annotations
 
-import warnings
+import pickle
+from pathlib import Path
 
 import netbuild
 import numpy as np
@@ -15,8 +17,16 @@ import pytest
 import torch
 
 from audit.errors import UserError
-from audit.models import Model, open_model
-from audit.models.torch_model import ExportedModel, ModuleModel, ScriptModel, open_torch
+from audit.models import (
+    Model,
+    OnnxModel,
+    PythonModel,
+    feature_count,
+    is_python_reference,
+    open_model,
+    open_torch,
+    reopen,
+)
 
 RNG = np.random.default_rng(7)
 MLP_CLASS = "netbuild:TinyMLP"
@@ -46,6 +56,9 @@ def _eager(net: torch.nn.Module, x: np.ndarray, upto: int | None = None) -> np.n
     return out.numpy().astype(np.float64)
 
 
+# -- dispatch ---------------------------------------------------------------------------------
+
+
 def test_formats_are_recognised(mlp_models) -> None:
     expected = {
         "onnx": "onnx",
@@ -59,10 +72,72 @@ def test_formats_are_recognised(mlp_models) -> None:
     assert {kind: m.format for kind, m in mlp_models.items()} == expected
     for model in mlp_models.values():
         assert isinstance(model, Model)
-        assert model.input.units == 3  # inferred from the first Linear or stored in the file
+        assert model.inputs[0].units == 3  # inferred from the first Linear or stored in the file
         assert model.output_names() == [f"{model.outputs[0].name}[0]", f"{model.outputs[0].name}[1]"]
     assert mlp_models["pt2_fixed"].batch_size == 4 and mlp_models["pt2"].batch_size is None
     assert mlp_models["onnx_fixed"].batch_size == 4
+
+
+@pytest.mark.parametrize("suffix", [".onnx", ".pt", ".pt2"])
+def test_missing_file(tmp_path: Path, suffix: str) -> None:
+    path = tmp_path / f"absent{suffix}"
+    with pytest.raises(UserError, match="does not exist"):
+        open_model(str(path))
+    opener = OnnxModel if suffix == ".onnx" else open_torch
+    with pytest.raises(UserError, match="does not exist"):
+        opener(path)
+
+
+def test_folder(tmp_path: Path) -> None:
+    folder = tmp_path / "model.onnx"
+    folder.mkdir()
+    with pytest.raises(UserError, match="is a folder"):
+        open_model(str(folder))
+    with pytest.raises(UserError, match="is a folder"):
+        OnnxModel(folder)
+    with pytest.raises(UserError, match="is a folder"):
+        open_torch(folder)
+
+
+@pytest.mark.parametrize("suffix", [".onnx", ".pt", ".pt2"])
+def test_empty_file(tmp_path: Path, suffix: str) -> None:
+    path = tmp_path / f"empty{suffix}"
+    path.touch()
+    with pytest.raises(UserError, match=r"empty \(0 bytes\)"):
+        open_model(str(path))
+
+
+def test_unknown_suffix(tmp_path: Path) -> None:
+    path = tmp_path / "model.h5"
+    path.write_bytes(b"\x89HDF")
+    with pytest.raises(UserError, match="does not know the model format"):
+        open_model(str(path))
+
+
+def test_open_model_dispatch_passes_input_shape(tmp_path) -> None:
+    path = netbuild.linear_graph(tmp_path / "lin.onnx")
+    assert open_model(str(path), input_shape=(3,)).inputs[0].units == 3
+
+
+def test_reopen_with_shapes_per_tensor(tmp_path) -> None:
+    path = netbuild.symbolic_pair_graph(tmp_path / "pair.onnx")
+    model = open_model(str(path), input_shape={"b": [4]})
+    # the open arguments travel to other processes: plain, picklable values
+    args = pickle.loads(pickle.dumps(model.open_args))
+    assert args["input_shape"] == {"b": (4,)} and Path(args["ref"]).is_absolute()
+    again = reopen(args)
+    assert again is not model and [t.shape for t in again.inputs] == [(3,), (4,)]
+    x = RNG.normal(size=(3, 7))
+    np.testing.assert_array_equal(again.evaluate(x).outputs, model.evaluate(x).outputs)
+
+
+def test_python_reference_is_opened_as_a_python_model() -> None:
+    assert is_python_reference("clifuncs:two_outputs") and not is_python_reference("model.onnx")
+    model = open_model("clifuncs:two_outputs", dim=2)
+    assert isinstance(model, PythonModel) and feature_count(model) == 2
+
+
+# -- every format, the same numbers ----------------------------------------------------------
 
 
 def test_same_outputs_in_every_format(mlp, mlp_models) -> None:
@@ -71,7 +146,7 @@ def test_same_outputs_in_every_format(mlp, mlp_models) -> None:
     ref = _eager(net, x)
     for kind, model in mlp_models.items():
         ev = model.evaluate(x)
-        assert ev.outputs.dtype == np.float64, kind
+        assert ev.outputs.dtype == np.float32, kind  # a float32 network, in its own precision
         np.testing.assert_allclose(ev.outputs, ref, rtol=1e-5, atol=1e-6, err_msg=kind)
 
 
@@ -105,32 +180,6 @@ def test_same_hidden_activations_in_every_format(mlp, mlp_models) -> None:
             np.testing.assert_allclose(ev.hidden[name], ref, rtol=1e-5, atol=1e-6, err_msg=kind)
 
 
-def test_eager_and_script_layer_lists(mlp_models) -> None:
-    for kind in ("torchscript", "state_dict"):
-        layers = mlp_models[kind].layers()
-        # the container net and the last Linear carry the model output: not hidden layers
-        assert [(la.name, la.op) for la in layers] == [
-            ("net.0", "Linear"), ("net.1", "Tanh"), ("net.2", "Linear"), ("net.3", "ReLU")
-        ], kind  # fmt: skip
-
-
-def test_input_shape_inference_and_override(tmp_path, mlp) -> None:
-    net = netbuild.seeded(netbuild.TinyCNN, seed=2)
-    paths = netbuild.export_all(net, torch.zeros(2, 1, 8, 8), tmp_path, "cnn")
-    for kind in ("torchscript", "state_dict"):
-        kwargs = {"torch_class": "netbuild:TinyCNN"} if kind == "state_dict" else {}
-        with pytest.raises(UserError, match=r"--input-shape 1,8,8"):
-            open_model(str(paths[kind]), **kwargs)
-        model = open_model(str(paths[kind]), input_shape=(1, 8, 8), **kwargs)
-        assert model.input.shape == (1, 8, 8) and model.input.units == 64
-    exported = open_model(str(paths["pt2"]))  # .pt2 knows its input shape
-    assert exported.input.shape == (1, 8, 8)
-    with pytest.raises(UserError, match="does not match"):
-        open_model(str(paths["pt2"]), input_shape=(64,))
-    with pytest.raises(UserError, match=r"--input-shape"):
-        open_model(str(paths["torchscript"]), input_shape=(5,))  # runs, and fails to
-
-
 def test_cnn_all_layers_every_format(tmp_path) -> None:
     net = netbuild.seeded(netbuild.TinyCNN, seed=5)
     paths = netbuild.export_all(net, torch.zeros(2, 1, 8, 8), tmp_path, "cnn")
@@ -151,59 +200,3 @@ def test_cnn_all_layers_every_format(tmp_path) -> None:
         name = next(la.name for la in layers if pick in (la.name, la.op))
         assert dict((la.name, la.shape) for la in layers)[name] == (2, 8, 8)
         np.testing.assert_allclose(ev.hidden[name], conv, rtol=1e-5, atol=1e-5, err_msg=kind)
-
-
-def test_inplace_activation_does_not_alter_captured_input(tmp_path) -> None:
-    net = netbuild.seeded(netbuild.TinyMLP, seed=4, inplace=True)
-    paths = netbuild.export_all(net, torch.zeros(3, 3), tmp_path, "inplace")
-    x = RNG.normal(size=(20, 3))
-    with torch.no_grad():
-        before = net.net[:3](torch.from_numpy(x.astype(np.float32))).numpy()
-    assert (before < 0).any()  # else the check below proves nothing
-    script = open_model(str(paths["torchscript"]))
-    eager = open_model(str(paths["state_dict"]), torch_class=MLP_CLASS,
-                       torch_arguments={"inplace": True})  # fmt: skip
-    for model in (script, eager):
-        ev = model.evaluate(x, capture=["net.2", "net.3"])
-        np.testing.assert_allclose(ev.hidden["net.2"], before, rtol=1e-5, atol=1e-6)
-        np.testing.assert_allclose(ev.hidden["net.3"], np.maximum(before, 0), rtol=1e-5, atol=1e-6)
-
-
-def test_module_called_twice_is_not_a_layer(tmp_path) -> None:
-    net = netbuild.seeded(netbuild.TwiceReLU)
-    paths = netbuild.export_all(net, torch.zeros(2, 3), tmp_path, "twice")
-    for model in (
-        open_model(str(paths["state_dict"]), torch_class="netbuild:TwiceReLU"),
-        open_model(str(paths["torchscript"])),
-    ):
-        names = [layer.name for layer in model.layers()]
-        assert "act" not in names and "a" in names, (model.format, names)
-    eager = open_model(str(paths["state_dict"]), torch_class="netbuild:TwiceReLU")
-    eager.layers()
-    assert any("act" in note for note in eager.notices)
-
-
-def test_double_precision_model(tmp_path) -> None:
-    net = netbuild.seeded(netbuild.TinyMLP, seed=6).double()
-    path = tmp_path / "double.pt"
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", DeprecationWarning)
-        torch.jit.script(net).save(str(path))
-    model = open_torch(path)
-    assert model.input.dtype == "float64"
-    x = RNG.normal(size=(5, 3))
-    with torch.no_grad():
-        ref = net(torch.from_numpy(x)).numpy()
-    np.testing.assert_allclose(model.evaluate(x).outputs, ref, rtol=1e-12)
-
-
-def test_backend_classes(mlp_models) -> None:
-    assert isinstance(mlp_models["torchscript"], ScriptModel)
-    assert isinstance(mlp_models["pt2"], ExportedModel)
-    assert isinstance(mlp_models["state_dict"], ModuleModel)
-
-
-def test_unknown_capture_name(mlp_models) -> None:
-    for kind in ("torchscript", "pt2", "state_dict"):
-        with pytest.raises(UserError, match=r"no probe-able layer 'net\.9'"):
-            mlp_models[kind].evaluate(np.zeros((2, 3)), capture=["net.9"])

@@ -1,7 +1,8 @@
 """Plain Python callables as models: ``package.module:function``.
 
 The callable takes an (n, d) float64 array and returns an array of shape
-(n,) or (n, k). It has no hidden layers.
+(n,) or (n, k). It has one input tensor ``x`` of d features, no hidden layers,
+and its outputs are returned as float64 (whatever dtype the rows came in).
 """
 
 from __future__ import annotations
@@ -61,6 +62,15 @@ class PythonModel:
         Number of input features d.
     source : str
         Where it came from (for reports).
+
+    Attributes
+    ----------
+    inputs : list of TensorInfo
+        One float64 tensor ``x`` of shape (d,).
+    outputs : list of TensorInfo
+        One float64 tensor ``y``, of shape () or (k,).
+    notices : list of str
+        Always empty.
     """
 
     format = "python"
@@ -75,7 +85,8 @@ class PythonModel:
             raise UserError(f"The input dimension of '{source}' must be at least 1, got {dim}.")
         self.func = func
         self.source = source or getattr(func, "__qualname__", repr(func))
-        self.input = TensorInfo("x", (int(dim),), "float64")
+        self.inputs = [TensorInfo("x", (int(dim),), "float64")]
+        self.notices: list[str] = []
         probe = self._call(np.full((2, int(dim)), 0.5))
         self.outputs = [TensorInfo("y", probe.shape[1:] if probe.ndim == 2 else (), "float64")]
 
@@ -105,7 +116,7 @@ class PythonModel:
         return []
 
     def feature_names(self) -> list[str]:
-        return index_names("x", self.input.shape)
+        return index_names("x", self.inputs[0].shape)
 
     def output_names(self) -> list[str]:
         shape = self.outputs[0].shape

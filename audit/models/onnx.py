@@ -1,0 +1,340 @@
+"""ONNX models run with onnxruntime on the CPU.
+
+The model has one or more input tensors of floats, integers or booleans that
+share a first (batch) axis; the features are their elements, tensor after
+tensor in the graph's input order. Symbolic non-batch dimensions are fixed by
+``input_shape``. Outputs that hold no real numbers (an integer class label, a
+``ZipMap`` sequence of maps) are left out with a notice.
+
+Hidden tensors are exposed by adding them as extra graph outputs
+(:mod:`.onnx_graph`; the file itself is never re-exported or rewritten); the
+extended session is built lazily, once per distinct set of captured tensors,
+and cached. Shapes of hidden tensors come from ONNX shape inference, completed
+by one small probe run where inference leaves a dimension unknown.
+
+A model exported with a fixed batch size B is fed in chunks of B rows (the
+last chunk padded by repeating its last row; padding is dropped from the
+results). Outputs and hidden tensors keep the dtype onnxruntime returns.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Sequence
+from pathlib import Path
+
+import numpy as np
+import onnxruntime as ort
+
+from ..errors import UserError, suggest
+from .base import Evaluation, LayerInfo, TensorInfo, check_rows, element_names, feature_count
+from .onnx_graph import ACTIVATION_OPS, check_external_data, check_file, hidden_tensors, load_proto, with_outputs
+from .tensors import InputShape, Skipped, gather, input_shapes, no_output_error, output_notice, split_features
+
+__all__ = ["ACTIVATION_OPS", "OnnxModel"]
+
+# onnxruntime input types rows can be fed as, and their numpy dtype names.
+_INPUT_TYPES = {
+    f"tensor({kind})": name
+    for kind, name in (
+        ("float", "float32"), ("double", "float64"), ("float16", "float16"), ("bool", "bool"),
+        ("int8", "int8"), ("int16", "int16"), ("int32", "int32"), ("int64", "int64"),
+        ("uint8", "uint8"), ("uint16", "uint16"), ("uint32", "uint32"), ("uint64", "uint64"),
+    )
+}  # fmt: skip
+_PROBE_ROWS = 3
+
+
+def _session_options() -> ort.SessionOptions:
+    options = ort.SessionOptions()
+    options.intra_op_num_threads = os.cpu_count() or 1
+    options.log_severity_level = 3  # errors only: no warnings on the user's terminal
+    return options
+
+
+def _session(model: str | bytes, where: Path) -> ort.InferenceSession:
+    try:
+        return ort.InferenceSession(
+            model, sess_options=_session_options(), providers=["CPUExecutionProvider"]
+        )
+    except Exception as exc:  # onnxruntime raises its own classes (Fail, InvalidGraph, ...)
+        kind = type(exc).__name__
+        text = str(exc)
+        unsupported = ("not a registered function/op", "Could not find an implementation")
+        if kind == "NotImplemented" or any(marker in text for marker in unsupported):
+            why = (
+                "it uses an operator (or operator version) that onnxruntime "
+                f"{ort.__version__} cannot run on the CPU"
+            )
+            fix = "re-export the model with a supported opset or without custom operators"
+        elif kind in ("InvalidProtobuf", "InvalidGraph", "Fail", "InvalidArgument"):
+            why = "onnxruntime found it invalid or damaged"
+            fix = "export or copy the model again and check it with onnx.checker"
+        else:
+            why = "onnxruntime could not load it"
+            fix = "export or copy the model again"
+        first_line = text.strip().splitlines()[0] if text.strip() else kind
+        raise UserError(
+            f"The ONNX model '{where}' cannot be used: {why} ({first_line}). To fix: {fix}."
+        ) from exc
+
+
+def _static_dims(dims: Sequence[object]) -> tuple[int, ...] | None:
+    """Non-batch dims as ints, or None if any is symbolic or unknown."""
+    out = []
+    for dim in dims:
+        if not isinstance(dim, int) or dim < 0:
+            return None
+        out.append(dim)
+    return tuple(out)
+
+
+def _kind(ort_type: str) -> str:
+    """What a non-tensor output holds, in words."""
+    if ort_type.startswith("seq(map"):
+        return "a sequence of maps"
+    if ort_type.startswith("map"):
+        return "a map"
+    return "a sequence" if ort_type.startswith("seq") else ort_type
+
+
+class OnnxModel:
+    """An ONNX file seen through the :class:`~audit.models.base.Model` interface.
+
+    Parameters
+    ----------
+    path : str or Path
+        The ``.onnx`` file. External data files must sit in its folder.
+    input_shape : tuple of int or dict of str to tuple of int, optional
+        Non-batch shapes of input tensors, needed only where the file leaves
+        some non-batch input dimension symbolic: one shape for a model with
+        one input, else ``{tensor name: shape}``.
+
+    Attributes
+    ----------
+    inputs : list of TensorInfo
+        The input tensors, in the graph's order.
+    outputs : list of TensorInfo
+        The float output tensors (others are left out, see ``notices``).
+    notices : list of str
+        Remarks for the user (outputs left out, a batch size fixed at 1).
+    batch_size : int or None
+        The fixed batch size of the model, or None for a dynamic batch axis.
+    """
+
+    format = "onnx"
+
+    def __init__(self, path: str | os.PathLike[str], *, input_shape: InputShape | None = None):
+        self.path = Path(path)
+        self.source = str(path)
+        self.notices: list[str] = []
+        check_file(self.path)
+        self._proto = load_proto(self.path)
+        self._has_external = check_external_data(self._proto, self.path)
+        self._session = _session(str(self.path), self.path)
+        self._sessions: dict[tuple[str, ...], ort.InferenceSession] = {}
+        self._layers: list[LayerInfo] | None = None
+        self._read_inputs(input_shape)
+        self._read_outputs()
+
+    # -- signature -----------------------------------------------------------------------
+
+    def _read_inputs(self, input_shape: InputShape | None) -> None:
+        metas = self._session.get_inputs()
+        names = [meta.name for meta in metas]
+        given = input_shapes(input_shape, names, self.source)
+        batches: set[int] = set()
+        self.inputs: list[TensorInfo] = []
+        for meta in metas:
+            if meta.type not in _INPUT_TYPES:
+                raise UserError(
+                    f"The input '{meta.name}' of the ONNX model '{self.path}' has type {meta.type}; "
+                    "netdim feeds real-valued features and supports float, double, float16, integer "
+                    "and boolean inputs. Export the model with a numeric input (cast inside the model "
+                    "if needed)."
+                )
+            if not meta.shape:
+                raise UserError(
+                    f"The input '{meta.name}' of the ONNX model '{self.path}' is a scalar; netdim "
+                    "needs a batch axis first. Re-export the model with input shape (batch, ...)."
+                )
+            batch, *rest = meta.shape
+            if isinstance(batch, int) and batch > 0:
+                batches.add(batch)
+            self.inputs.append(TensorInfo(meta.name, self._shape(meta, rest, given, len(metas)),
+                                          _INPUT_TYPES[meta.type]))  # fmt: skip
+        if len(batches) > 1:
+            raise UserError(
+                f"The input tensors of the ONNX model '{self.path}' have different fixed batch sizes "
+                f"({', '.join(map(str, sorted(batches)))}); netdim feeds the same rows to every input. "
+                "Re-export the model with one (preferably dynamic) batch axis."
+            )
+        self.batch_size: int | None = batches.pop() if batches else None
+        if self.batch_size == 1:
+            self.notices.append(
+                f"The model '{self.path.name}' has a fixed batch size of 1, so netdim evaluates "
+                "it one row at a time, which is slow. Re-export it with a dynamic batch axis."
+            )
+        self._input_names = names
+
+    def _shape(
+        self, meta: ort.NodeArg, rest: list[object], given: dict[str, tuple[int, ...]], count: int
+    ) -> tuple[int, ...]:
+        shape = _static_dims(rest)
+        wanted = given.get(meta.name)
+        if wanted is not None:
+            if shape is not None and wanted != shape:
+                raise UserError(
+                    f"The input shape {wanted} given for '{meta.name}' of '{self.path}' does not match "
+                    f"the model's own input shape {shape}. Leave --input-shape out for this model."
+                )
+            return wanted
+        if shape is None:
+            example = "--input-shape 1,8,8" if count == 1 else f"input_shape={{'{meta.name}': (1, 8, 8), ...}}"
+            raise UserError(
+                f"The input '{meta.name}' of the ONNX model '{self.path}' has shape {meta.shape} "
+                f"with symbolic non-batch dimensions. Give the shape of one input row, e.g. {example}."
+            )
+        return shape
+
+    def _read_outputs(self) -> None:
+        metas = self._session.get_outputs()
+        skipped: list[Skipped] = [(o.name, _kind(o.type)) for o in metas if not o.type.startswith("tensor(")]
+        tensors = [o for o in metas if o.type.startswith("tensor(")]
+        probe = self._run(self._session, [o.name for o in tensors], self._probe_rows()) if tensors else []
+        self.outputs: list[TensorInfo] = []
+        for meta, value in zip(tensors, probe, strict=True):
+            value = np.asarray(value)
+            if value.dtype.kind != "f":
+                skipped.append((meta.name, str(value.dtype) if value.dtype.kind in "iub" else meta.type))
+                continue
+            if value.ndim == 0:
+                raise UserError(
+                    f"The output '{meta.name}' of the ONNX model '{self.path}' has type "
+                    f"{value.dtype} and shape {value.shape}; netdim needs numeric outputs with a "
+                    "batch axis first."
+                )
+            self.outputs.append(TensorInfo(meta.name, tuple(value.shape[1:]), str(value.dtype)))
+        order = [o.name for o in metas]
+        skipped.sort(key=lambda item: order.index(item[0]))
+        if not self.outputs:
+            raise no_output_error(self.source, skipped)
+        if skipped:
+            self.notices.append(output_notice(skipped))
+        self._output_names = [o.name for o in self.outputs]
+
+    def _probe_rows(self) -> np.ndarray:
+        return np.zeros((self.batch_size or _PROBE_ROWS, feature_count(self)))
+
+    # -- names ---------------------------------------------------------------------------
+
+    def feature_names(self) -> list[str]:
+        return element_names(self.inputs)
+
+    def output_names(self) -> list[str]:
+        return element_names(self.outputs)
+
+    # -- layers --------------------------------------------------------------------------
+
+    def layers(self) -> list[LayerInfo]:
+        """Float tensors computed from the inputs, with a known non-batch shape, in graph order."""
+        if self._layers is None:
+            candidates, shapes, unknown = hidden_tensors(self._proto, self._input_names, self.batch_size)
+            if unknown:
+                shapes.update(self._probe_shapes(unknown))
+            self._layers = [
+                LayerInfo(name, op, shapes[name], op in ACTIVATION_OPS)
+                for name, op in candidates
+                if name in shapes
+            ]
+        return list(self._layers)
+
+    def _probe_shapes(self, names: list[str]) -> dict[str, tuple[int, ...]]:
+        x = self._probe_rows()
+        try:
+            values = self._run(self._extended(tuple(names)), list(names), x)
+        except UserError:
+            return {}
+        shapes = {}
+        for name, value in zip(names, values, strict=True):
+            value = np.asarray(value)
+            if value.dtype.kind == "f" and value.ndim >= 1 and value.shape[0] == len(x):
+                shapes[name] = tuple(value.shape[1:])
+        return shapes
+
+    def _extended(self, names: tuple[str, ...]) -> ort.InferenceSession:
+        """A session whose graph also returns the tensors ``names`` (built once per set)."""
+        key = tuple(sorted(names))
+        if key not in self._sessions:
+            model = with_outputs(self._proto, key, self.path, self._has_external)
+            self._sessions[key] = _session(model, self.path)
+        return self._sessions[key]
+
+    # -- evaluation ----------------------------------------------------------------------
+
+    def _run(self, session: ort.InferenceSession, names: list[str], x: np.ndarray) -> list[np.ndarray]:
+        """Run ``session`` on rows ``x`` (n, d), chunking for a fixed batch size."""
+        n = len(x)
+        feeds = split_features(x, self.inputs)
+        batch = self.batch_size
+        try:
+            if batch is None:
+                return session.run(names, dict(zip(self._input_names, feeds, strict=True)))
+            parts: list[list[np.ndarray]] = []
+            for start in range(0, n, batch):
+                chunks = [feed[start : start + batch] for feed in feeds]
+                if len(chunks[0]) < batch:
+                    pad = batch - len(chunks[0])
+                    chunks = [np.concatenate([c, np.repeat(c[-1:], pad, axis=0)]) for c in chunks]
+                parts.append(session.run(names, dict(zip(self._input_names, chunks, strict=True))))
+            return [np.concatenate([p[i] for p in parts])[:n] for i in range(len(names))]
+        except UserError:
+            raise
+        except Exception as exc:
+            first_line = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+            shapes = ", ".join(f"{t.name} {t.shape}" for t in self.inputs)
+            raise UserError(
+                f"The ONNX model '{self.path}' failed on a batch of {n} rows of input shape "
+                f"{shapes} ({type(exc).__name__}: {first_line}). Check that the input shape is "
+                "right (--input-shape) and that the model runs in onnxruntime."
+            ) from exc
+
+    def evaluate(self, x: np.ndarray, capture: Sequence[str] = ()) -> Evaluation:
+        """Evaluate rows ``x``.
+
+        Parameters
+        ----------
+        x : ndarray, shape (n, d)
+            Input rows, any float dtype; each tensor's columns are cast to its
+            element type (integers: rounded to the nearest first).
+        capture : sequence of str
+            Names of hidden tensors (from :meth:`layers`) to return as well.
+
+        Returns
+        -------
+        Evaluation
+            Outputs (n, k) and the captured tensors (n, units), in the dtypes
+            onnxruntime returns.
+        """
+        x = check_rows(x, feature_count(self))
+        n = len(x)
+        capture = tuple(dict.fromkeys(capture))
+        if capture:
+            self._check_capture(capture)
+            session = self._extended(capture)
+        else:
+            session = self._session
+        values = self._run(session, [*self._output_names, *capture], x)
+        k = len(self._output_names)
+        hidden = {name: value.reshape(n, -1) for name, value in zip(capture, values[k:], strict=True)}
+        return Evaluation(outputs=gather(values[:k], n), hidden=hidden)
+
+    def _check_capture(self, capture: Sequence[str]) -> None:
+        known = {layer.name for layer in self.layers()}
+        for name in capture:
+            if name not in known:
+                raise UserError(
+                    f"The ONNX model '{self.path.name}' has no probe-able layer '{name}'."
+                    + suggest(name, known)
+                    + f" Run 'netdim layers {self.source}' to list the layer names."
+                )

@@ -1,0 +1,200 @@
+"""Reading an ONNX file: checks, the graph, external data, and the hidden tensors it offers.
+
+Nothing here runs the model. :func:`load_proto` parses the file without its
+external data; :func:`check_external_data` refuses external data outside the
+model's folder; :func:`hidden_tensors` lists the float tensors computed from the
+inputs, with their shapes where ONNX shape inference knows them;
+:func:`with_outputs` makes the serialized model that also returns given hidden
+tensors (the file itself is never rewritten).
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Sequence
+from pathlib import Path
+
+import numpy as np
+import onnx
+
+from ..errors import UserError
+
+__all__ = [
+    "ACTIVATION_OPS",
+    "FLOAT_TYPES",
+    "check_external_data",
+    "check_file",
+    "hidden_tensors",
+    "load_proto",
+    "with_outputs",
+]
+
+#: ONNX operator types whose output counts as an activation (captured by default).
+ACTIVATION_OPS = frozenset(
+    {
+        "Relu", "LeakyRelu", "PRelu", "Elu", "Selu", "Celu", "Gelu", "Tanh", "Sigmoid",
+        "HardSigmoid", "HardSwish", "Softplus", "Softsign", "Softmax", "LogSoftmax", "Erf",
+        "Mish",
+    }
+)  # fmt: skip
+
+#: numpy dtypes of the ONNX tensor element types netdim can capture.
+FLOAT_TYPES = {
+    onnx.TensorProto.FLOAT: np.float32,
+    onnx.TensorProto.DOUBLE: np.float64,
+    onnx.TensorProto.FLOAT16: np.float16,
+}
+
+# Operators whose outputs are never worth probing (shape arithmetic, constants).
+_SKIP_OPS = frozenset({"Constant", "ConstantOfShape", "Shape", "Size", "Identity"})
+
+
+def check_file(path: Path) -> None:
+    """A UserError unless ``path`` is a non-empty file."""
+    if not path.exists():
+        raise UserError(
+            f"The ONNX model file '{path}' does not exist. Check the path (and the current "
+            "folder) and try again."
+        )
+    if path.is_dir():
+        raise UserError(
+            f"'{path}' is a folder, not an ONNX model file. Give the path of the .onnx file itself."
+        )
+    if path.stat().st_size == 0:
+        raise UserError(
+            f"The ONNX model file '{path}' is empty (0 bytes). It was probably not written "
+            "completely: export or copy the model again."
+        )
+
+
+def load_proto(path: Path) -> onnx.ModelProto:
+    """Parse the model without its external data, turning parse failures into UserErrors."""
+    try:
+        proto = onnx.load(str(path), load_external_data=False)
+    except Exception as exc:  # protobuf DecodeError and friends
+        raise UserError(
+            f"'{path}' could not be read as an ONNX model ({type(exc).__name__}: {exc}). The "
+            "file is truncated, damaged or not an ONNX file: export or copy the model again."
+        ) from exc
+    if not proto.HasField("graph") or not proto.graph.node:
+        raise UserError(
+            f"'{path}' holds no ONNX graph (no nodes). It is truncated or not an ONNX model: "
+            "export or copy the model again."
+        )
+    return proto
+
+
+def _external_tensors(graph: onnx.GraphProto) -> list[onnx.TensorProto]:
+    """Tensors of ``graph`` and of its subgraphs (If / Loop bodies) kept in external files."""
+    tensors = list(graph.initializer)
+    for node in graph.node:
+        for attribute in node.attribute:
+            if attribute.HasField("t"):
+                tensors.append(attribute.t)
+            tensors.extend(attribute.tensors)
+            subgraphs = [attribute.g] if attribute.HasField("g") else []
+            for sub in [*subgraphs, *attribute.graphs]:
+                tensors.extend(_external_tensors(sub))
+    return [t for t in tensors if t.data_location == onnx.TensorProto.EXTERNAL]
+
+
+def check_external_data(proto: onnx.ModelProto, path: Path) -> bool:
+    """Refuse external data outside the model's folder; return True if there is any."""
+    folder = path.parent.resolve()
+    tensors = _external_tensors(proto.graph)
+    for tensor in tensors:
+        location = next((e.value for e in tensor.external_data if e.key == "location"), "")
+        target = (folder / location).resolve()
+        if not location or os.path.isabs(location) or not target.is_relative_to(folder):
+            raise UserError(
+                f"The ONNX model '{path}' stores tensor '{tensor.name}' in external data at "
+                f"'{location}', outside the model's folder '{folder}'. netdim only reads external "
+                "data files that sit in the model's own folder (or below it); move the data file "
+                "there and re-save the model with a relative location."
+            )
+        if not target.is_file():
+            raise UserError(
+                f"The ONNX model '{path}' keeps tensor '{tensor.name}' in the external data file "
+                f"'{location}', which does not exist in '{folder}'. Copy the data file next to "
+                "the model."
+            )
+    return bool(tensors)
+
+
+def with_outputs(
+    proto: onnx.ModelProto, names: Sequence[str], path: Path, external: bool
+) -> bytes:
+    """The serialized model whose graph also returns the tensors ``names``."""
+    extended = onnx.ModelProto()
+    extended.CopyFrom(proto)
+    if external:
+        onnx.load_external_data_for_model(extended, str(path.parent))
+    extended.graph.output.extend(onnx.ValueInfoProto(name=name) for name in names)
+    return extended.SerializeToString()
+
+
+def hidden_tensors(
+    proto: onnx.ModelProto, inputs: Sequence[str], batch_size: int | None
+) -> tuple[list[tuple[str, str]], dict[str, tuple[int, ...]], list[str]]:
+    """Hidden tensors computed from ``inputs``, in graph order, and what is known of their shapes.
+
+    Parameters
+    ----------
+    proto : onnx.ModelProto
+        The model.
+    inputs : sequence of str
+        Names of the input tensors rows are fed to.
+    batch_size : int or None
+        The model's fixed batch size, if any.
+
+    Returns
+    -------
+    candidates : list of (name, op type)
+        Node outputs that depend on an input and are not graph outputs.
+    shapes : dict of str to tuple of int
+        Non-batch shapes of the float candidates shape inference fully knows.
+    unknown : list of str
+        Candidates whose type or shape inference leaves open (to be probed).
+        Candidates known to be non-float, or with a fixed leading size other
+        than the batch, are in neither.
+    """
+    graph = proto.graph
+    try:
+        inferred = onnx.shape_inference.infer_shapes(proto, strict_mode=False).graph
+        value_info = {v.name: v for v in inferred.value_info}
+    except Exception:  # inference is a convenience; a probe run fills the gaps
+        value_info = {}
+    outputs = {o.name for o in graph.output}
+    dynamic = set(inputs)
+    candidates: list[tuple[str, str]] = []
+    for node in graph.node:
+        if not any(name in dynamic for name in node.input):
+            continue
+        dynamic.update(o for o in node.output if o)
+        if node.op_type in _SKIP_OPS:
+            continue
+        candidates.extend((o, node.op_type) for o in node.output if o and o not in outputs)
+
+    shapes: dict[str, tuple[int, ...]] = {}
+    unknown: list[str] = []
+    for name, _ in candidates:
+        info = value_info.get(name)
+        if info is None or not info.type.HasField("tensor_type"):
+            unknown.append(name)
+            continue
+        tensor = info.type.tensor_type
+        if tensor.elem_type and tensor.elem_type not in FLOAT_TYPES:
+            continue
+        dims = tensor.shape.dim if tensor.HasField("shape") else None
+        if not dims or not tensor.elem_type:
+            unknown.append(name)
+            continue
+        first = dims[0]
+        if first.HasField("dim_value") and first.dim_value != (batch_size or -1):
+            continue  # a fixed leading size that is not the batch: not per-row
+        rest = [d.dim_value if d.HasField("dim_value") else None for d in dims[1:]]
+        if all(r is not None and r > 0 for r in rest):
+            shapes[name] = tuple(rest)  # type: ignore[arg-type]
+        else:
+            unknown.append(name)
+    return candidates, shapes, unknown

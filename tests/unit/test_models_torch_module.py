@@ -1,0 +1,51 @@
+"""Eager modules (state dict + class, trusted pickle): layers read with forward hooks.
+
+References: the eager Torch network the state dict was saved from (common practice, no
+source); agreement to float32 rounding.
+"""
+
+from __future__ import annotations
+
+import netbuild
+import numpy as np
+import torch
+
+from audit.models import open_model
+
+RNG = np.random.default_rng(7)
+MLP_CLASS = "netbuild:TinyMLP"
+
+
+def test_eager_layer_list(tmp_path) -> None:
+    net = netbuild.seeded(netbuild.TinyMLP, seed=1)
+    paths = netbuild.export_all(net, torch.zeros(4, 3), tmp_path, "mlp")
+    layers = open_model(str(paths["state_dict"]), torch_class=MLP_CLASS).layers()
+    # the container net and the last Linear carry the model output: not hidden layers
+    assert [(la.name, la.op) for la in layers] == [
+        ("net.0", "Linear"), ("net.1", "Tanh"), ("net.2", "Linear"), ("net.3", "ReLU")
+    ]  # fmt: skip
+
+
+def test_inplace_activation_does_not_alter_captured_input(tmp_path) -> None:
+    net = netbuild.seeded(netbuild.TinyMLP, seed=4, inplace=True)
+    paths = netbuild.export_all(net, torch.zeros(3, 3), tmp_path, "inplace")
+    x = RNG.normal(size=(20, 3))
+    with torch.no_grad():
+        before = net.net[:3](torch.from_numpy(x.astype(np.float32))).numpy()
+    assert (before < 0).any()  # else the check below proves nothing
+    eager = open_model(str(paths["state_dict"]), torch_class=MLP_CLASS,
+                       torch_arguments={"inplace": True})  # fmt: skip
+    ev = eager.evaluate(x, capture=["net.2", "net.3"])
+    np.testing.assert_allclose(ev.hidden["net.2"], before, rtol=1e-5, atol=1e-6)
+    np.testing.assert_allclose(ev.hidden["net.3"], np.maximum(before, 0), rtol=1e-5, atol=1e-6)
+
+
+def test_module_called_twice_is_not_a_layer(tmp_path) -> None:
+    net = netbuild.seeded(netbuild.TwiceReLU)
+    paths = netbuild.export_all(net, torch.zeros(2, 3), tmp_path, "twice")
+    model = open_model(str(paths["state_dict"]), torch_class="netbuild:TwiceReLU")
+    names = [layer.name for layer in model.layers()]
+    assert "act" not in names and "a" in names, (model.format, names)
+    eager = open_model(str(paths["state_dict"]), torch_class="netbuild:TwiceReLU")
+    eager.layers()
+    assert any("act" in note for note in eager.notices)
