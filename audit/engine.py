@@ -227,16 +227,44 @@ def iter_tasks(points: int, replicates: int, block: int, done: Mapping[int, Sequ
             pos = max(pos, start + n)
 
 
-def _check_finite(job: Job, name: str, y: np.ndarray, X: np.ndarray) -> None:
-    if np.isfinite(y).all():
+#: Outputs above this in magnitude would overflow float64 when squared and summed.
+LARGEST_OUTPUT = 1e150
+
+
+def _check_inputs(job: Job, block: Any) -> None:
+    """The laws' inverse CDFs must give finite inputs (an extreme law can overflow)."""
+    if np.isfinite(block.X).all():
         return
+    cols = np.flatnonzero(~np.isfinite(block.X).all(axis=0)) % job.design.d
+    labels = job.feature_names or [f"x{j}" for j in range(job.design.d)]
+    names = ", ".join(dict.fromkeys(labels[j] for j in cols[:5]))
+    laws = ", ".join(dict.fromkeys(job.design.laws[j].describe() for j in cols[:5]))
+    raise UserError(
+        f"The input law of {names} ({laws}) gives infinite values at the edge of its range: its "
+        "inverse CDF overflows in floating point. This is not the model's doing: narrow the law "
+        "(a smaller sd or log_sd, or a bounded law) in the input spec."
+    )
+
+
+def _check_outputs(job: Job, name: str, y: np.ndarray, X: np.ndarray) -> None:
+    """Finite outputs whose squares do not overflow; otherwise a message with an example row."""
+    with np.errstate(invalid="ignore"):
+        top = float(np.max(np.abs(y))) if y.size else 0.0
+    if top <= LARGEST_OUTPUT:
+        return
+    what = "outputs" if name in ("outputs", "old", "new") else f"layer '{name.split(':', 1)[-1]}'"
+    if np.isfinite(y).all():
+        raise UserError(
+            f"The model's {what} reach {top:.3g} in magnitude: their squares would overflow float64, so "
+            "no variance can be computed. Rescale the output (for instance report it in larger units) "
+            "and audit again."
+        )
     bad = ~np.isfinite(y.reshape(len(y), -1))
     rows = np.flatnonzero(bad.any(axis=1))
     i = rows[0]
     labels = job.feature_names or [f"x{j}" for j in range(X.shape[1])]
     example = ", ".join(f"{labels[j]}={X[i, j]:.6g}" for j in range(min(X.shape[1], 12)))
     more = " ..." if X.shape[1] > 12 else ""
-    what = "outputs" if name in ("outputs", "old", "new") else f"layer '{name.split(':', 1)[-1]}'"
     raise NonFiniteError(
         f"The model returned NaN or infinite values in its {what} for {len(rows)} of {len(y)} "
         f"sampled input rows (e.g. {example}{more}). Sobol' indices need finite values everywhere "
@@ -248,6 +276,7 @@ def _check_finite(job: Job, name: str, y: np.ndarray, X: np.ndarray) -> None:
 def run_task(job: Job, task: Task) -> dict[str, Sums]:
     """Evaluate one task of ``job`` and return one set of sums per group."""
     block = job.design.block(task.rep, task.start, task.n)
+    _check_inputs(job, block)
     X, context = job.estimator.layout(block, job.dtype)
     out = job.evaluator(X)
     sums: dict[str, Sums] = {}
@@ -257,7 +286,7 @@ def run_task(job: Job, task: Task) -> dict[str, Sums]:
         y = np.asarray(out[g.name], dtype=np.float64).reshape(len(X), -1)
         if y.shape[1] != g.units:
             raise ValueError(f"group {g.name!r}: expected {g.units} units, the evaluator returned {y.shape[1]}.")
-        _check_finite(job, g.name, y, X)
+        _check_outputs(job, g.name, y, X)
         s = job.estimator.sums(g.units, g.detail, block)
         s.add(y, context)
         sums[g.name] = s

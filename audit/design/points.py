@@ -116,7 +116,10 @@ class ScrambledSobol:
 
 
 class MonteCarlo:
-    """Plain Monte Carlo points: independent uniforms, one seeded stream per block.
+    """Plain Monte Carlo points: independent uniforms from one seeded stream per chunk of rows.
+
+    Rows are drawn in fixed chunks of :attr:`CHUNK` (chunk c from the stream seeded by
+    ``[seed, c]``), so any block of rows has the same values however the rows are split.
 
     Parameters
     ----------
@@ -128,14 +131,20 @@ class MonteCarlo:
     name = "mc"
     rqmc = False
     ddof = 1
+    #: Rows per independently seeded chunk.
+    CHUNK = 1024
 
     def __init__(self, dim: int, seeds: Sequence[Seed], parts: int | None = None) -> None:
         self.dim = int(dim)
         self.seeds = list(seeds)
 
     def uniforms(self, rep: int, start: int, n: int) -> np.ndarray:
-        rng = np.random.default_rng([int(self.seeds[rep]), int(start)])
-        return rng.random((n, self.dim))
+        first, last = start // self.CHUNK, (start + n - 1) // self.CHUNK
+        seed = int(self.seeds[rep])
+        chunks = [np.random.default_rng([seed, c]).random((self.CHUNK, self.dim)) for c in range(first, last + 1)]
+        rows = chunks[0] if len(chunks) == 1 else np.concatenate(chunks)
+        offset = start - first * self.CHUNK
+        return rows[offset : offset + n]
 
 
 #: Valid point sets, by name.

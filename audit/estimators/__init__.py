@@ -15,7 +15,7 @@ from collections.abc import Sequence
 from .base import Estimator, Moments, RepEstimates, Sums
 from .fast import Fast, fast_assignment, fast_counts
 from .freeze import FreezeError
-from .inert import is_inert
+from .inert import inert_rule, is_inert, machine_eps, unreliable
 from .intervals import LEVEL, Interval, t_interval
 from .jansen import Jansen
 from .prefix import PrefixMeans
@@ -34,9 +34,12 @@ __all__ = [
     "Sums",
     "fast_assignment",
     "fast_counts",
+    "inert_rule",
     "is_inert",
+    "machine_eps",
     "make_estimator",
     "t_interval",
+    "unreliable",
 ]
 
 #: Estimators a user can choose, by name (each class has ``label``, ``help`` and ``build``).

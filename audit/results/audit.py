@@ -29,6 +29,10 @@ class OutputResult:
         (empty when inert; ``first_order`` is empty for the fast estimator).
     inert : bool
         True when the output does not vary at all under the input laws.
+    unreliable : str
+        Why the estimates say nothing ("" when they do): an interval of ν wholly
+        outside [1, d] or wider than that range, or of an index outside [0, 1]
+        (see :func:`audit.estimators.inert.unreliable`).
     """
 
     name: str
@@ -38,6 +42,7 @@ class OutputResult:
     total_index: list[FeatureEstimate] = field(default_factory=list)
     first_order: list[FeatureEstimate] = field(default_factory=list)
     inert: bool = False
+    unreliable: str = ""
 
     @property
     def additive_share(self) -> float:
@@ -57,6 +62,7 @@ class OutputResult:
             "mean_dimension": _opt_dict(self.mean_dimension),
             "total_index": [f.to_dict() for f in self.total_index],
             "first_order": [f.to_dict() for f in self.first_order],
+            **({"unreliable": self.unreliable} if self.unreliable else {}),
         }
 
     @classmethod
@@ -69,18 +75,20 @@ class OutputResult:
             total_index=[FeatureEstimate.from_dict(x) for x in d.get("total_index", [])],
             first_order=[FeatureEstimate.from_dict(x) for x in d.get("first_order", [])],
             inert=bool(d.get("inert", False)),
+            unreliable=str(d.get("unreliable", "")),
         )
 
 
 @dataclass(frozen=True)
 class UnitResult:
-    """Variance and mean dimension of one hidden unit."""
+    """Variance and mean dimension of one hidden unit (``unreliable`` as for :class:`OutputResult`)."""
 
     unit: str
     variance: Estimate
     mean_dimension: Estimate | None
     inert: bool = False
     total_index: list[FeatureEstimate] = field(default_factory=list)
+    unreliable: str = ""
 
     def to_dict(self) -> dict[str, Any]:
         d = {
@@ -91,6 +99,8 @@ class UnitResult:
         }
         if self.total_index:
             d["total_index"] = [f.to_dict() for f in self.total_index]
+        if self.unreliable:
+            d["unreliable"] = self.unreliable
         return d
 
     @classmethod
@@ -101,6 +111,7 @@ class UnitResult:
             mean_dimension=_opt_estimate(d.get("mean_dimension")),
             inert=bool(d.get("inert", False)),
             total_index=[FeatureEstimate.from_dict(x) for x in d.get("total_index", [])],
+            unreliable=str(d.get("unreliable", "")),
         )
 
 
@@ -108,9 +119,10 @@ class UnitResult:
 class LayerResult:
     """Mean dimension of every unit of one hidden layer, and a summary.
 
-    ``summary`` holds ``units``, ``inert_units``, the quantiles ``nu_min``,
-    ``nu_median``, ``nu_p90``, ``nu_max`` of the unit estimates (inert units
-    left out) and ``nu_weighted``, the variance-weighted mean of ν over units.
+    ``summary`` holds ``units``, ``inert_units``, ``unreliable_units``, the
+    quantiles ``nu_min``, ``nu_median``, ``nu_p90``, ``nu_max`` of the unit
+    estimates (inert and unreliable units left out) and ``nu_weighted``, the
+    variance-weighted mean of ν over the units kept, with its interval.
     """
 
     name: str

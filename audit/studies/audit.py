@@ -46,8 +46,11 @@ def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
         sums = session.run(setup.job(), block=setup.block)
     seconds = time.perf_counter() - t0
     ddof = setup.design.ddof
-    outputs = output_results(GroupStats.of(sums[OUTPUTS], ddof), setup.output_names, setup.names)
-    layers = [layer_result(x, GroupStats.of(sums["layer:" + x.name], ddof), setup.names) for x in setup.layers]
+    outputs = output_results(GroupStats.of(sums[OUTPUTS], ddof, setup.eps()), setup.output_names, setup.names)
+    layers = [
+        layer_result(x, GroupStats.of(sums["layer:" + x.name], ddof, setup.eps("layer:" + x.name)), setup.names)
+        for x in setup.layers
+    ]
     notices = [*setup.notices, *session.notices]
     return AuditResult(model_info(setup), inputs_info(setup), design_info(setup, seconds), outputs, layers, notices)
 

@@ -27,7 +27,16 @@ from .gates import Gates, judge, rank_agreement
 from .options import split_options
 from .session import Session
 from .setup import OUTPUTS, Setup, check_memory, inputs_spec, prepare, resolve_model, select_layers
-from .summarize import GroupStats, design_info, estimates, inputs_info, layer_result, model_info, output_results
+from .summarize import (
+    GroupStats,
+    design_info,
+    estimates,
+    inputs_info,
+    kept_units,
+    layer_result,
+    model_info,
+    output_results,
+)
 
 __all__ = ["compare_models"]
 
@@ -152,7 +161,7 @@ def _result(
     notices: list[str],
 ) -> ComparisonResult:
     ddof = so.design.ddof
-    g_old, g_new = GroupStats.of(sums["old"], ddof), GroupStats.of(sums["new"], ddof)
+    g_old, g_new = GroupStats.of(sums["old"], ddof, so.eps()), GroupStats.of(sums["new"], ddof, sn.eps())
     res_old = output_results(g_old, so.output_names, so.names)
     res_new = output_results(g_new, sn.output_names, sn.names)
     nu_old, nu_new = g_old.ratio(g_old.total_sum), g_new.ratio(g_new.total_sum)
@@ -177,10 +186,13 @@ def _result(
         outputs.append(OutputChange(name, a, b, dnu, changes, moved, tau, k, overlap))
     layer_changes = []
     for x, _ in pairs:
-        sa, sb = GroupStats.of(sums["old:" + x.name], ddof), GroupStats.of(sums["new:" + x.name], ddof)
-        wa, wb = sa.weighted_nu(), sb.weighted_nu()
+        sa = GroupStats.of(sums["old:" + x.name], ddof, so.eps("layer:" + x.name))
+        sb = GroupStats.of(sums["new:" + x.name], ddof, sn.eps("layer:" + x.name))
+        ra, rb = layer_result(x, sa, so.names), layer_result(x, sb, sn.names)
+        keep = kept_units(ra) & kept_units(rb)  # the same units on both sides, so the change is paired
+        wa, wb = sa.weighted_nu(keep), sb.weighted_nu(keep)
         change = None if np.isnan(wa).all() or np.isnan(wb).all() else _change(wb[:, None], wa[:, None], paired)[0]
-        summary_a, summary_b = layer_result(x, sa, so.names).summary, layer_result(x, sb, sn.names).summary
+        summary_a, summary_b = ra.summary, rb.summary
         layer_changes.append(LayerChange(x.name, x.units, summary_a, summary_b, change))
     design = design_info(so, seconds)
     design["evaluations"] = so.evaluations + sn.evaluations

@@ -16,10 +16,12 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+import numpy as np
+
 from .. import engine
 from ..design import Design
 from ..errors import UserError, suggest
-from ..estimators import make_estimator
+from ..estimators import machine_eps, make_estimator
 from ..estimators.base import Estimator
 from ..inputs import InputSpec, Law, uniform_spec
 from ..models.base import LayerInfo, Model, feature_count, row_dtype
@@ -36,6 +38,7 @@ __all__ = [
     "prepare",
     "resolve_model",
     "select_layers",
+    "value_eps",
 ]
 
 #: Special values of ``layers``.
@@ -162,6 +165,10 @@ class Setup:
     def evaluator(self) -> ModelEvaluator:
         return ModelEvaluator(self.model, [x.name for x in self.layers])
 
+    def eps(self, group: str = OUTPUTS) -> np.ndarray | float:
+        """Machine epsilon of the values of a group: per output unit, or the model's coarsest for a layer."""
+        return value_eps(self.model, group)
+
     def job(self, name: str = "audit") -> engine.Job:
         """The engine job of this setup."""
         return engine.Job(
@@ -174,6 +181,12 @@ class Setup:
             self.dtype,
             identity=self.identity,
         )
+
+
+def value_eps(model: Model, group: str = OUTPUTS) -> np.ndarray | float:
+    """Machine epsilon of a model's outputs (one per output unit) or, for ``layer:NAME``, of its hidden values."""
+    per_unit = np.concatenate([np.full(t.units, machine_eps(t.dtype)) for t in model.outputs])
+    return per_unit if group == OUTPUTS else float(per_unit.max())
 
 
 def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | None) -> None:

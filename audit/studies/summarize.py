@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from ..estimators import LEVEL, is_inert
+from ..estimators import LEVEL, is_inert, unreliable
 from ..estimators.intervals import Interval, t_interval
 from ..models.base import LayerInfo, Model, index_names
 from ..results import Estimate, FeatureEstimate, LayerResult, OutputResult, UnitResult
@@ -28,6 +28,7 @@ __all__ = [
     "estimate",
     "estimates",
     "inputs_info",
+    "kept_units",
     "layer_result",
     "model_info",
     "model_signature",
@@ -61,17 +62,39 @@ class GroupStats:
     first: np.ndarray | None
     total_sum: np.ndarray
     inert: np.ndarray
+    eps: np.ndarray
 
     @classmethod
-    def of(cls, sums: list[Any], ddof: int) -> GroupStats:
+    def of(cls, sums: list[Any], ddof: int, eps: float | np.ndarray = 2.0**-23) -> GroupStats:
+        """Per-randomization estimates of a group; ``eps`` is the machine epsilon of its values (per unit)."""
         reps = [s.finish(ddof) for s in sums]
         mean = np.array([r.mean for r in reps])
         var = np.array([r.variance for r in reps])
         total = None if reps[0].total is None else np.array([r.total for r in reps])
         first = None if reps[0].first is None else np.array([r.first for r in reps])
         total_sum = np.array([r.total_sum for r in reps])
-        inert = is_inert(mean.mean(axis=0), var.mean(axis=0))
-        return cls(mean, var, total, first, total_sum, inert)
+        eps = np.broadcast_to(np.asarray(eps, dtype=np.float64), mean.shape[1:]).copy()
+        inert = is_inert(mean.mean(axis=0), var.mean(axis=0), eps)
+        return cls(mean, var, total, first, total_sum, inert, eps)
+
+    def why_unreliable(self, k: int, nu: Estimate, totals: list[Estimate], d: int) -> str:
+        """Why unit ``k``'s ν or a total index cannot be trusted ("" when they can)."""
+        mean, var, eps = float(self.mean[:, k].mean()), float(self.var[:, k].mean()), float(self.eps[k])
+        why = unreliable(nu.ci_low, nu.ci_high, d, mean, var, eps)
+        if why:
+            return f"{why}: the interval of ν [{nu.ci_low:.3g}, {nu.ci_high:.3g}] says nothing within [1, {d}]"
+        for e in totals:
+            why = unreliable(e.ci_low, e.ci_high, 1, mean, var, eps, lower=0.0)
+            if why:
+                return f"{why}: a total index's interval [{e.ci_low:.3g}, {e.ci_high:.3g}] says nothing within [0, 1]"
+        return ""
+
+    def weighted_nu(self, keep: np.ndarray | None = None) -> np.ndarray:
+        """Per randomization, Σ total indices / Σ variances over the units kept (live ones by default)."""
+        live = ~self.inert if keep is None else keep
+        if not live.any():
+            return np.full(self.var.shape[0], np.nan)
+        return self.total_sum[:, live].sum(axis=1) / self.var[:, live].sum(axis=1)
 
     def ratio(self, num: np.ndarray) -> np.ndarray:
         """num / variance per randomization, NaN where the variance is 0."""
@@ -79,12 +102,6 @@ class GroupStats:
         with np.errstate(invalid="ignore", divide="ignore"):
             return np.where(var > 0, num / np.where(var > 0, var, 1.0), np.nan)
 
-    def weighted_nu(self) -> np.ndarray:
-        """Per randomization, Σ total indices / Σ variances over the live units (NaN if none)."""
-        live = ~self.inert
-        if not live.any():
-            return np.full(self.var.shape[0], np.nan)
-        return self.total_sum[:, live].sum(axis=1) / self.var[:, live].sum(axis=1)
 
 
 def _features(per_input: list[list[Estimate]] | None, k: int, features: list[str], inert: bool) -> list:
@@ -102,15 +119,18 @@ def output_results(stats: GroupStats, names: list[str], features: list[str]) -> 
     results = []
     for k, name in enumerate(names):
         inert = bool(stats.inert[k])
+        total_index = _features(tot, k, features, inert)
+        why = "" if inert else stats.why_unreliable(k, nus[k], [f.value for f in total_index], len(features))
         results.append(
             OutputResult(
                 name=name,
                 mean=means[k],
                 variance=variances[k],
                 mean_dimension=None if inert else nus[k],
-                total_index=_features(tot, k, features, inert),
+                total_index=total_index,
                 first_order=_features(fo, k, features, inert),
                 inert=inert,
+                unreliable=why,
             )
         )
     return results
@@ -123,25 +143,31 @@ def layer_result(info: LayerInfo, stats: GroupStats, features: list[str]) -> Lay
     nus = intervals(stats.ratio(stats.total_sum))
     tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
     units = []
+    d = len(features)
     for u, name in enumerate(unit_names):
         inert = bool(stats.inert[u])
+        total_index = _features(tot, u, features, inert)
+        why = "" if inert else stats.why_unreliable(u, nus[u], [f.value for f in total_index], d)
         units.append(
             UnitResult(
                 unit=name,
                 variance=variances[u],
                 mean_dimension=None if inert else nus[u],
                 inert=inert,
-                total_index=_features(tot, u, features, inert),
+                total_index=total_index,
+                unreliable=why,
             )
         )
-    live = ~stats.inert
+    doubtful = np.array([bool(x.unreliable) for x in units], dtype=bool)
+    live = ~stats.inert & ~doubtful
     nu_live = np.array([nus[u].estimate for u in np.flatnonzero(live)])
     # variance-weighted mean of nu = sum of all total indices / sum of variances, per randomization
-    w = intervals(stats.weighted_nu())[0] if live.any() else None
+    w = intervals(stats.weighted_nu(live))[0] if live.any() else None
     q = (lambda p: float(np.quantile(nu_live, p))) if len(nu_live) else (lambda p: float("nan"))
     summary: dict[str, Any] = {
         "units": len(unit_names),
         "inert_units": int(stats.inert.sum()),
+        "unreliable_units": int(doubtful.sum()),
         "nu_min": q(0.0),
         "nu_median": q(0.5),
         "nu_p90": q(0.9),
@@ -151,6 +177,11 @@ def layer_result(info: LayerInfo, stats: GroupStats, features: list[str]) -> Lay
         "nu_weighted_ci_high": w.ci_high if w else float("nan"),
     }
     return LayerResult(info.name, info.op, tuple(info.shape), summary, units)
+
+
+def kept_units(layer: LayerResult) -> np.ndarray:
+    """Units of a layer that count in its summaries: neither inert nor unreliable."""
+    return np.array([not (u.inert or u.unreliable) for u in layer.units], dtype=bool)
 
 
 def inputs_info(setup: Setup) -> list[dict[str, Any]]:

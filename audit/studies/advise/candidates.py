@@ -105,7 +105,7 @@ def integrate(plan: AdvicePlan, index: int, scale: np.ndarray, session: Session)
     job = sub.job(f"pre-integrating {name}")
     job.cost = pm.cost
     sums = session.run(job, block=sub.block)
-    st = GroupStats.of(sums[OUTPUTS], sub.design.ddof)
+    st = GroupStats.of(sums[OUTPUTS], sub.design.ddof, sub.eps())
     results = output_results(st, list(s.output_names), names)
     return Integrated(index, check, st, results, check.evaluations + job.evaluations, pm)
 

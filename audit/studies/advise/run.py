@@ -80,7 +80,7 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
     phases = {"audit": s.evaluations, "node_check": 0, "preintegrated": 0, "gain": 0, "freeze_check": 0}
     notices = list(plan.notices)
     with Session(run) as session:
-        main = GroupStats.of(session.run(s.job("audit"), block=s.block)[OUTPUTS], s.design.ddof)
+        main = GroupStats.of(session.run(s.job("audit"), block=s.block)[OUTPUTS], s.design.ddof, s.eps())
         audits = output_results(main, list(s.output_names), s.names)
         live = [k for k, o in enumerate(audits) if not o.inert and o.total_index]
 
