@@ -37,7 +37,7 @@ import numpy as np
 from .engine import Job, JobRecord, Task
 from .errors import UserError
 
-__all__ = ["FORMAT", "Checkpoint"]
+__all__ = ["FORMAT", "Checkpoint", "recorded_seed"]
 
 #: Written into every checkpoint; a file of another format is refused.
 FORMAT = "netdim checkpoint 2"
@@ -306,6 +306,27 @@ class Checkpoint:
             self.saves += 1
             self.failure = None
         self._last = time.monotonic()
+
+
+def recorded_seed(path: str | os.PathLike[str]) -> int | None:
+    """The root seed of the run a checkpoint belongs to (its first job's), or None when there is none.
+
+    A run started without a seed draws one; the same command resumes with the seed
+    recorded here instead of drawing another.
+    """
+    p = Path(path)
+    if not p.is_file():
+        return None
+    try:
+        with zipfile.ZipFile(p) as archive:
+            if sum(info.file_size for info in archive.infolist()) > MAX_BYTES:
+                return None
+        with np.load(p, allow_pickle=False) as z:
+            if str(z["format"]) != FORMAT:
+                return None
+            return int(json.loads(str(z["j0/fingerprint"]))["seed"])
+    except Exception:  # an unreadable checkpoint is reported when the run opens it
+        return None
 
 
 def _alive(pid: int) -> bool:

@@ -24,6 +24,8 @@ References
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 
 __all__ = [
@@ -31,9 +33,11 @@ __all__ = [
     "FREEZE",
     "GAIN",
     "PILOT",
+    "RandomizationSeeds",
     "child_seed",
     "independent_seed",
     "randomization_seeds",
+    "randomization_stream",
     "randomization_streams",
     "resolve_seed",
 ]
@@ -67,21 +71,51 @@ def resolve_seed(seed: int | np.random.Generator | None) -> int:
     return int(seed)
 
 
+def randomization_stream(seed: int, rep: int) -> np.random.SeedSequence:
+    """Child ``rep`` of ``SeedSequence(seed)`` (what ``spawn`` would give), made on its own."""
+    return np.random.SeedSequence(int(seed), spawn_key=(int(rep),))
+
+
 def randomization_streams(seed: int, replicates: int) -> list[np.random.SeedSequence]:
     """The ``replicates`` independent children of ``SeedSequence(seed)``."""
-    return list(np.random.SeedSequence(int(seed)).spawn(int(replicates)))
+    return [randomization_stream(seed, r) for r in range(int(replicates))]
 
 
-def randomization_seeds(seed: int, replicates: int) -> list[int]:
+class RandomizationSeeds(Sequence[int]):
+    """One int seed per randomization, each made when first asked for: the first 64-bit word of
+    child ``r`` of ``SeedSequence(seed)`` (so a design of a million randomizations costs nothing
+    until it runs)."""
+
+    def __init__(self, seed: int, replicates: int) -> None:
+        self.seed, self.replicates = int(seed), int(replicates)
+        self._cache: dict[int, int] = {}
+
+    def __len__(self) -> int:
+        return self.replicates
+
+    def __getitem__(self, rep):  # type: ignore[override]
+        if isinstance(rep, slice):
+            return [self[r] for r in range(*rep.indices(self.replicates))]
+        rep = int(rep)
+        if rep < 0:
+            rep += self.replicates
+        if not 0 <= rep < self.replicates:
+            raise IndexError(f"randomization {rep} of {self.replicates}")
+        if rep not in self._cache:
+            self._cache[rep] = int(randomization_stream(self.seed, rep).generate_state(1, np.uint64)[0])
+        return self._cache[rep]
+
+
+def randomization_seeds(seed: int, replicates: int) -> RandomizationSeeds:
     """One int seed per randomization: the first 64-bit word of each child stream.
 
     Examples
     --------
     >>> from audit.seeds import randomization_seeds
-    >>> len(randomization_seeds(1, 4)), randomization_seeds(1, 4) == randomization_seeds(1, 4)
+    >>> len(randomization_seeds(1, 4)), list(randomization_seeds(1, 4)) == list(randomization_seeds(1, 4))
     (4, True)
     """
-    return [int(c.generate_state(1, np.uint64)[0]) for c in randomization_streams(seed, replicates)]
+    return RandomizationSeeds(seed, replicates)
 
 
 def child_seed(seed: int, *tags: int) -> int:

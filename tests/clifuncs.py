@@ -52,3 +52,16 @@ def slow_ridge(x):
 
     time.sleep(0.1)
     return np.tanh(x[:, 0] + 0.5 * x[:, 1] - 0.2 * x[:, 2]) + 1e-4 * x[:, 3]
+
+
+def chatty(x):
+    """x0 + x1, printing a line each call (as a careless model might)."""
+    print("evaluating", len(x), "rows")
+    return x[:, 0] + x[:, 1]
+
+
+def exits(x):
+    """Calls sys.exit(3) (the gate-failed code) from inside the model."""
+    import sys
+
+    sys.exit(3)

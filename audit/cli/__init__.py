@@ -17,7 +17,7 @@ from typing import Any
 
 from ..errors import UserError
 from .commands import COMMANDS, EXIT_GATE, EXIT_OK, EXIT_RUNTIME, EXIT_USAGE
-from .output import as_flags
+from .output import as_flags, json_stdout
 from .parser import build_parser
 
 __all__ = ["EXIT_GATE", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE", "build_parser", "main"]
@@ -53,12 +53,22 @@ def main(argv: Sequence[str] | None = None) -> int:
     debug = getattr(args, "debug", False)
     _interrupt_on_sigterm()
     try:
-        code = COMMANDS[args.command](args)
+        with json_stdout(getattr(args, "format", "text") == "json" and not getattr(args, "quiet", False)):
+            code = COMMANDS[args.command](args)
         sys.stdout.flush()
         return code
     except BrokenPipeError:
         _quiet_pipe()
         return EXIT_OK
+    except SystemExit as exc:  # netdim's commands never exit themselves: this came from a model's code
+        if debug:
+            traceback.print_exc()
+        print(
+            f"netdim: error: the model's own code called sys.exit({exc.code!r}) during the run, so netdim "
+            "stopped without a result. A Python model must return its values (or raise an error), not exit.",
+            file=sys.stderr,
+        )
+        return EXIT_USAGE
     except UserError as exc:
         if debug:
             traceback.print_exc()

@@ -67,10 +67,11 @@ def _open(args: argparse.Namespace, spec: Any, ref: str | None = None) -> Any:
 
 
 def _design(args: argparse.Namespace) -> Any:
-    from ..studies.options import DesignOptions
+    from ..studies.options import DesignOptions, resume_seed
 
+    seed = resume_seed(args.seed, getattr(args, "checkpoint", None))
     return DesignOptions(
-        points=args.points, replicates=args.replicates, seed=args.seed, sampler=args.sampler, estimator=args.estimator
+        points=args.points, replicates=args.replicates, seed=seed, sampler=args.sampler, estimator=args.estimator
     )
 
 
@@ -82,6 +83,7 @@ def _run_options(args: argparse.Namespace, advance: Any) -> dict[str, Any]:
         "checkpoint_seconds": args.checkpoint_every,
         "cluster": args.cluster,
         "memory_limit": _memory_limit(args),
+        "time_budget": None if args.time_budget is None else args.time_budget * 3600.0,
     }
 
 

@@ -21,7 +21,16 @@ from typing import Any
 
 from ..errors import UserError
 
-__all__ = ["FLAGS", "as_flags", "check_report_target", "console", "print_result", "progress", "save_report"]
+__all__ = [
+    "FLAGS",
+    "as_flags",
+    "check_report_target",
+    "console",
+    "json_stdout",
+    "print_result",
+    "progress",
+    "save_report",
+]
 
 #: Parameters of the Python API and the flags that set them on the command line.
 FLAGS = {
@@ -36,6 +45,7 @@ FLAGS = {
     "checkpoint_seconds": "--checkpoint-every",
     "cluster": "--cluster",
     "memory_limit": "--memory-limit",
+    "time_budget": "--time-budget",
     "dim": "--dim",
     "inputs": "--inputs",
     "torch_class": "--torch-class",
@@ -65,13 +75,35 @@ def console(quiet: bool) -> Any:
     return make_console(file=open(os.devnull, "w") if quiet else None)  # lives as long as the run
 
 
+#: Where ``--format json`` writes; while a run prints JSON, anything else written to standard
+#: output (by a Python model, say) goes to standard error instead (see :func:`json_stdout`).
+_json_out: Any = None
+
+
+@contextlib.contextmanager
+def json_stdout(active: bool):
+    """Keep standard output for the JSON report: other writes go to standard error meanwhile."""
+    global _json_out
+    if not active:
+        yield
+        return
+    _json_out = sys.stdout
+    try:
+        with contextlib.redirect_stdout(sys.stderr):
+            yield
+    finally:
+        _json_out = None
+
+
 def print_result(result: Any, args: argparse.Namespace) -> None:
     """Print a result as the chosen format asks (nothing when quiet)."""
     if args.quiet:
         return
     fmt = getattr(args, "format", "text")
     if fmt == "json":
-        print(json.dumps(result.to_dict(), indent=2))
+        out = _json_out or sys.stdout
+        out.write(json.dumps(result.to_dict(), indent=2) + "\n")
+        out.flush()
         return
     from .. import report
 

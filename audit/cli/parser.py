@@ -83,6 +83,13 @@ def _running(p: argparse.ArgumentParser) -> None:
         "--memory-limit", type=float, metavar="GIB", help="memory the run may use (default: what is available)"
     )
     g.add_argument(
+        "--time-budget",
+        type=float,
+        default=24.0,
+        metavar="HOURS",
+        help="refuse a run estimated to take longer (timed on a probe; default 24)",
+    )
+    g.add_argument(
         "--cluster",
         metavar="ADDRESS",
         help="run the work on dask.distributed: 'local', 'local:N' (N worker processes) or a scheduler address",

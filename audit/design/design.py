@@ -185,7 +185,7 @@ class Design:
         self.seed = int(seed)
         self.sampler = sampler
         self.copies = int(copies)
-        self.rep_seeds: list[Seed] = list(seeds) if seeds is not None else randomization_seeds(seed, replicates)
+        self.rep_seeds: Sequence[Seed] = list(seeds) if seeds is not None else randomization_seeds(seed, replicates)
         if len(self.rep_seeds) != self.replicates:
             raise ValueError(f"{len(self.rep_seeds)} seeds given for {self.replicates} randomizations.")
         self.points_set: PointSet = make_point_set(sampler, self.copies * self.d, self.rep_seeds)

@@ -74,7 +74,7 @@ class ScrambledSobol:
 
     def __init__(self, dim: int, seeds: Sequence[Seed], parts: int | None = None) -> None:
         self.dim = int(dim)
-        self.seeds = list(seeds)
+        self.seeds = seeds
         self.parts = int(parts) if parts is not None else -(-self.dim // SOBOL_MAXDIM)
         self.widths = [len(c) for c in np.array_split(np.arange(self.dim), self.parts)]
         if min(self.widths) < 1 or max(self.widths) > SOBOL_MAXDIM:
@@ -136,7 +136,7 @@ class MonteCarlo:
 
     def __init__(self, dim: int, seeds: Sequence[Seed], parts: int | None = None) -> None:
         self.dim = int(dim)
-        self.seeds = list(seeds)
+        self.seeds = seeds
 
     def uniforms(self, rep: int, start: int, n: int) -> np.ndarray:
         first, last = start // self.CHUNK, (start + n - 1) // self.CHUNK

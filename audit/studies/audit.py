@@ -20,7 +20,7 @@ from ..models.python import PythonModel
 from ..results import AuditResult
 from .options import RunOptions, split_options
 from .session import Session
-from .setup import OUTPUTS, Setup, inputs_spec, prepare, resolve_model
+from .setup import OUTPUTS, Setup, check_time, inputs_spec, prepare, resolve_model
 from .summarize import GroupStats, design_info, inputs_info, layer_result, model_info, output_results
 
 __all__ = ["audit_function", "audit_model", "execute", "function_model"]
@@ -41,6 +41,7 @@ def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
     AuditResult
     """
     run = run or RunOptions()
+    check_time(setup.job(), setup.evaluations, run.time_budget, setup.block)
     t0 = time.perf_counter()
     with Session(run) as session:
         sums = session.run(setup.job(), block=setup.block)

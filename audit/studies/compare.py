@@ -26,7 +26,16 @@ from .evaluators import PairedEvaluator
 from .gates import Gates, judge, rank_agreement
 from .options import split_options
 from .session import Session
-from .setup import OUTPUTS, Setup, check_memory, inputs_spec, prepare, resolve_model, select_layers
+from .setup import (
+    OUTPUTS,
+    Setup,
+    check_memory,
+    check_time,
+    inputs_spec,
+    prepare,
+    resolve_model,
+    select_layers,
+)
 from .summarize import (
     GroupStats,
     design_info,
@@ -133,8 +142,10 @@ def compare_models(
             )
             block = engine.plan_block(so.design.points, so.design.d, job.units, so.estimator.rows_per_point())
             check_memory([(job, run.block or block)], run.memory_limit)
+            check_time(job, so.evaluations + sn.evaluations, run.time_budget, run.block or block)
             sums = session.run(job, block=run.block or block)
         else:
+            check_time(so.job("old"), so.evaluations + sn.evaluations, run.time_budget, so.block)
             sums = {}
             for tag, st in (("old", so), ("new", sn)):
                 st.groups = [engine.Group(OUTPUTS, len(st.output_names))] + [

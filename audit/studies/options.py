@@ -22,7 +22,7 @@ from ..errors import UserError, check_choice, check_int, check_number, suggest
 from ..estimators import ESTIMATORS
 from ..seeds import resolve_seed
 
-__all__ = ["DESIGN_OPTIONS", "RUN_OPTIONS", "DesignOptions", "RunOptions", "split_options"]
+__all__ = ["DESIGN_OPTIONS", "RUN_OPTIONS", "DesignOptions", "RunOptions", "resume_seed", "split_options"]
 
 Progress = Callable[[int, str], None]
 
@@ -103,6 +103,10 @@ class RunOptions:
         Bytes the run may use (default: what is available).
     block : int, optional
         Points per task (default: from the memory budget).
+    time_budget : float, optional
+        Seconds a run may be expected to take (default one day); a run whose estimate,
+        from a timed probe of the model, exceeds it is refused before any work.
+        ``None`` checks nothing.
     """
 
     progress: Progress | None = None
@@ -111,6 +115,7 @@ class RunOptions:
     cluster: Any = None
     memory_limit: int | None = None
     block: int | None = None
+    time_budget: float | None = 86400.0
 
     def __post_init__(self) -> None:
         check_number(self.checkpoint_seconds, "checkpoint_seconds", 0.0)
@@ -119,8 +124,19 @@ class RunOptions:
             object.__setattr__(self, "memory_limit", int(limit))
         if self.block is not None:
             check_int(self.block, "block", 1)
+        if self.time_budget is not None:
+            check_number(self.time_budget, "time_budget", 0.0, low_open=True, why="(seconds)")
         if self.progress is not None and not callable(self.progress):
             raise UserError(f"`progress` must be callable as progress(evaluations, phase), got {self.progress!r}.")
+
+
+def resume_seed(seed: Any, checkpoint: str | Path | None) -> Any:
+    """``seed``, or when none was given, the seed recorded in an existing checkpoint (so the run resumes)."""
+    if seed is not None or checkpoint is None:
+        return seed
+    from ..checkpoint import recorded_seed
+
+    return recorded_seed(checkpoint)
 
 
 DESIGN_OPTIONS = tuple(f.name for f in fields(DesignOptions) if f.name != "notices")
@@ -141,6 +157,8 @@ def split_options(options: dict[str, Any], *, allowed: tuple[str, ...] = ()) -> 
             raise UserError(
                 f"Unknown setting `{name}`." + suggest(name, valid) + f" Valid settings: {', '.join(valid)}."
             )
-    design = DesignOptions(**{k: options.pop(k) for k in DESIGN_OPTIONS if k in options})
+    values = {k: options.pop(k) for k in DESIGN_OPTIONS if k in options}
+    values["seed"] = resume_seed(values.get("seed"), options.get("checkpoint"))
+    design = DesignOptions(**values)
     run = RunOptions(**{k: options.pop(k) for k in RUN_OPTIONS if k in options})
     return design, run

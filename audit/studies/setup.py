@@ -33,6 +33,7 @@ __all__ = [
     "OUTPUTS",
     "Setup",
     "check_memory",
+    "check_time",
     "inputs_spec",
     "model_identity",
     "prepare",
@@ -198,6 +199,38 @@ def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | Non
             f"This run would need about {need / 2**30:.1f} GiB of memory but {have / 2**30:.1f} GiB is "
             f"available. Capture fewer layers (`layers` NAME,... or none), drop `unit_detail`, or use "
             f"fewer replicates."
+        )
+
+
+#: Below this many evaluations no run is timed against the budget (even at 100 rows a second it ends within a day).
+UNTIMED_EVALUATIONS = 10_000_000
+
+
+def check_time(job: engine.Job, evaluations: int, budget: float | None, block: int | None = None) -> None:
+    """Refuse, before any work, a run whose estimated time exceeds ``budget`` seconds.
+
+    The rate comes from timing one small task of ``job`` (the second of two, so that a
+    runtime's first-call cost does not count); ``evaluations`` is the whole run's.
+    """
+    if budget is None or evaluations <= UNTIMED_EVALUATIONS:
+        return
+    import time
+
+    per = job.estimator.rows_per_point() * job.cost
+    n = max(1, min(job.design.points, block or job.design.points, 4096 // per))
+    n = 1 << (n.bit_length() - 1)  # a power of two, as scrambled Sobol' points like
+    seconds = 0.0
+    for _ in range(2):
+        t0 = time.perf_counter()
+        engine.run_task(job, engine.Task(0, 0, n))
+        seconds = time.perf_counter() - t0
+    rate = n * per / max(seconds, 1e-9)
+    need = evaluations / rate
+    if need > budget:
+        raise UserError(
+            f"This run would take about {need / 3600:.3g} hours ({evaluations:,} model evaluations at about "
+            f"{rate:,.0f} a second, timed on this machine), beyond the time budget of {budget / 3600:.3g} hours. "
+            "Use fewer `points` or `replicates`, fewer layers, or raise `time_budget`."
         )
 
 

@@ -36,7 +36,7 @@ from ...results import AdviceResult, Candidate, OutputAdvice, RqmcGain
 from ..audit import function_model
 from ..options import RunOptions, split_options
 from ..session import Session
-from ..setup import OUTPUTS, inputs_spec, resolve_model
+from ..setup import OUTPUTS, check_time, inputs_spec, resolve_model
 from ..summarize import GroupStats, design_info, inputs_info, model_info, output_results
 from .candidates import Integrated, candidate, choose_candidates, integrate, rank_key
 from .freeze import freeze
@@ -75,8 +75,9 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
     AdviceResult
     """
     run = run or RunOptions()
-    t0 = time.perf_counter()
     s = plan.setup
+    check_time(s.job("audit"), plan.evaluations, run.time_budget, s.block)
+    t0 = time.perf_counter()
     phases = {"audit": s.evaluations, "node_check": 0, "preintegrated": 0, "gain": 0, "freeze_check": 0}
     notices = list(plan.notices)
     with Session(run) as session:
