@@ -118,3 +118,42 @@ def test_ascii_only_can_be_asked_for():
     console.print(renderable(make_result(), ascii_only=True))
     text = console.export_text()
     assert text.isascii() and "nu and 95 % interval" in text
+
+
+# What each part of the package may import from the rest of it (besides audit.results and rich):
+# imports point one way, from the renderers to the content to the formatting.
+LAYERS = {
+    "text": set(),
+    "document": set(),
+    "widgets": {"text"},
+    "describe": {"text", "document"},
+    "commands": {"describe", "text", "document"},
+    "findings": {"findings", "describe", "commands", "text", "document"},
+    "sections": {"sections", "findings", "describe", "commands", "text", "document"},
+    "terminal": {"document", "text", "widgets"},
+    "markdown": {"document", "text"},
+    "signature": {"widgets", "text"},
+    "progress": set(),
+}
+
+
+def test_imports_inside_the_package_point_one_way():
+    problems = []
+    for path in sorted(PACKAGE.rglob("*.py")):
+        module = _module_name(path)
+        part = module.split(".")[2]
+        if part == "__init__":
+            continue  # the package itself wires the parts together
+        for name in _imports(path, module):
+            if not name.startswith("audit."):
+                if part not in ("widgets", "terminal", "signature", "progress") and name.startswith("rich"):
+                    problems.append(f"{module} imports {name}: only renderers use rich")
+                continue
+            if name.startswith("audit.results") or not name.startswith("audit.report."):
+                if not name.startswith("audit.results") and name != "audit.report":
+                    problems.append(f"{module} imports {name}")
+                continue
+            target = name.split(".")[2]
+            if target in LAYERS and target not in LAYERS[part] | {part}:
+                problems.append(f"{module} imports {name}")
+    assert not problems
