@@ -73,7 +73,18 @@ def renderable(result: Any, *, ascii_only: bool = False, **options: Any) -> Rend
 
 
 def render(result: Any, console: Console, **options: Any) -> None:
-    """Print any result on ``console`` (see :func:`make_console` and :func:`renderable`)."""
+    """Print any result on ``console``.
+
+    Parameters
+    ----------
+    result : AuditResult, ComparisonResult, AdviceResult or ModelSignature
+        What to show.
+    console : rich.console.Console
+        Where to print (see :func:`make_console`); the layout follows its
+        width, and ASCII stand-ins are used when its encoding is not UTF.
+    **options
+        As for :func:`renderable`.
+    """
     if getattr(result, "kind", "audit") == "signature":
         from .signature import render_signature
 

@@ -11,7 +11,7 @@ import re
 import numpy as np
 from rich.console import Console
 
-from audit.report import markdown, render
+from audit.report import render
 from audit.report.text import fmt, fmt_count, fmt_duration, fmt_interval
 from audit.results import (
     AdviceResult,
@@ -376,5 +376,3 @@ def unescape_md(cell: str) -> str:
 def all_kinds() -> dict[str, object]:
     return {"audit": make_result(), "comparison": make_comparison(), "advice": make_advice()}
 
-
-__all__ = [name for name in dir() if not name.startswith("_")] + ["markdown"]

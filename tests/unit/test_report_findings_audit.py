@@ -7,8 +7,9 @@ The finding thresholds tested here are the module's own rules of thumb
 from __future__ import annotations
 
 import numpy as np
-from reportdata import N_FEATURES, THRESHOLD, grid_result, make_result, markdown, output, render_text, squash
+from reportdata import N_FEATURES, THRESHOLD, grid_result, make_result, output, render_text, squash
 
+from audit.report import markdown
 from audit.report.findings import derive_findings
 from audit.report.findings.audit import freezable_inputs
 from audit.report.text import LIST_LIMIT

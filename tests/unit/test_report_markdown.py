@@ -12,13 +12,12 @@ from reportdata import (
     expected_numbers,
     make_comparison,
     make_result,
-    markdown,
     md_tables,
     render_text,
     unescape_md,
 )
 
-from audit.report import CAUTION, build_report
+from audit.report import CAUTION, build_report, markdown
 from audit.report.document import Bar, Cell, Table
 from audit.report.markdown import escape, to_markdown
 from audit.report.sections.audit import SECTION_TITLES

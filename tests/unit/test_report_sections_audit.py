@@ -6,9 +6,9 @@ import json
 import math
 
 import pytest
-from reportdata import N_FEATURES, THRESHOLD, est, make_result, markdown, render_text
+from reportdata import N_FEATURES, THRESHOLD, est, make_result, render_text
 
-from audit.report import build_report
+from audit.report import build_report, markdown
 from audit.report.document import Bar, Bullets, Cell, Fields, Note, Paragraph, Table
 from audit.report.findings import derive_findings
 from audit.report.sections.audit import SECTION_TITLES, audit_report, inputs_section, outputs_table

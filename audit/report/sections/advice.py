@@ -179,7 +179,19 @@ def output_section(output: OutputAdvice, freeze_threshold: float) -> Section:
 
 
 def advice_report(result: AdviceResult) -> Report:
-    """The advise report's content: kind ``"advice"``, titled after the model's source."""
+    """The advise report's content.
+
+    Parameters
+    ----------
+    result : AdviceResult
+        The advise run.
+
+    Returns
+    -------
+    Report
+        Kind ``"advice"``, titled after the model's source: the header, one
+        section per output (:func:`output_section`) and the findings.
+    """
     sections = [Section(SECTION_TITLES["header"], (Fields(tuple(describe_run(result))),))]
     eps = result.settings.get("freeze_threshold", math.nan)
     sections += [output_section(o, eps) for o in result.outputs]

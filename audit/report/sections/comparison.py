@@ -125,7 +125,20 @@ def gates_blocks(result: ComparisonResult) -> list[Block]:
 
 
 def comparison_report(result: ComparisonResult) -> Report:
-    """The comparison report's content: kind ``"comparison"``, titled after the two models."""
+    """The comparison report's content.
+
+    Parameters
+    ----------
+    result : ComparisonResult
+        The comparison of two model versions.
+
+    Returns
+    -------
+    Report
+        Kind ``"comparison"``, titled after the two models: the models and the
+        run, ν old → new, the inputs that moved, the hidden layers in both, the
+        gates, and a note on the marks when a change is shown.
+    """
     sections = [
         Section(COMPARISON_TITLES["run"], (Fields(tuple(describe_comparison_run(result))),)),
         Section(COMPARISON_TITLES["outputs"], (outputs_table(result),)),
