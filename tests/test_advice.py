@@ -42,9 +42,8 @@ from audit.models.open import open_model
 from audit.models.python import PythonModel
 from audit.nodes import choose_nodes
 from audit.quadrature import MAX_NODES, PreIntegrated, PreIntegratedModel, preintegrate
-from audit.report import make_console
-from audit.report.advice import advice_markdown, render_advice
-from audit.report.findings import CAUTION, fmt
+from audit.report import CAUTION, make_console, markdown, render
+from audit.report.text import fmt
 from audit.results import AdviceResult
 from audit.studies import advise_function, advise_model, prepare_advice
 from model_zoo.functions import ishigami
@@ -353,7 +352,7 @@ def _render(result: AdviceResult, encoding: str = "utf-8") -> str:
             emoji=False,
         )
     )
-    render_advice(result, console)
+    render(result, console)
     buf.flush()
     return buf.buffer.getvalue().decode(encoding)
 
@@ -375,7 +374,7 @@ def test_terminal_report_fits_and_shows_the_numbers(fixture, request):
         assert fmt(out.freeze_group.bound.estimate) in flat
         assert fmt(out.freeze_group.measured.estimate) in flat
     assert " ".join(CAUTION.split()) in flat
-    md = advice_markdown(res)
+    md = markdown(res)
     assert fmt(best.mean_dimension_after.estimate) in md and CAUTION in md
     assert md.count("| input |") >= 1
     ascii_text = _render(res, "ascii")

@@ -1,83 +1,114 @@
 """Reports of netdim results: terminal (rich), Markdown, and a progress bar.
 
-The report layer reads :mod:`audit.results` only; it never imports Torch or
-onnxruntime. :func:`renderable`, :func:`render` and :func:`markdown` take any
-result (audit, comparison, advice).
+Every result (an audit, a comparison of two models, an advise run) is first
+turned into plain content, a :class:`~audit.report.document.Report`
+(:func:`build_report`); one renderer lays out any report for the terminal
+(:mod:`audit.report.terminal`), one writes it as Markdown
+(:mod:`audit.report.markdown`). A model signature (``netdim layers``) has a
+renderer of its own (:mod:`audit.report.signature`).
+
+The report layer reads :mod:`audit.results` only; it never imports Torch,
+onnxruntime, the models, the engine, the estimators or the studies.
+
+Names read from files are shown safely everywhere (control characters as
+escapes, no markup interpreted), and consoles that cannot encode Unicode get
+ASCII; both are decided when a report is printed.
 """
 
 from __future__ import annotations
 
 from typing import Any
 
-from .findings import CAUTION, Finding, derive_findings, fmt, fmt_interval
-from .markdown import audit_markdown
+from rich.console import Console, RenderableType
+
+from .document import Report
+from .markdown import to_markdown
 from .progress import RunProgress
-from .terminal import make_console, render_audit
+from .sections import build_report, check_options
+from .terminal import make_console, to_renderable
+from .text import CAUTION
+from .widgets import AsciiOnly
 
 __all__ = [
     "CAUTION",
-    "Finding",
+    "Report",
     "RunProgress",
-    "audit_markdown",
-    "derive_findings",
-    "fmt",
-    "fmt_interval",
+    "build_report",
     "make_console",
     "markdown",
     "render",
-    "render_audit",
     "renderable",
 ]
 
 
-def renderable(result: Any, **options: Any) -> Any:
-    """Any result as one rich renderable (``all_outputs`` applies to audits)."""
-    kind = getattr(result, "kind", "audit")
-    if kind == "comparison":
-        from .comparison import renderable as comparison_renderable
+def renderable(result: Any, *, ascii_only: bool = False, **options: Any) -> RenderableType:
+    """Any result as one rich renderable.
 
-        return comparison_renderable(result)
-    if kind == "advice":
-        from .advice import advice_renderable
+    Parameters
+    ----------
+    result : AuditResult, ComparisonResult, AdviceResult or ModelSignature
+        What to show (its ``kind`` picks the report).
+    ascii_only : bool, optional
+        ASCII stand-ins even on a console that can encode Unicode (they are
+        used anyway on one that cannot).
+    **options
+        ``all_outputs``, ``threshold``, ``max_outputs`` for audits (see
+        :func:`audit.report.sections.audit.audit_report`); other kinds
+        accept and ignore them.
 
-        return advice_renderable(result, **{k: v for k, v in options.items() if k == "ascii_only"})
-    if kind == "signature":
+    Returns
+    -------
+    rich renderable
+        Laid out for the console's width and encoding when printed; suitable
+        as a ``__rich__`` hook.
+    """
+    if getattr(result, "kind", "audit") == "signature":
         from .signature import signature_renderable
 
-        return signature_renderable(result)
-    from .terminal import renderable as audit_renderable
+        check_options(options)
+        view: RenderableType = signature_renderable(result)
+    else:
+        view = to_renderable(build_report(result, **options))
+    return AsciiOnly(view) if ascii_only else view
 
-    return audit_renderable(result, **options)
 
+def render(result: Any, console: Console, **options: Any) -> None:
+    """Print any result on ``console``.
 
-def render(result: Any, console: Any, **options: Any) -> None:
-    """Print any result on ``console`` (see :func:`make_console`)."""
-    kind = getattr(result, "kind", "audit")
-    if kind == "comparison":
-        from .comparison import render_comparison
-
-        render_comparison(result, console)
-    elif kind == "advice":
-        from .advice import render_advice
-
-        render_advice(result, console)
-    elif kind == "signature":
+    Parameters
+    ----------
+    result : AuditResult, ComparisonResult, AdviceResult or ModelSignature
+        What to show.
+    console : rich.console.Console
+        Where to print (see :func:`make_console`); the layout follows its
+        width, and ASCII stand-ins are used when its encoding is not UTF.
+    **options
+        As for :func:`renderable`.
+    """
+    if getattr(result, "kind", "audit") == "signature":
         from .signature import render_signature
 
         render_signature(result, console)
-    else:
-        render_audit(result, console, **options)
+        return
+    console.print(renderable(result, **options))
 
 
 def markdown(result: Any, **options: Any) -> str:
-    """Any report as Markdown text."""
-    kind = getattr(result, "kind", "audit")
-    if kind == "comparison":
-        from .comparison import comparison_markdown
+    """An audit, comparison or advice report as Markdown text.
 
-        return comparison_markdown(result)
-    if kind == "advice":
-        from .advice import advice_markdown
+    Parameters
+    ----------
+    result : AuditResult, ComparisonResult or AdviceResult
+        What to export.
+    **options
+        As for :func:`renderable`, except that audits rank the inputs of every
+        output by default (``all_outputs=True``: a file has room).
 
-        return advice_markdown(result)
-    return audit_markdown(result, **options)
+    Returns
+    -------
+    str
+        Markdown ending in a newline, closing with the caution.
+    """
+    if getattr(result, "kind", "audit") == "audit":
+        options.setdefault("all_outputs", True)
+    return to_markdown(build_report(result, **options))

@@ -1,71 +1,58 @@
-"""Terminal rendering of an audit with rich.
+"""The terminal renderer: any :class:`~audit.report.document.Report` as one rich renderable.
 
-:func:`renderable` turns an :class:`~audit.results.AuditResult` into one rich
-``Group`` (usable as ``__rich__`` of the result, so notebooks and
-``rich.print`` show it); :func:`render_audit` prints it on a console made by
-:func:`make_console`. Tables are :class:`~audit.report.layout.FitTable`s laid
-out for the console's width: numbers are never split, long names move to a
-line of their own, lists of leading inputs move under their row, and wider
-consoles keep everything on one line per row.
+:func:`to_renderable` lays out every block with the width-aware widgets of
+:mod:`audit.report.widgets`: section titles as rules, labelled rows with a
+hanging indent, tables that keep numbers whole and move long names to lines
+of their own, findings as bullets with their commands, and the closing
+caution. Tones become styles (``"strong"`` bold, ``"muted"`` dim, ...), which
+a console without colour simply drops. Safety and ASCII are decided by the
+widgets when the report is printed, from the console's encoding.
 
-Sections, in order: model and run, outputs at a glance, ranked inputs per
-output, hidden layers, findings, and a closing caution. Every number and
-sentence comes from :mod:`audit.report.findings`, shared with the Markdown
-export.
+:func:`make_console` makes the console reports are printed on.
 """
 
 from __future__ import annotations
 
 import os
-import unicodedata
+from collections.abc import Sequence
+from itertools import groupby
 from typing import IO
 
 from rich.cells import cell_len
-from rich.console import Console, ConsoleOptions, Group, RenderableType, RenderResult
-from rich.rule import Rule
+from rich.console import Console, Group, RenderableType
 from rich.text import Text
 
-from ..results import AuditResult, OutputResult
-from .findings import (
-    BAR_WIDTH,
-    CAUTION,
-    DEFAULT_THRESHOLD,
-    GLUE,
-    SECTION_TITLES,
-    derive_findings,
-    describe_run,
-    fmt_setting,
-    input_rows,
-    layer_rows,
-    output_heading,
-    output_rows,
+from .document import (
+    Bar,
+    Block,
+    Bullets,
+    Cell,
+    CellValue,
+    Column,
+    Fields,
+    Heading,
+    Note,
+    Paragraph,
+    Report,
+    Table,
 )
-from .layout import Column, FitTable, Paragraph
+from .text import BAR_WIDTH, CAUTION, share_bar
+from .widgets import FitColumn, FitTable, Styled, TitleRule, WrappedText
 
-__all__ = ["make_console", "render_audit", "renderable"]
+__all__ = ["STYLES", "make_console", "to_renderable"]
 
-# Stand-ins for consoles that cannot encode Unicode (a cp1252 pipe, say).
-_ASCII = str.maketrans(
-    {
-        "ν": "nu",
-        "…": "...",
-        "—": "-",
-        "→": "->",
-        "±": "+/-",
-        "√": "sqrt ",
-        "×": "x",
-        "–": "-",
-        "°": "deg ",
-        "█": "#",
-        "▉": "#",
-        "▊": "#",
-        "▋": "#",
-        "▌": "+",
-        "▍": "+",
-        "▎": "+",
-        "▏": "+",
-    }
-)
+#: rich styles of the document's tones.
+STYLES = {
+    "plain": "",
+    "strong": "bold",
+    "muted": "dim",
+    "alert": "bold red",
+    "warning": "yellow",
+    "command": "bold cyan",
+}
+_BAR_STYLE = "cyan"
+_KINDS = {"name": "name", "number": "fixed", "text": "fixed", "note": "note", "bar": "extra"}
+_COMMAND_INDENT = 4
 
 
 def make_console(file: IO[str] | None = None, *, width: int | None = None) -> Console:
@@ -99,250 +86,108 @@ def make_console(file: IO[str] | None = None, *, width: int | None = None) -> Co
     return console
 
 
-class _Title:
-    """A section title followed by a rule; wraps instead of truncating when too long."""
+# ----------------------------------------------------------------------------- tables
 
-    def __init__(self, text: str, ascii_only: bool) -> None:
-        self.text, self.ascii_only = _t(text, ascii_only), ascii_only
 
-    def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:
-        title = Text(self.text, style="bold")
-        if cell_len(self.text) + 4 <= options.max_width:
-            yield Rule(title, align="left", style="dim", characters=_rule_char(self.ascii_only))
+def _cell(cell: CellValue, column: Column) -> tuple[str, str]:
+    if isinstance(cell, Bar):
+        return share_bar(cell.fraction).ljust(BAR_WIDTH), _BAR_STYLE
+    if isinstance(cell, Cell):
+        return cell.text, STYLES[cell.tone or column.tone]
+    return cell, STYLES[column.tone]
+
+
+def _table(table: Table) -> FitTable:
+    """One FitTable column per column, or per group of columns (their cells joined by a space)."""
+    spans: list[list[int]] = []
+    for _, members in groupby(range(len(table.columns)), key=lambda i: table.columns[i].group or f"\0{i}"):
+        spans.append(list(members))
+    columns = []
+    for span in spans:
+        first = table.columns[span[0]]
+        if len(span) == 1:
+            columns.append(FitColumn(first.header, first.align, kind=_KINDS[first.role]))  # type: ignore[arg-type]
         else:
-            yield Paragraph(self.text, style="bold")
+            right = all(table.columns[i].align == "right" for i in span)
+            columns.append(FitColumn(first.group, "right" if right else "left", kind=_KINDS[first.role]))  # type: ignore[arg-type]
+    rows: list[list[Styled]] = []
+    for row in table.rows:
+        cells: list[Styled] = []
+        for span in spans:
+            pieces = [_cell(row[i], table.columns[i]) for i in span]
+            pieces = [p for p in pieces if p[0]]
+            joined: list[tuple[str, str]] = []
+            for k, piece in enumerate(pieces):
+                joined += [(" ", ""), piece] if k else [piece]
+            cells.append(tuple(joined))
+        rows.append(cells)
+    return FitTable(columns, rows)
 
 
-def _rule_char(ascii_only: bool) -> str:
-    return "-" if ascii_only else "─"
+# ----------------------------------------------------------------------------- blocks
 
 
-def _title(text: str, ascii_only: bool) -> _Title:
-    return _Title(text, ascii_only)
-
-
-def _t(text: str, ascii_only: bool) -> str:
-    """``text`` itself, or an ASCII stand-in (``ν`` -> ``nu``, ``²`` -> ``2``, ``é`` -> ``e``).
-
-    Non-breaking spaces survive, so that the line wrapper still honours them.
-    """
-    if not ascii_only or text.isascii():
-        return text
-    if GLUE in text:  # keep the non-breaking spaces for the line wrapper
-        return GLUE.join(_t(part, True) for part in text.split(GLUE))
-    decomposed = unicodedata.normalize("NFKD", text.translate(_ASCII))
-    kept = "".join(c for c in decomposed if not unicodedata.combining(c))
-    return kept.encode("ascii", "replace").decode("ascii")
-
-
-def _header(result: AuditResult, ascii_only: bool) -> Group:
-    rows = describe_run(result)
-    width = max(cell_len(label) for label, _ in rows) + 1
-    return Group(
-        *(
-            Paragraph(
-                _t(text, ascii_only),
-                label.ljust(width),
-                prefix_style="bold",
-                style="yellow" if label == "notice" else "",
-            )
-            for label, text in rows
-        )
-    )
-
-
-def _outputs_table(result: AuditResult, ascii_only: bool) -> FitTable:
-    columns = [
-        Column("output", "left", kind="name"),
-        Column("variance"),
-        Column("ν and 95 % interval"),
-        Column("additive\nshare"),
-        Column("leading inputs", "left", kind="note"),
-    ]
-    rows: list[list[str | Text]] = []
-    for r in output_rows(result):
-        inert = r.nu.startswith("inert")
-        nu = Text(r.nu, style="dim") if inert else Text.assemble((r.nu, "bold"), " ", r.nu_interval)
-        name, leading = _t(r.name, ascii_only), _t(r.leading, ascii_only)
-        rows.append([name, r.variance, nu, r.additive_share, leading])
-    return FitTable(_ascii_columns(columns, ascii_only), rows, ascii_only=ascii_only)
-
-
-def _ascii_columns(columns: list[Column], ascii_only: bool) -> list[Column]:
-    if not ascii_only:
-        return columns
-    return [Column(_t(c.header, True), c.justify, c.style, c.kind) for c in columns]
-
-
-def _inputs_block(output: OutputResult, threshold: float, ascii_only: bool) -> list[RenderableType]:
-    parts: list[RenderableType] = [
-        _title(SECTION_TITLES["inputs"].format(name=output.name), ascii_only),
-        Paragraph(_t(output_heading(output), ascii_only)),
-    ]
-    if output.inert or output.mean_dimension is None:
-        return parts
-    if not output.total_index:
-        only = "this estimator measures ν only; no per-input indices"
-        parts.append(Paragraph(_t(only, ascii_only)))
-        return parts
-    rows, folded = input_rows(output, threshold)
-    has_first = bool(output.first_order)
-    columns = [
-        Column("input", "left", kind="name"),
-        Column("total\nindex"),
-        Column("95 % interval"),
-        Column("size (0–1)", "left", style="cyan", kind="extra"),
-    ]
-    if has_first:
-        columns.append(Column("first\norder"))
-    cells: list[list[str | Text]] = [
-        [
-            _t(r.name, ascii_only),
-            r.total,
-            r.interval,
-            _t(r.bar, ascii_only).ljust(BAR_WIDTH),
-            *([r.first_order] * has_first),
-        ]
-        for r in rows
-    ]
-    if cells:
-        parts.append(FitTable(_ascii_columns(columns, ascii_only), cells, ascii_only=ascii_only))
-    if folded:
-        parts.append(
-            Paragraph(
-                _t(f"… {folded} more below {fmt_setting(threshold)}", ascii_only), style="dim"
-            )
-        )
-    return parts
-
-
-def _layers_table(result: AuditResult, ascii_only: bool) -> FitTable:
-    a = ascii_only
-    columns = [
-        Column("layer", "left", kind="name"),
-        Column("op", "left"),
-        Column("units"),
-        Column("inert"),
-        Column("ν min / median / p90 / max"),
-        Column("ν\nweighted"),
-    ]
-    rows: list[list[str | Text]] = [
-        [_t(r.name, a), r.op, r.units, r.inert, r.quantiles, Text(r.weighted, style="bold")]
-        for r in layer_rows(result)
-    ]
-    return FitTable(_ascii_columns(columns, ascii_only), rows, ascii_only=ascii_only)
-
-
-def _findings(result: AuditResult, threshold: float, ascii_only: bool) -> list[RenderableType]:
-    found = derive_findings(result, threshold=threshold)
-    if not found:
-        return [Paragraph("Nothing stands out under the rules of thumb used here.")]
-    bullet = "* " if ascii_only else "• "
+def _fields(block: Fields) -> list[RenderableType]:
+    width = max(cell_len(f.label) for f in block.rows) + 1
     parts: list[RenderableType] = []
-    for f in found:
-        parts.append(Paragraph(_t(f.text, ascii_only), bullet, prefix_style="bold"))
-        parts += [
-            Paragraph(_t(cmd, ascii_only), style="bold cyan", indent=4) for cmd in f.commands
-        ]
+    for f in block.rows:
+        style = STYLES[f.tone]
+        parts.append(WrappedText(f.text, f.label.ljust(width), prefix_style="bold", style=style))
+        parts += [WrappedText(line, " " * width, style=style) for line in f.lines]
     return parts
 
 
-def renderable(
-    result: AuditResult,
-    *,
-    all_outputs: bool = False,
-    threshold: float = DEFAULT_THRESHOLD,
-    max_outputs: int = 3,
-    ascii_only: bool = False,
-) -> Group:
-    """The whole audit report as one rich renderable.
+def _bullets(block: Bullets) -> list[RenderableType]:
+    parts: list[RenderableType] = []
+    for item in block.items:
+        parts.append(WrappedText(item.text, "• ", prefix_style="bold"))
+        parts += [WrappedText(cmd, style=STYLES["command"], indent=_COMMAND_INDENT) for cmd in item.commands]
+    return parts
+
+
+def _block(block: Block, first: bool) -> list[RenderableType]:
+    if isinstance(block, Fields):
+        return _fields(block)
+    if isinstance(block, Table):
+        return [_table(block)]
+    if isinstance(block, Paragraph):
+        return [WrappedText(block.text, style=STYLES[block.tone])]
+    if isinstance(block, Note):
+        return [WrappedText(block.text, style=STYLES["muted"])]
+    if isinstance(block, Heading):
+        heading = WrappedText(block.text, style=STYLES["strong"])
+        return [heading] if first else [Text(), heading]
+    if isinstance(block, Bullets):
+        return _bullets(block)
+    raise TypeError(f"not a report block: {block!r}")
+
+
+def _section_parts(title: str | None, blocks: Sequence[Block]) -> list[RenderableType]:
+    parts: list[RenderableType] = [TitleRule(title)] if title else []
+    for k, block in enumerate(blocks):
+        parts += _block(block, first=k == 0)
+    return parts
+
+
+def to_renderable(report: Report) -> Group:
+    """``report`` as one rich renderable.
 
     Parameters
     ----------
-    result : AuditResult
-        The audit to show.
-    all_outputs : bool, optional
-        Rank the inputs of every output (default: the first ``max_outputs``).
-    threshold : float, optional
-        Inputs whose total index is below this are folded into one line and,
-        when below it at the upper end of their interval, reported as freezable.
-    max_outputs : int, optional
-        Outputs whose inputs are ranked when ``all_outputs`` is false.
-    ascii_only : bool, optional
-        Replace non-ASCII symbols (ν, bar blocks, arrows) by ASCII stand-ins.
+    report : Report
+        Any report.
 
     Returns
     -------
     rich.console.Group
-        Printable with any rich console; suitable as a ``__rich__`` hook.
+        Sections separated by blank lines, closed by a rule and the caution
+        (:data:`audit.report.text.CAUTION`). Printable on any rich console;
+        laid out for the console's width and encoding when printed.
     """
-    if max_outputs < 0:
-        raise ValueError(f"max_outputs must be 0 or more, got {max_outputs}")
-    a = ascii_only
-    parts: list[RenderableType] = [_title(SECTION_TITLES["header"], a), _header(result, a)]
-
-    parts += [Text(), _title(SECTION_TITLES["outputs"], a)]
-    if result.outputs:
-        parts.append(_outputs_table(result, a))
-    else:
-        parts.append(Paragraph("no outputs recorded", style="dim"))
-
-    shown = result.outputs if all_outputs else result.outputs[:max_outputs]
-    for output in shown:
-        parts.append(Text())
-        parts += _inputs_block(output, threshold, a)
-    hidden = len(result.outputs) - len(shown)
-    if hidden:
-        noun = "output" if hidden == 1 else "outputs"
-        parts.append(Text())
-        parts.append(
-            Paragraph(
-                _t(f"… {hidden} more {noun} not ranked here; --all-outputs (all_outputs=True) "
-                   "ranks them.", a),
-                style="dim",
-            )
-        )
-
-    if result.layers:
-        parts += [Text(), _title(SECTION_TITLES["layers"], a), _layers_table(result, a)]
-
-    parts += [Text(), _title(SECTION_TITLES["findings"], a), *_findings(result, threshold, a)]
-
-    parts += [
-        Text(),
-        Rule(style="dim", characters=_rule_char(a)),
-        Paragraph(_t(CAUTION, a), style="italic"),
-    ]
+    parts: list[RenderableType] = []
+    for k, section in enumerate(report.sections):
+        if k:
+            parts.append(Text())
+        parts += _section_parts(section.title, section.blocks)
+    parts += [Text(), TitleRule(), WrappedText(CAUTION, style="italic")]
     return Group(*parts)
-
-
-def render_audit(
-    result: AuditResult,
-    console: Console,
-    *,
-    all_outputs: bool = False,
-    threshold: float = DEFAULT_THRESHOLD,
-    max_outputs: int = 3,
-) -> None:
-    """Print the audit report on ``console``.
-
-    Parameters
-    ----------
-    result : AuditResult
-        The audit to show.
-    console : rich.console.Console
-        Where to print; see :func:`make_console`. ASCII stand-ins are used when
-        the console's encoding is not UTF.
-    all_outputs, threshold, max_outputs
-        As in :func:`renderable`.
-    """
-    ascii_only = not console.encoding.lower().startswith("utf")
-    console.print(
-        renderable(
-            result,
-            all_outputs=all_outputs,
-            threshold=threshold,
-            max_outputs=max_outputs,
-            ascii_only=ascii_only,
-        )
-    )

@@ -1,0 +1,202 @@
+"""The content of an advise report, as a :class:`~audit.report.document.Report`.
+
+Sections: model and run; per output the audit line, the pre-integration
+candidates (ν before → after, the variance check Var f̃ = σ² − τ̄²_ℓ), the
+measured RQMC gain and the inputs that can be frozen; findings in plain
+words (:mod:`audit.report.findings.advice`). Text meant for the terminal
+avoids combining characters (f̃, τ̄), so that every character is one cell.
+"""
+
+from __future__ import annotations
+
+import math
+
+from ...results import AdviceResult, FreezeGroup, OutputAdvice, RqmcGain
+from ..describe import describe_output, describe_run
+from ..document import Block, Cell, CellValue, Column, Fields, Heading, Note, Paragraph, Report, Section, Table
+from ..findings import derive_advice_findings
+from ..text import fmt, fmt_count, fmt_interval, fmt_percent, fmt_setting, listing
+from .audit import SECTION_TITLES, findings_block
+
+__all__ = [
+    "ADVICE_TITLES",
+    "advice_report",
+    "candidates_table",
+    "freeze_table",
+    "gain_lines",
+    "gain_table",
+    "group_line",
+    "nodes_line",
+    "nu_line",
+    "output_section",
+]
+
+ADVICE_TITLES = {
+    "output": "Advice for {name}",
+    "candidates": "Inputs to pre-integrate, best first",
+    "gain": "RQMC gain with {feature} integrated out",
+    "freeze": "Inputs to freeze (total index below {eps} at the interval's upper end)",
+    "findings": SECTION_TITLES["findings"],
+}
+
+
+def candidates_table(output: OutputAdvice) -> Table:
+    """The pre-integration candidates of one output, best first."""
+    columns = (
+        Column("input", "name"),
+        Column("total index"),
+        Column("ν after", tone="strong"),
+        Column("95 % interval"),
+        Column("Var after"),
+        Column("σ² − total"),
+        Column("check", "text"),
+    )
+    rows: list[tuple[CellValue, ...]] = []
+    for c in output.preintegrate:
+        nu, vi = c.mean_dimension_after, c.variance_identity
+        check = Cell("agrees") if vi.agree else Cell("DIFFERS", "alert")
+        rows.append(
+            (
+                c.feature,
+                fmt(c.total_index.estimate),
+                "constant" if nu is None else fmt(nu.estimate),
+                "" if nu is None else fmt_interval(nu.ci_low, nu.ci_high),
+                fmt(vi.measured.estimate),
+                fmt(vi.predicted.estimate),
+                check,
+            )
+        )
+    return Table(columns, tuple(rows))
+
+
+def nodes_line(output: OutputAdvice) -> str:
+    """Gauss nodes and pilot error of the candidates, and how to read the variance columns."""
+    if not output.preintegrate:
+        return ""
+    parts = [f"{c.feature} {c.nodes}" for c in output.preintegrate]
+    worst = max(c.quadrature_error for c in output.preintegrate)
+    return (
+        f"Gauss nodes: {listing(parts)}; on the pilot points the m- and 2m-node rules differ "
+        f'by at most {fmt(worst, 2)} of the output sd. "Var after" is measured on the '
+        'pre-integrated model; "σ² − total" is the audit\'s variance minus the input\'s '
+        "un-normalised total index: they should agree."
+    )
+
+
+def nu_line(output: OutputAdvice) -> str:
+    """ν before → after for the best candidate (empty without one)."""
+    best, nu = output.best, output.audit.mean_dimension
+    if best is None or nu is None:
+        return ""
+    after = best.mean_dimension_after
+    text_after = "constant" if after is None else f"{fmt(after.estimate)} {fmt_interval(after.ci_low, after.ci_high)}"
+    before = f"{fmt(nu.estimate)} {fmt_interval(nu.ci_low, nu.ci_high)}"
+    return f"ν before → after: {before} → {text_after} ({best.feature})"
+
+
+def gain_table(gain: RqmcGain) -> Table:
+    """Per point count n: variance of the model's mean estimate, of the pre-integrated one's, their ratio."""
+    columns = (
+        Column("n"),
+        Column("variance, model"),
+        Column("variance, pre-integrated"),
+        Column("ratio", tone="strong"),
+    )
+    rows = tuple(
+        (fmt_count(r.points), fmt(r.variance_before), fmt(r.variance_after), fmt(r.ratio, 3)) for r in gain.rows
+    )
+    return Table(columns, rows)
+
+
+def gain_lines(gain: RqmcGain) -> list[str]:
+    """Slopes, costs and the equal-cost ratio, one sentence each."""
+    return [
+        f"Slope of log variance against log n: model {fmt(gain.slope_before, 3)}, pre-integrated "
+        f"{fmt(gain.slope_after, 3)} (-1 is the Monte Carlo rate).",
+        f"Cost: model {fmt_count(gain.evaluations_before)} evaluations, pre-integrated "
+        f"{fmt_count(gain.evaluations_after)} ({gain.nodes} per point), over "
+        f"{gain.replicates} randomizations.",
+        "Variance ratio at equal cost in model evaluations (read off the fitted lines, the "
+        f"model's extrapolated): {fmt(gain.equal_cost_ratio, 3)}.",
+    ]
+
+
+def freeze_table(output: OutputAdvice) -> Table:
+    """Inputs below the freeze threshold, smallest total index first, and whether they are grouped."""
+    columns = (Column("input", "name"), Column("total index"), Column("95 % interval"), Column("in group", "text"))
+    rows = tuple(
+        (
+            f.feature,
+            fmt(f.total_index.estimate),
+            fmt_interval(f.total_index.ci_low, f.total_index.ci_high),
+            "yes" if f.grouped else "no (over budget)",
+        )
+        for f in output.freeze
+    )
+    return Table(columns, rows)
+
+
+def group_line(group: FreezeGroup) -> str:
+    """The frozen group's bound and measured error, one sentence."""
+    b, m = group.bound_normalised, group.measured_normalised
+    verdict = "within the bound" if group.holds else "ABOVE the bound"
+    together = " together" if len(group.features) > 1 else ""
+    return (
+        f"Freezing {listing(group.features)}{together} at a random draw: bound (twice the sum "
+        f"of the total indices) {fmt(group.bound.estimate)} ({fmt_percent(b.estimate)} of σ², up to "
+        f"{fmt_percent(b.ci_high)}; budget {fmt_setting(100 * group.budget)} %); measured mean squared "
+        f"change {fmt(group.measured.estimate)} "
+        f"({fmt_percent(m.estimate)} of σ², interval {fmt_percent(m.ci_low)} to {fmt_percent(m.ci_high)}), "
+        f"{verdict}."
+    )
+
+
+def output_section(output: OutputAdvice, freeze_threshold: float) -> Section:
+    """Everything advised for one output."""
+    blocks: list[Block] = [Paragraph(describe_output(output.audit))]
+    title = ADVICE_TITLES["output"].format(name=output.name)
+    if output.audit.inert or output.audit.mean_dimension is None:
+        return Section(title, tuple(blocks))
+    blocks.append(Heading(ADVICE_TITLES["candidates"]))
+    if output.preintegrate:
+        blocks += [candidates_table(output), Paragraph(nu_line(output)), Note(nodes_line(output))]
+    else:
+        blocks.append(Note("No candidates (a single input, or none with a total index worth integrating)."))
+    gain = output.rqmc_gain
+    if gain is not None:
+        blocks += [Heading(ADVICE_TITLES["gain"].format(feature=gain.feature)), gain_table(gain)]
+        blocks += [Paragraph(line) for line in gain_lines(gain)]
+    blocks.append(Heading(ADVICE_TITLES["freeze"].format(eps=fmt_setting(freeze_threshold))))
+    if not output.freeze:
+        blocks.append(Note("None: every input matters at this threshold."))
+    else:
+        blocks.append(freeze_table(output))
+        if output.freeze_group is not None:
+            blocks.append(Paragraph(group_line(output.freeze_group)))
+        else:
+            blocks.append(Note("None fits the error budget on its own; nothing is grouped."))
+    return Section(title, tuple(blocks))
+
+
+def advice_report(result: AdviceResult) -> Report:
+    """The advise report's content.
+
+    Parameters
+    ----------
+    result : AdviceResult
+        The advise run.
+
+    Returns
+    -------
+    Report
+        Kind ``"advice"``, titled after the model's source: the header, one
+        section per output (:func:`output_section`) and the findings.
+    """
+    sections = [Section(SECTION_TITLES["header"], (Fields(tuple(describe_run(result))),))]
+    eps = result.settings.get("freeze_threshold", math.nan)
+    sections += [output_section(o, eps) for o in result.outputs]
+    found = derive_advice_findings(result)
+    empty = "Nothing to advise under the rules used here."
+    sections.append(Section(ADVICE_TITLES["findings"], (findings_block(found, empty),)))
+    source = str((result.model or {}).get("source", "model"))
+    return Report("advice", f"Advice for {source}", tuple(sections))

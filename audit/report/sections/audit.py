@@ -1,0 +1,189 @@
+"""The content of an audit report, as a :class:`~audit.report.document.Report`.
+
+Sections, in order: model and run; outputs at a glance; the inputs of each
+ranked output (the first ``max_outputs``, or all); hidden layers; what the
+numbers suggest. Every number comes from :mod:`audit.report.text`, every
+sentence from :mod:`audit.report.describe` and :mod:`audit.report.findings`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from ...results import AuditResult, OutputResult
+from ..describe import describe_output, describe_run, layer_inert, layer_units
+from ..document import (
+    Bar,
+    Block,
+    Bullet,
+    Bullets,
+    Cell,
+    CellValue,
+    Column,
+    Fields,
+    Note,
+    Paragraph,
+    Report,
+    Section,
+    Table,
+)
+from ..findings import DEFAULT_THRESHOLD, Finding, derive_findings
+from ..text import fmt, fmt_count, fmt_interval, fmt_setting
+
+__all__ = [
+    "LEADING_INPUTS",
+    "MAX_OUTPUTS",
+    "SECTION_TITLES",
+    "audit_report",
+    "findings_block",
+    "inputs_section",
+    "layers_table",
+    "outputs_table",
+]
+
+SECTION_TITLES = {
+    "header": "Model and run",
+    "outputs": "Outputs at a glance",
+    "inputs": "Inputs of {name}, ranked by total index",
+    "layers": "Hidden layers, input to output",
+    "findings": "What the numbers suggest",
+}
+MAX_OUTPUTS = 3
+LEADING_INPUTS = 3
+_NU = "ν and 95 % interval"
+
+
+def outputs_table(result: AuditResult) -> Table:
+    """One row per output: variance, ν and its interval, additive share, leading inputs.
+
+    Inert outputs show ``"inert (constant)"`` in place of ν; the additive
+    share is blank when the estimator gave no first-order indices.
+    """
+    columns = (
+        Column("output", "name"),
+        Column("variance"),
+        Column("ν", tone="strong", group=_NU),
+        Column("95 % interval", group=_NU),
+        Column("additive share"),
+        Column("leading inputs", "note"),
+    )
+    rows: list[tuple[CellValue, ...]] = []
+    for o in result.outputs:
+        variance = fmt(o.variance.estimate)
+        if o.inert or o.mean_dimension is None:
+            rows.append((o.name, variance, Cell("inert (constant)", "muted"), "", "", ""))
+            continue
+        nu = o.mean_dimension
+        additive = fmt(o.additive_share) if o.first_order else ""
+        leading = ", ".join(f.feature for f in o.ranked()[:LEADING_INPUTS])
+        rows.append((o.name, variance, fmt(nu.estimate), fmt_interval(nu.ci_low, nu.ci_high), additive, leading))
+    return Table(columns, tuple(rows))
+
+
+def inputs_section(output: OutputResult, threshold: float = DEFAULT_THRESHOLD) -> Section:
+    """The inputs of one output, largest total index first; those below ``threshold`` are counted, not listed."""
+    title = SECTION_TITLES["inputs"].format(name=output.name)
+    blocks: list[Block] = [Paragraph(describe_output(output))]
+    if output.inert or output.mean_dimension is None:
+        return Section(title, tuple(blocks))
+    if not output.total_index:
+        return Section(title, (*blocks, Note("This estimator measures ν only; no per-input indices.")))
+    first = {f.feature: f for f in output.first_order}
+    columns = [Column("input", "name"), Column("total index"), Column("95 % interval"), Column("size (0–1)", "bar")]
+    if output.first_order:
+        columns.append(Column("first order"))
+    rows: list[tuple[CellValue, ...]] = []
+    folded = 0
+    for f in output.ranked():
+        if not (f.value.estimate >= threshold):
+            folded += 1
+            continue
+        row: list[CellValue] = [f.feature, fmt(f.value.estimate), fmt_interval(f.value.ci_low, f.value.ci_high)]
+        row.append(Bar(f.value.estimate))
+        if output.first_order:
+            fo = first.get(f.feature)
+            row.append("" if fo is None else fmt(fo.value.estimate))
+        rows.append(tuple(row))
+    if rows:
+        blocks.append(Table(tuple(columns), tuple(rows)))
+    if folded:
+        blocks.append(Note(f"… {folded} more below {fmt_setting(threshold)}"))
+    return Section(title, tuple(blocks))
+
+
+def layers_table(result: AuditResult) -> Table:
+    """One row per hidden layer, input side first: units, inert units, ν quantiles, variance-weighted ν."""
+    columns = (
+        Column("layer", "name"),
+        Column("op", "text"),
+        Column("units"),
+        Column("inert"),
+        Column("ν min / median / p90 / max"),
+        Column("ν weighted", tone="strong"),
+    )
+    rows = []
+    for layer in result.layers:
+        s = layer.summary
+        quantiles = " / ".join(fmt(s.get(k)) for k in ("nu_min", "nu_median", "nu_p90", "nu_max"))
+        units, inert = fmt_count(layer_units(layer)), fmt_count(layer_inert(layer))
+        rows.append((layer.name, layer.op, units, inert, quantiles, fmt(s.get("nu_weighted"))))
+    return Table(columns, tuple(rows))
+
+
+def findings_block(found: Sequence[Finding], empty: str) -> Block:
+    """Findings as bullets with their commands, or the sentence ``empty`` when there are none."""
+    if not found:
+        return Paragraph(empty)
+    return Bullets(tuple(Bullet(f.text, f.commands) for f in found))
+
+
+def audit_report(
+    result: AuditResult,
+    *,
+    all_outputs: bool = False,
+    threshold: float = DEFAULT_THRESHOLD,
+    max_outputs: int = MAX_OUTPUTS,
+) -> Report:
+    """The audit report's content.
+
+    Parameters
+    ----------
+    result : AuditResult
+        The audit.
+    all_outputs : bool, optional
+        Rank the inputs of every output (default: the first ``max_outputs``).
+    threshold : float, optional
+        Inputs whose total index is below this are counted in one line and,
+        when below it at the upper end of their interval, reported as freezable.
+    max_outputs : int, optional
+        Outputs whose inputs are ranked when ``all_outputs`` is false.
+
+    Returns
+    -------
+    Report
+        Kind ``"audit"``, titled after the model's source.
+
+    Raises
+    ------
+    ValueError
+        When ``max_outputs`` is negative.
+    """
+    if max_outputs < 0:
+        raise ValueError(f"max_outputs must be 0 or more, got {max_outputs}")
+    sections = [Section(SECTION_TITLES["header"], (Fields(tuple(describe_run(result))),))]
+    overview: Block = outputs_table(result) if result.outputs else Note("No outputs recorded.")
+    sections.append(Section(SECTION_TITLES["outputs"], (overview,)))
+    shown = result.outputs if all_outputs else result.outputs[:max_outputs]
+    sections += [inputs_section(o, threshold) for o in shown]
+    hidden = len(result.outputs) - len(shown)
+    if hidden:
+        noun = "output" if hidden == 1 else "outputs"
+        note = f"… {hidden} more {noun} not ranked here; --all-outputs (all_outputs=True) ranks them."
+        sections.append(Section(None, (Note(note),)))
+    if result.layers:
+        sections.append(Section(SECTION_TITLES["layers"], (layers_table(result),)))
+    found = derive_findings(result, threshold=threshold)
+    empty = "Nothing stands out under the rules of thumb used here."
+    sections.append(Section(SECTION_TITLES["findings"], (findings_block(found, empty),)))
+    source = str((result.model or {}).get("source", "model"))
+    return Report("audit", f"Audit of {source}", tuple(sections))
