@@ -93,6 +93,11 @@ def _run(args: argparse.Namespace, bar: Any) -> Any:
     return RunOptions(**_run_options(args, bar.advance))
 
 
+def _outputs(args: argparse.Namespace) -> list[str] | None:
+    text = getattr(args, "outputs", None)
+    return [n.strip() for n in text.split(",") if n.strip()] if text else None
+
+
 def _memory_limit(args: argparse.Namespace) -> int | None:
     if args.memory_limit is None:
         return None
@@ -123,6 +128,7 @@ def cmd_audit(args: argparse.Namespace) -> int:
         layers=args.layers,
         unit_detail=[n for item in args.unit_detail for n in item.split(",") if n],
         memory_limit=_memory_limit(args),
+        outputs=_outputs(args),
     )
     with progress(args, setup.evaluations) as bar:
         result = execute(setup, _run(args, bar))
@@ -131,15 +137,11 @@ def cmd_audit(args: argparse.Namespace) -> int:
 
 
 def cmd_compare(args: argparse.Namespace) -> int:
-    from ..studies import Gates, compare_models, parse_output_map
+    from ..studies import Gates, compare_models
 
     spec = _spec(args)
     check_report_target(args.json, [args.old, args.new, getattr(args, "inputs", None)])
     old, new = _open(args, spec, args.old), _open(args, spec, args.new)
-    output_map = None
-    if args.output_map:
-        names = [list(spec.outputs) if spec.outputs is not None else m.output_names() for m in (old, new)]
-        output_map = parse_output_map(args.output_map, *names)
     gates = Gates(args.max_dimension_rise, args.min_rank_agreement, args.max_index_shift)
     design = _design(args)
     from ..estimators import make_estimator
@@ -155,10 +157,11 @@ def cmd_compare(args: argparse.Namespace) -> int:
             new,
             spec,
             layers=args.layers,
-            output_map=output_map,
+            output_map=args.output_map,
             gates=gates,
             top_k=args.top_k,
             paired=not args.independent,
+            outputs=_outputs(args),
             **{k: getattr(design, k) for k in ("points", "replicates", "seed", "sampler", "estimator")},
             **_run_options(args, advance),
         )
@@ -194,6 +197,7 @@ def cmd_advise(args: argparse.Namespace) -> int:
         freeze_threshold=args.freeze_threshold,
         freeze_budget=args.freeze_budget,
         memory_limit=_memory_limit(args),
+        outputs=_outputs(args),
         **options,
     )
     with progress(args, plan.evaluations) as bar:

@@ -53,6 +53,7 @@ FLAGS = {
     "input_shape": "--input-shape",
     "trust": "--trust-pickle",
     "output_map": "--output-map",
+    "outputs": "--outputs",
     "top_k": "--top-k",
     "top": "--top",
     "nodes": "--nodes",

@@ -96,6 +96,14 @@ def _running(p: argparse.ArgumentParser) -> None:
     )
 
 
+def _outputs(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--outputs",
+        metavar="NAME,...",
+        help="measure only these outputs: unit names (probabilities[1]) or output tensors (default: all)",
+    )
+
+
 def _output(p: argparse.ArgumentParser, *, all_outputs: bool) -> None:
     g = p.add_argument_group("report")
     g.add_argument("--json", metavar="PATH", help="write the JSON report there (default: under reports/)")
@@ -109,6 +117,7 @@ def _audit(sub: argparse._SubParsersAction) -> None:
     a = sub.add_parser("audit", help="measure a model's outputs and hidden layers")
     a.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
     _inputs(a)
+    _outputs(a)
     _design(a)
     g = a.add_argument_group("hidden layers")
     g.add_argument(
@@ -132,6 +141,7 @@ def _compare(sub: argparse._SubParsersAction) -> None:
     c.add_argument("old", metavar="OLD", help="the current model (file or package.module:function)")
     c.add_argument("new", metavar="NEW", help="the candidate model (file or package.module:function)")
     _inputs(c)
+    _outputs(c)
     _design(c)
     g = c.add_argument_group("what to compare")
     g.add_argument("--layers", default="activations", help="hidden layers to compare (same name and size in both)")
@@ -171,6 +181,7 @@ def _advise(sub: argparse._SubParsersAction) -> None:
     ad = sub.add_parser("advise", help="which inputs to pre-integrate (measured gain) and which to freeze")
     ad.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
     _inputs(ad)
+    _outputs(ad)
     _design(ad)
     ga = ad.add_argument_group("advice")
     ga.add_argument("--top", type=_positive_int, default=3, help="pre-integration candidates tried per output (3)")

@@ -21,6 +21,7 @@ The input spec is a TOML file of netdim's own design::
     [outputs]
     names = ["inside_temperature", "inside_humidity"]
     units = ["°C", "%"]
+    keep = ["inside_temperature"]       # optional: measure only these outputs (or output tensors)
 
     [model]                             # for state-dict files
     class = "package.module:Class"
@@ -45,7 +46,7 @@ __all__ = ["InputSpec", "load_spec", "parse_spec", "uniform_spec"]
 _FEATURE_META = ("name", "unit", "note")
 _INPUT_KEYS = ("law", "count", "names", "feature")
 _TOP_KEYS = ("title", "inputs", "outputs", "model")
-_OUTPUT_KEYS = ("names", "units")
+_OUTPUT_KEYS = ("names", "units", "keep")
 _MODEL_KEYS = ("class", "arguments", "input_shape")
 
 
@@ -69,6 +70,8 @@ class InputSpec:
     outputs : list of str or None
         Names of the flattened output units.
     output_units : list of str or None
+    keep_outputs : list of str or None
+        Output units or output tensors to measure (``[outputs] keep``); default all.
     model : dict
         The ``[model]`` table (``class``, ``arguments``, ``input_shape``).
     source : str
@@ -82,6 +85,7 @@ class InputSpec:
     units: list[str] = field(default_factory=list)
     outputs: list[str] | None = None
     output_units: list[str] | None = None
+    keep_outputs: list[str] | None = None
     model: dict[str, Any] = field(default_factory=dict)
     source: str = ""
     title: str = ""
@@ -256,6 +260,9 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
         not isinstance(out_names, list) or not all(isinstance(n, str) and n for n in out_names)
     ):
         raise UserError(f"{where}, [outputs]: `names` must be a list of non-empty strings.")
+    keep = outputs.get("keep")
+    if keep is not None and (not isinstance(keep, list) or not keep or not all(isinstance(n, str) and n for n in keep)):
+        raise UserError(f"{where}, [outputs]: `keep` must be a list of output names, e.g. keep = [\"probabilities\"].")
     out_units = outputs.get("units")
     if out_units is not None and out_names is not None and len(out_units) != len(out_names):
         raise UserError(f"{where}, [outputs]: `units` and `names` must have the same length.")
@@ -275,6 +282,7 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
         units=units,
         outputs=out_names,
         output_units=out_units,
+        keep_outputs=keep,
         model=dict(model),
         source=source,
         title=str(data.get("title", "")),

@@ -33,6 +33,9 @@ class OutputResult:
         Why the estimates say nothing ("" when they do): an interval of ν wholly
         outside [1, d] or wider than that range, or of an index outside [0, 1]
         (see :func:`audit.estimators.inert.unreliable`).
+    relation : str
+        When the output is an exact affine function of earlier outputs, that function
+        (``"= 1 − probabilities[0]"``); "" otherwise.
     """
 
     name: str
@@ -43,6 +46,7 @@ class OutputResult:
     first_order: list[FeatureEstimate] = field(default_factory=list)
     inert: bool = False
     unreliable: str = ""
+    relation: str = ""
 
     @property
     def additive_share(self) -> float:
@@ -63,6 +67,7 @@ class OutputResult:
             "total_index": [f.to_dict() for f in self.total_index],
             "first_order": [f.to_dict() for f in self.first_order],
             **({"unreliable": self.unreliable} if self.unreliable else {}),
+            **({"relation": self.relation} if self.relation else {}),
         }
 
     @classmethod
@@ -76,6 +81,7 @@ class OutputResult:
             first_order=[FeatureEstimate.from_dict(x) for x in d.get("first_order", [])],
             inert=bool(d.get("inert", False)),
             unreliable=str(d.get("unreliable", "")),
+            relation=str(d.get("relation", "")),
         )
 
 

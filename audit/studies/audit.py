@@ -47,7 +47,8 @@ def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
         sums = session.run(setup.job(), block=setup.block)
     seconds = time.perf_counter() - t0
     ddof = setup.design.ddof
-    outputs = output_results(GroupStats.of(sums[OUTPUTS], ddof, setup.eps()), setup.output_names, setup.names)
+    stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
+    outputs = output_results(stats, setup.output_names, setup.names, setup.redundant)
     layers = [
         layer_result(x, GroupStats.of(sums["layer:" + x.name], ddof, setup.eps("layer:" + x.name)), setup.names)
         for x in setup.layers
@@ -62,6 +63,7 @@ def audit_model(
     *,
     layers: str | Sequence[str] = "activations",
     unit_detail: Sequence[str] = (),
+    outputs: Sequence[str] | None = None,
     **options: Any,
 ) -> AuditResult:
     """Audit a model: variance, mean dimension and Sobol' indices of every output and hidden unit.
@@ -76,6 +78,8 @@ def audit_model(
         Hidden layers to measure.
     unit_detail : list of str
         Layers whose units also get per-input total indices.
+    outputs : list of str, optional
+        Output units or output tensors to measure (default: the spec's ``[outputs] keep``, else all).
     **options
         Design options ``points``, ``replicates``, ``seed``, ``sampler``, ``estimator``
         (:class:`~audit.studies.options.DesignOptions`) and run options ``progress``,
@@ -107,6 +111,7 @@ def audit_model(
         unit_detail=unit_detail,
         block=run.block,
         memory_limit=run.memory_limit,
+        outputs=outputs,
     )
     return execute(setup, run)
 

@@ -23,7 +23,7 @@ from ..inputs import InputSpec, Law
 from ..results import ComparisonResult, Estimate, FeatureEstimate, LayerChange, OutputChange
 from ..seeds import independent_seed
 from .evaluators import PairedEvaluator
-from .gates import Gates, judge, rank_agreement
+from .gates import Gates, judge, parse_output_map, rank_agreement
 from .options import split_options
 from .session import Session
 from .setup import (
@@ -70,10 +70,11 @@ def compare_models(
     inputs: InputSpec | str | Sequence[Law] | None = None,
     *,
     layers: str | Sequence[str] = "activations",
-    output_map: Sequence[tuple[int, int]] | None = None,
+    output_map: str | Sequence[tuple[int, int]] | None = None,
     gates: Gates | None = None,
     top_k: int = 3,
     paired: bool = True,
+    outputs: Sequence[str] | None = None,
     **options: Any,
 ) -> ComparisonResult:
     """Measure two model versions on the same points and report what changed.
@@ -87,15 +88,18 @@ def compare_models(
     layers : {"activations", "all", "none"} or list of str
         Hidden layers to compare; only layers with the same name and unit count in
         both models are compared.
-    output_map : list of (int, int), optional
-        Pairs (old output index, new output index); default: same positions, which
-        needs the same number of outputs.
+    output_map : str or list of (int, int), optional
+        Pairs (old output index, new output index), or the text ``"OLD=NEW,..."`` with names
+        or 0-based indices of the outputs measured; default: same positions, which needs the
+        same number of outputs.
     gates : Gates, optional
         Pipeline limits; the result's ``passed`` is False when any fails.
     top_k : int
         Size of the leading-input sets whose overlap is reported.
     paired : bool
         Same points for both (default). ``False`` uses independent points.
+    outputs : list of str, optional
+        Output units or tensors measured in both models (default: the spec's ``[outputs] keep``, else all).
     **options
         Design and run options, as for :func:`audit.audit_model`.
 
@@ -107,7 +111,7 @@ def compare_models(
     spec = inputs_spec(inputs)
     old, new = resolve_model(old, spec), resolve_model(new, spec)
     pairs = _common_layers(old, new, layers)
-    kw = dict(design=design, block=run.block, memory_limit=run.memory_limit)
+    kw = dict(design=design, block=run.block, memory_limit=run.memory_limit, outputs=outputs)
     so = prepare(old, spec, layers=[a.name for a, _ in pairs], **kw)
     seed = None if paired else independent_seed(design.seed)  # type: ignore[arg-type]
     sn = prepare(new, spec, layers=[b.name for _, b in pairs], seed=seed, **kw)
@@ -117,6 +121,8 @@ def compare_models(
             "a comparison needs the same inputs on both sides."
         )
     ko, kn = len(so.output_names), len(sn.output_names)
+    if isinstance(output_map, str):
+        output_map = parse_output_map(output_map, so.output_names, sn.output_names)
     if output_map is None:
         if ko != kn:
             raise UserError(
@@ -132,7 +138,7 @@ def compare_models(
                 groups += [engine.Group("old:" + a.name, a.units, False), engine.Group("new:" + a.name, a.units, False)]
             job = engine.Job(
                 "compare",
-                PairedEvaluator(so.model, sn.model, [(a.name, b.name) for a, b in pairs]),
+                PairedEvaluator(so.model, sn.model, [(a.name, b.name) for a, b in pairs], so.keep, sn.keep),
                 so.design,
                 so.estimator,
                 groups,
@@ -173,8 +179,8 @@ def _result(
 ) -> ComparisonResult:
     ddof = so.design.ddof
     g_old, g_new = GroupStats.of(sums["old"], ddof, so.eps()), GroupStats.of(sums["new"], ddof, sn.eps())
-    res_old = output_results(g_old, so.output_names, so.names)
-    res_new = output_results(g_new, sn.output_names, sn.names)
+    res_old = output_results(g_old, so.output_names, so.names, so.redundant)
+    res_new = output_results(g_new, sn.output_names, sn.names, sn.redundant)
     nu_old, nu_new = g_old.ratio(g_old.total_sum), g_new.ratio(g_new.total_sum)
     tot_old = g_old.ratio(g_old.total) if g_old.total is not None else None
     tot_new = g_new.ratio(g_new.total) if g_new.total is not None else None

@@ -14,15 +14,19 @@ from ..models.base import Model
 __all__ = ["ModelEvaluator", "PairedEvaluator"]
 
 
-class ModelEvaluator:
-    """One model: rows -> ``{"outputs": ..., "layer:NAME": ...}``."""
+def _kept(outputs: np.ndarray, keep: np.ndarray | None) -> np.ndarray:
+    return outputs if keep is None else outputs.reshape(len(outputs), -1)[:, keep]
 
-    def __init__(self, model: Model, capture: Sequence[str]) -> None:
-        self.model, self.capture = model, list(capture)
+
+class ModelEvaluator:
+    """One model: rows -> ``{"outputs": ..., "layer:NAME": ...}``; ``keep`` selects output columns."""
+
+    def __init__(self, model: Model, capture: Sequence[str], keep: np.ndarray | None = None) -> None:
+        self.model, self.capture, self.keep = model, list(capture), keep
 
     def __call__(self, x: np.ndarray) -> dict[str, np.ndarray]:
         ev = self.model.evaluate(x, self.capture)
-        out = {"outputs": ev.outputs}
+        out = {"outputs": _kept(ev.outputs, self.keep)}
         for name in self.capture:
             out["layer:" + name] = ev.hidden[name]
         return out
@@ -37,15 +41,25 @@ class PairedEvaluator:
     layers : sequence of (str, str)
         Pairs (old layer name, new layer name) compared; both are reported under
         the old model's name.
+    keep_old, keep_new : ndarray, optional
+        Output columns kept of each model.
     """
 
-    def __init__(self, old: Model, new: Model, layers: Sequence[tuple[str, str]]) -> None:
+    def __init__(
+        self,
+        old: Model,
+        new: Model,
+        layers: Sequence[tuple[str, str]],
+        keep_old: np.ndarray | None = None,
+        keep_new: np.ndarray | None = None,
+    ) -> None:
         self.old, self.new, self.layers = old, new, list(layers)
+        self.keep_old, self.keep_new = keep_old, keep_new
 
     def __call__(self, x: np.ndarray) -> dict[str, np.ndarray]:
         ea = self.old.evaluate(x, [a for a, _ in self.layers])
         eb = self.new.evaluate(x, [b for _, b in self.layers])
-        out = {"old": ea.outputs, "new": eb.outputs}
+        out = {"old": _kept(ea.outputs, self.keep_old), "new": _kept(eb.outputs, self.keep_new)}
         for a, b in self.layers:
             out["old:" + a] = ea.hidden[a]
             out["new:" + a] = eb.hidden[b]

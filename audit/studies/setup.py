@@ -27,6 +27,7 @@ from ..inputs import InputSpec, Law, uniform_spec
 from ..models.base import LayerInfo, Model, feature_count, row_dtype
 from .evaluators import ModelEvaluator
 from .options import DesignOptions
+from .outputs import find_redundant, select_outputs
 
 __all__ = [
     "LAYER_CHOICES",
@@ -153,6 +154,8 @@ class Setup:
     options: DesignOptions
     notices: list[str] = field(default_factory=list)
     identity: dict[str, Any] = field(default_factory=dict)
+    keep: np.ndarray | None = None
+    redundant: dict[str, str] = field(default_factory=dict)
 
     @property
     def dtype(self) -> type:
@@ -164,11 +167,12 @@ class Setup:
         return self.design.points * self.design.replicates * self.estimator.rows_per_point()
 
     def evaluator(self) -> ModelEvaluator:
-        return ModelEvaluator(self.model, [x.name for x in self.layers])
+        return ModelEvaluator(self.model, [x.name for x in self.layers], self.keep)
 
     def eps(self, group: str = OUTPUTS) -> np.ndarray | float:
-        """Machine epsilon of the values of a group: per output unit, or the model's coarsest for a layer."""
-        return value_eps(self.model, group)
+        """Machine epsilon of the values of a group: per output unit kept, or the model's coarsest for a layer."""
+        eps = value_eps(self.model, group)
+        return eps[self.keep] if group == OUTPUTS and self.keep is not None else eps
 
     def job(self, name: str = "audit") -> engine.Job:
         """The engine job of this setup."""
@@ -244,6 +248,8 @@ def prepare(
     block: int | None = None,
     memory_limit: int | None = None,
     seed: int | None = None,
+    outputs: Sequence[str] | None = None,
+    probe: bool = True,
 ) -> Setup:
     """Resolve inputs, outputs, layers and design for ``model``; check memory.
 
@@ -264,6 +270,11 @@ def prepare(
     seed : int, optional
         Use this root seed instead of ``design.seed`` (the second model of a comparison on
         independent points).
+    outputs : list of str, optional
+        Output units (or output tensors) to measure; default the spec's ``[outputs] keep``,
+        else every float output.
+    probe : bool
+        Evaluate a small probe to note outputs that are exact linear functions of others.
 
     Raises
     ------
@@ -285,6 +296,7 @@ def prepare(
                 f"{len(out_names)} output units. Fix [outputs] names in the spec."
             )
         out_names = list(spec.outputs)
+    keep, out_names = select_outputs(model, out_names, spec.keep_outputs if outputs is None else outputs)
     chosen = select_layers(model, layers)
     for name in unit_detail:
         if name not in {x.name for x in chosen}:
@@ -301,5 +313,13 @@ def prepare(
     notices.extend(getattr(model, "notices", []) or [])
     identity = model_identity(model)
     setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
+    setup.keep = keep
     check_memory([(setup.job(), blk)], memory_limit)
+    if probe:
+        setup.redundant = find_redundant(model, dsg, keep, out_names, setup.dtype)
+        for name, relation in setup.redundant.items():
+            notices.append(
+                f"{name} {relation} exactly (on a probe of the design): its indices and ν follow from "
+                "those outputs', so the report details those only."
+            )
     return setup

@@ -110,8 +110,10 @@ def _features(per_input: list[list[Estimate]] | None, k: int, features: list[str
     return [FeatureEstimate(f, per_input[j][k]) for j, f in enumerate(features)]
 
 
-def output_results(stats: GroupStats, names: list[str], features: list[str]) -> list[OutputResult]:
-    """One :class:`OutputResult` per output unit of the group."""
+def output_results(
+    stats: GroupStats, names: list[str], features: list[str], relations: dict[str, str] | None = None
+) -> list[OutputResult]:
+    """One :class:`OutputResult` per output unit of the group (``relations``: exact affine relations by name)."""
     means, variances = intervals(stats.mean), intervals(stats.var)
     nus = intervals(stats.ratio(stats.total_sum))
     tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
@@ -131,6 +133,7 @@ def output_results(stats: GroupStats, names: list[str], features: list[str]) -> 
                 first_order=_features(fo, k, features, inert),
                 inert=inert,
                 unreliable=why,
+                relation=(relations or {}).get(name, ""),
             )
         )
     return results

@@ -35,8 +35,8 @@ class Finding:
 
 
 def active_outputs(result: AuditResult) -> list[OutputResult]:
-    """Outputs that vary (not inert, with a mean dimension)."""
-    return [o for o in result.outputs if not o.inert and o.mean_dimension is not None]
+    """Outputs that vary (not inert, with a mean dimension) and are not an exact function of earlier ones."""
+    return [o for o in result.outputs if not o.inert and o.mean_dimension is not None and not o.relation]
 
 
 def relative_half_width(e: Estimate | Any) -> float:

@@ -70,6 +70,9 @@ def outputs_table(result: AuditResult) -> Table:
     rows: list[tuple[CellValue, ...]] = []
     for o in result.outputs:
         variance = fmt(o.variance.estimate)
+        if o.relation:
+            rows.append((o.name, variance, Cell(o.relation, "muted"), "", "", ""))
+            continue
         if o.inert or o.mean_dimension is None:
             rows.append((o.name, variance, Cell("inert (constant)", "muted"), "", "", ""))
             continue
@@ -86,6 +89,11 @@ def inputs_section(output: OutputResult, threshold: float = DEFAULT_THRESHOLD) -
     blocks: list[Block] = [Paragraph(describe_output(output))]
     if output.inert or output.mean_dimension is None:
         return Section(title, tuple(blocks))
+    if output.relation:
+        note = f"{output.name} {output.relation} exactly: its indices and ν follow from those, detailed above."
+        return Section(title, (*blocks, Note(note)))
+    if output.unreliable:
+        blocks.append(Note(f"Unreliable: {output.unreliable}. The numbers below are shown as estimated."))
     if not output.total_index:
         return Section(title, (*blocks, Note("This estimator measures ν only; no per-input indices.")))
     first = {f.feature: f for f in output.first_order}
@@ -173,15 +181,26 @@ def audit_report(
     sections = [Section(SECTION_TITLES["header"], (Fields(tuple(describe_run(result))),))]
     overview: Block = outputs_table(result) if result.outputs else Note("No outputs recorded.")
     sections.append(Section(SECTION_TITLES["outputs"], (overview,)))
-    shown = result.outputs if all_outputs else result.outputs[:max_outputs]
+    ranked = [o for o in result.outputs if not o.relation]
+    shown = ranked if all_outputs else ranked[:max_outputs]
     sections += [inputs_section(o, threshold) for o in shown]
-    hidden = len(result.outputs) - len(shown)
+    hidden = len(ranked) - len(shown)
     if hidden:
         noun = "output" if hidden == 1 else "outputs"
         note = f"… {hidden} more {noun} not ranked here; --all-outputs (all_outputs=True) ranks them."
         sections.append(Section(None, (Note(note),)))
     if result.layers:
-        sections.append(Section(SECTION_TITLES["layers"], (layers_table(result),)))
+        blocks: list[Block] = [layers_table(result)]
+        left_out = sum(int(layer.summary.get("unreliable_units", 0) or 0) for layer in result.layers)
+        if left_out:
+            blocks.append(
+                Note(
+                    f"{left_out} unit{'s' if left_out != 1 else ''} left out of the summaries above: the interval "
+                    "of ν says nothing within [1, d] (numerical noise of a near-constant unit, or too few points; "
+                    "each unit's reason is in the JSON report)."
+                )
+            )
+        sections.append(Section(SECTION_TITLES["layers"], tuple(blocks)))
     found = derive_findings(result, threshold=threshold)
     empty = "Nothing stands out under the rules of thumb used here."
     sections.append(Section(SECTION_TITLES["findings"], (findings_block(found, empty),)))

@@ -93,7 +93,7 @@ def integrate(plan: AdvicePlan, index: int, scale: np.ndarray, session: Session)
     pm = PreIntegratedModel(s.model, s.laws, index, check.nodes, feature_names=s.names)
     names = [n for j, n in enumerate(s.names) if j != index]
     laws = [law for j, law in enumerate(s.laws) if j != index]
-    spec = InputSpec(names=names, laws=laws, outputs=list(s.output_names), source=f"{name} integrated out")
+    spec = InputSpec(names=names, laws=laws, outputs=s.spec.outputs, source=f"{name} integrated out")
     options = DesignOptions(
         points=s.design.points,
         replicates=s.design.replicates,
@@ -101,7 +101,8 @@ def integrate(plan: AdvicePlan, index: int, scale: np.ndarray, session: Session)
         sampler=s.design.sampler,
         estimator=s.estimator.name,
     )
-    sub = prepare(pm, spec, design=options, layers="none")
+    keep = s.keep if s.keep is not None else np.arange(len(s.output_names))
+    sub = prepare(pm, spec, design=options, layers="none", outputs=keep, probe=False)
     job = sub.job(f"pre-integrating {name}")
     job.cost = pm.cost
     sums = session.run(job, block=sub.block)

@@ -71,7 +71,7 @@ def freeze(
     design = Design(s.laws, s.design.points, s.design.replicates, child_seed(s.design.seed, FREEZE), s.design.sampler)
     job = engine.Job(
         "freeze check",
-        ModelEvaluator(s.model, []),
+        ModelEvaluator(s.model, [], s.keep),
         design,
         FreezeError(d, groups),
         [engine.Group(OUTPUTS, len(s.output_names), False)],

@@ -36,7 +36,7 @@ def prefix_variances(plan: AdvicePlan, model, laws, cost: int, label: str, sessi
     k = len(s.output_names)
     job = engine.Job(
         label,
-        ModelEvaluator(model, []),
+        ModelEvaluator(model, [], s.keep),
         design,
         PrefixMeans(plan.gain_points),
         [engine.Group(OUTPUTS, k, False)],

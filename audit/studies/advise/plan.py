@@ -105,6 +105,7 @@ def prepare_advice(
     gain_points: Sequence[int] = DEFAULT_GAIN_POINTS,
     block: int | None = None,
     memory_limit: int | None = None,
+    outputs: Sequence[str] | None = None,
     **design_options: Any,
 ) -> AdvicePlan:
     """Resolve and check everything an advise run needs, before any evaluation.
@@ -143,6 +144,8 @@ def prepare_advice(
         Increasing powers of two n for the RQMC gain (empty: skip it).
     block, memory_limit : int, optional
         Points per task and the memory the run may use (bytes).
+    outputs : list of str, optional
+        Output units or tensors to advise on (default: the spec's ``[outputs] keep``, else all).
 
     Returns
     -------
@@ -169,7 +172,9 @@ def prepare_advice(
     eps = check_number(freeze_threshold, "freeze_threshold", 0.0, 1.0, low_open=True)
     budget = check_number(freeze_budget, "freeze_budget", 0.0, 2.0, low_open=True)
     gains = _gain_points(gain_points)
-    setup = prepare(model, inputs, design=design, layers="none", block=block, memory_limit=memory_limit)
+    setup = prepare(
+        model, inputs, design=design, layers="none", block=block, memory_limit=memory_limit, outputs=outputs
+    )
     notices = list(setup.notices)
     if setup.design.d < 2:
         notices.append("The model has a single input: there is nothing to pre-integrate against.")

@@ -57,6 +57,7 @@ ADVICE_SETTINGS = (
     "freeze_threshold",
     "freeze_budget",
     "gain_points",
+    "outputs",
 )
 
 
@@ -82,7 +83,7 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
     notices = list(plan.notices)
     with Session(run) as session:
         main = GroupStats.of(session.run(s.job("audit"), block=s.block)[OUTPUTS], s.design.ddof, s.eps())
-        audits = output_results(main, list(s.output_names), s.names)
+        audits = output_results(main, list(s.output_names), s.names, s.redundant)
         live = [k for k, o in enumerate(audits) if not o.inert and o.total_index]
 
         tops, union, more = choose_candidates(plan, audits, live)
@@ -159,7 +160,7 @@ def advise_model(model: Any, inputs: InputSpec | str | Sequence[Law] | None = No
         ``memory_limit``, ``block``) and the settings of
         :func:`~audit.studies.advise.plan.prepare_advice` (``top``, ``nodes``,
         ``tolerance``, ``node_cap``, ``node_floor``, ``pilot``, ``max_candidates``,
-        ``freeze_threshold``, ``freeze_budget``, ``gain_points``).
+        ``freeze_threshold``, ``freeze_budget``, ``gain_points``, ``outputs``).
 
     Returns
     -------
