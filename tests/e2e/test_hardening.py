@@ -13,7 +13,7 @@ from onnx import TensorProto, helper
 
 from audit.cli import main
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 ZOO = ROOT / "model_zoo"
 
 
