@@ -21,11 +21,30 @@ LAWS = checks.LAWS
 pytestmark = pytest.mark.filterwarnings(checks.ANY_BLOCK)
 
 
+@pytest.mark.parametrize("estimator", ["fast"])
 @pytest.mark.parametrize("detail", [True, False])
-def test_merge_of_halves_equals_whole(detail):
+def test_merge_of_halves_equals_whole(estimator, detail):
     design = Design(LAWS, 1024, 1, seed=3)
-    job = checks.job("fast", design, [Group("out", 3, detail)])
-    checks.assert_merge_of_halves_equals_whole(job, block=128)
+    groups = [Group("out", 3, detail)]
+    job = checks.job(estimator, design, groups)
+    whole = run_task(job, Task(0, 0, 1024))["out"]
+    parts = [run_task(job, Task(0, s, 128))["out"] for s in range(0, 1024, 128)]
+    merged = parts[0]
+    for p in parts[1:]:
+        merged.merge(p)
+    a, b = whole.finish(1), merged.finish(1)
+    for name in ("mean", "variance", "total_sum", "total", "first"):
+        x, y = getattr(a, name), getattr(b, name)
+        if x is None:
+            assert y is None
+            continue
+        np.testing.assert_allclose(y, x, rtol=1e-12, atol=1e-12 * np.abs(x).max())
+
+
+@pytest.mark.parametrize("detail", [True, False])
+def test_merge_of_blocks_of_another_size_equals_whole(detail):
+    job = checks.job("fast", Design(LAWS, 1024, 1, seed=3), [Group("out", 3, detail)])
+    checks.assert_merge_of_halves_equals_whole(job, block=100)
 
 
 @pytest.mark.parametrize("detail", [True, False])
