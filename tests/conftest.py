@@ -24,3 +24,13 @@ def net_advice():
     import advice_cases
 
     return advice_cases.net_advice()
+
+
+def pytest_collection_modifyitems(config, items):
+    """Longer statistical checks (marked ``slow``) run only when asked for: ``python -m pytest -m slow``."""
+    if config.getoption("markexpr"):
+        return
+    skip = pytest.mark.skip(reason="a longer statistical check: run with -m slow")
+    for item in items:
+        if "slow" in item.keywords:
+            item.add_marker(skip)
