@@ -93,7 +93,7 @@ def _run(capsys, *args):
         (["--replicates", "1"], "At least 2 replicates"),
         (["--law", "gaussian"], "valid choices: normal, uniform"),
         (["--sampler", "halton"], "valid choices: sobol, mc"),
-        (["--estimator", "saltelli"], "valid choices: jansen, fast"),
+        (["--estimator", "pickfreeze"], "valid choices: jansen, fast"),
         (["--inputs", "nowhere.toml"], "does not exist"),
     ],
 )

@@ -24,6 +24,6 @@ def test_make_estimator_builds_each_with_its_cost():
 
 def test_unknown_names_and_unsupported_groups_are_refused():
     with pytest.raises(ValueError, match="valid choices: jansen, fast"):
-        make_estimator("saltelli", d=3)
+        make_estimator("pickfreeze", d=3)
     with pytest.raises(UserError, match="groups"):
         make_estimator("fast", d=3, points=8, groups=[[0, 1]])
