@@ -4,6 +4,7 @@ import argparse
 import errno
 import json
 import shutil
+import types
 from pathlib import Path
 
 import pytest
@@ -84,7 +85,8 @@ def test_exclusive_writes_never_replace_a_file(tmp_path):
 
 def test_default_names_never_collide_within_one_second(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
-    monkeypatch.setattr(audit.cli.output.time, "strftime", lambda fmt: "20260101-120000")
+    # two reports in the same second: the clock of the module always reads the same second
+    monkeypatch.setattr(audit.cli.output, "time", types.SimpleNamespace(strftime=lambda fmt: "20260101-120000"))
     first = save_report(_result(), _args())
     second = save_report(_result(), _args())
     assert first == Path("reports/greenhouse_v1-20260101-120000.json")
