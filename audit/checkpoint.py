@@ -43,6 +43,8 @@ __all__ = ["FORMAT", "Checkpoint", "recorded_seed"]
 FORMAT = "netdim checkpoint 2"
 #: Largest uncompressed size of a checkpoint netdim reads (checked before decompressing).
 MAX_BYTES = 8 << 30
+#: Lock files this process holds (a second Checkpoint on the same file in this process is refused too).
+_HELD: set[str] = set()
 
 
 @contextlib.contextmanager
@@ -133,9 +135,11 @@ class Checkpoint:
                     pid = int(self._lock.read_text().strip() or 0)
                 except (OSError, ValueError):
                     pid = 0
-                if pid and pid != os.getpid() and _alive(pid):
+                mine = pid == os.getpid() and str(self._lock.resolve()) in _HELD
+                if mine or (pid and pid != os.getpid() and _alive(pid)):
                     raise UserError(
-                        f"The checkpoint '{self.path}' is in use by another netdim run (process {pid}). "
+                        f"The checkpoint '{self.path}' is in use by another netdim run (process {pid}"
+                        f"{', this one' if mine else ''}). "
                         "Wait for it to finish, or give this run another checkpoint path."
                     ) from None
                 with contextlib.suppress(OSError):
@@ -148,12 +152,18 @@ class Checkpoint:
                 ) from exc
             with os.fdopen(fd, "w") as f:
                 f.write(str(os.getpid()))
+            _HELD.add(str(self._lock.resolve()))
+            self._holding = True
             return
         raise UserError(f"The checkpoint lock '{self._lock}' could not be taken; remove it if no run is active.")
 
     def close(self) -> None:
         """Release the lock (the checkpoint file stays)."""
+        if not getattr(self, "_holding", False):
+            return
+        self._holding = False
         with contextlib.suppress(OSError):
+            _HELD.discard(str(self._lock.resolve()))
             if self._lock.exists() and self._lock.read_text().strip() == str(os.getpid()):
                 self._lock.unlink()
 

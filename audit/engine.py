@@ -135,6 +135,7 @@ class Job:
             "d": d.d,
             "laws": [law.to_dict() for law in d.laws],
             "estimator": est.name,
+            "estimator_settings": est.settings() if hasattr(est, "settings") else {},
             "rows_per_point": est.rows_per_point(),
             "groups": [[g.name, g.units, g.detail] for g in self.groups],
             "cost": self.cost,

@@ -72,9 +72,12 @@ def check_choice(value: Any, name: str, choices: Sequence[str], what: str = "") 
 def check_int(value: Any, name: str, low: int, high: int | None = None, why: str = "") -> int:
     """``value`` as an int in ``[low, high]``; a :class:`UserError` naming ``name`` otherwise.
 
-    Booleans, floats with a fraction and non-numbers are refused.
+    Whole floats (``4.0``) are taken as ints; booleans, floats with a fraction and
+    non-numbers are refused.
     """
     ok = isinstance(value, int) and not isinstance(value, bool)
+    if not ok and isinstance(value, float) and value.is_integer():
+        value, ok = int(value), True
     if not ok and hasattr(value, "__index__") and not isinstance(value, bool):
         try:
             value, ok = int(value.__index__()), True

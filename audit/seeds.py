@@ -93,6 +93,17 @@ class RandomizationSeeds(Sequence[int]):
     def __len__(self) -> int:
         return self.replicates
 
+    def __eq__(self, other: object) -> bool:
+        if isinstance(other, RandomizationSeeds):
+            return (self.seed, self.replicates) == (other.seed, other.replicates)
+        return isinstance(other, Sequence) and list(self) == list(other)
+
+    def __hash__(self) -> int:
+        return hash((self.seed, self.replicates))
+
+    def __repr__(self) -> str:
+        return f"RandomizationSeeds(seed={self.seed}, replicates={self.replicates})"
+
     def __getitem__(self, rep):  # type: ignore[override]
         if isinstance(rep, slice):
             return [self[r] for r in range(*rep.indices(self.replicates))]

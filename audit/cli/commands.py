@@ -119,7 +119,7 @@ def cmd_audit(args: argparse.Namespace) -> int:
     from ..studies import execute, prepare
 
     spec = _spec(args)
-    check_report_target(args.json, [args.model, getattr(args, "inputs", None)])
+    check_report_target(args.json, [args.model, getattr(args, "inputs", None), args.checkpoint])
     model = _open(args, spec)
     setup = prepare(
         model,
@@ -140,7 +140,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     from ..studies import Gates, compare_models
 
     spec = _spec(args)
-    check_report_target(args.json, [args.old, args.new, getattr(args, "inputs", None)])
+    check_report_target(args.json, [args.old, args.new, getattr(args, "inputs", None), args.checkpoint])
     old, new = _open(args, spec, args.old), _open(args, spec, args.new)
     gates = Gates(args.max_dimension_rise, args.min_rank_agreement, args.max_index_shift)
     design = _design(args)
@@ -177,7 +177,7 @@ def cmd_advise(args: argparse.Namespace) -> int:
     from ..studies import execute_advice, prepare_advice
 
     spec = _spec(args)
-    check_report_target(args.json, [args.model, getattr(args, "inputs", None)])
+    check_report_target(args.json, [args.model, getattr(args, "inputs", None), args.checkpoint])
     model = _open(args, spec)
     options: dict[str, Any] = {}
     if args.gain_points is not None:
@@ -255,6 +255,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
             f"The bundled greenhouse model is missing from {ZOO}. Reinstall netdim from its source "
             "folder, or rebuild the zoo with `python -m model_zoo.build`."
         )
+    check_report_target(args.json, [str(model_path), str(spec_path)])
     spec = load_spec(_short_path(spec_path))
     model = open_model(_short_path(model_path))
     design = DesignOptions(points=args.points, replicates=args.replicates, seed=args.seed)

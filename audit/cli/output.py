@@ -131,10 +131,13 @@ def check_report_target(path: str | None, protected: list[str]) -> None:
     target = Path(path)
     for other in protected:
         with contextlib.suppress(OSError, ValueError):
-            if other and Path(other).exists() and target.exists() and os.path.samefile(target, other):
+            same = target.resolve() == Path(other).resolve() if other else False
+            if other and Path(other).exists() and target.exists():
+                same = same or os.path.samefile(target, other)
+            if same:
                 raise UserError(
-                    f"--json '{path}' is the model or input spec of this run; writing the report there "
-                    "would destroy it. Give another path."
+                    f"--json '{path}' is the model, input spec or checkpoint of this run; writing the report "
+                    "there would destroy it. Give another path."
                 )
     if target.is_dir():
         raise UserError(f"--json '{path}' is a folder; give a file path such as reports/run.json.")

@@ -88,7 +88,8 @@ class ScrambledSobol:
         seed = self.seeds[rep]
         if self.parts == 1:
             return [seed]
-        words = np.random.SeedSequence(seed).generate_state(self.parts, np.uint64)  # type: ignore[arg-type]
+        sequence = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(int(seed))
+        words = sequence.generate_state(self.parts, np.uint64)
         return [int(w) for w in words]
 
     def _rows(self, key: tuple[int, int], dim: int, seed: Seed, start: int, n: int) -> np.ndarray:

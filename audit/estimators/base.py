@@ -23,6 +23,9 @@ The protocol (:class:`Estimator`):
     rebuilt from :meth:`Sums.state`.
 ``state_size(units, detail)``
     Floats one :class:`Sums` holds (for the memory estimate).
+``settings()``
+    What besides the design its numbers depend on (groups, prefixes): part of a
+    checkpoint's fingerprint.
 
 And every :class:`Sums` has ``rows`` (design points added), ``add(y, context)``,
 ``merge(other)``, ``state()`` and ``finish(ddof)``.
@@ -134,3 +137,5 @@ class Estimator(Protocol):
     def restore(self, state: dict[str, np.ndarray]) -> Sums: ...
 
     def state_size(self, units: int, detail: bool) -> int: ...
+
+    def settings(self) -> dict[str, Any]: ...

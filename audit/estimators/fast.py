@@ -175,6 +175,10 @@ class Fast:
     def __init__(self, d: int, points: int) -> None:
         self.d, self.points = int(d), int(points)
 
+    def settings(self) -> dict[str, Any]:
+        """What, besides the design, this estimator's numbers depend on (for checkpoints)."""
+        return {}
+
     def rows_per_point(self) -> int:
         return 2
 

@@ -106,6 +106,10 @@ class FreezeError:
         if not self.groups:
             raise ValueError("the freezing error needs at least one group.")
 
+    def settings(self) -> dict[str, Any]:
+        """What, besides the design, this estimator's numbers depend on (for checkpoints)."""
+        return {"groups": self.groups}
+
     def rows_per_point(self) -> int:
         return len(self.groups) + 1
 

@@ -94,13 +94,13 @@ def paired_interval(new: np.ndarray, old: np.ndarray, level: float = LEVEL, axis
 def welch_interval(new: np.ndarray, old: np.ndarray, level: float = LEVEL) -> Interval:
     """Interval of ``mean(new) - mean(old)`` from independent randomizations (Welch), replicates on axis 0."""
     new, old = np.asarray(new, dtype=np.float64), np.asarray(old, dtype=np.float64)
-    r = new.shape[0]
+    r1, r2 = np.sum(np.isfinite(new), axis=0), np.sum(np.isfinite(old), axis=0)
     est = np.nanmean(new, axis=0) - np.nanmean(old, axis=0)
-    v1, v2 = np.nanvar(new, axis=0, ddof=1) / r, np.nanvar(old, axis=0, ddof=1) / r
+    v1, v2 = np.nanvar(new, axis=0, ddof=1) / r1, np.nanvar(old, axis=0, ddof=1) / r2
     se = np.sqrt(v1 + v2)
     with np.errstate(invalid="ignore", divide="ignore"):
-        df = (v1 + v2) ** 2 / (v1**2 / (r - 1) + v2**2 / (r - 1))
-    half = _t(level, np.where(np.isfinite(df), df, 2 * r - 2)) * se
+        df = (v1 + v2) ** 2 / (v1**2 / (r1 - 1) + v2**2 / (r2 - 1))
+    half = _t(level, np.where(np.isfinite(df), df, r1 + r2 - 2)) * se
     return Interval(est, est - half, est + half, se)
 
 

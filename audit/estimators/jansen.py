@@ -178,6 +178,10 @@ class Jansen:
         self.groups = None if groups is None else [np.asarray(g, dtype=np.intp) for g in groups]
         self.g = self.d if self.groups is None else len(self.groups)
 
+    def settings(self) -> dict[str, Any]:
+        """What, besides the design, this estimator's numbers depend on (for checkpoints)."""
+        return {"groups": None if self.groups is None else [g.tolist() for g in self.groups]}
+
     def rows_per_point(self) -> int:
         return self.g + 2
 

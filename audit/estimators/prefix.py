@@ -86,6 +86,10 @@ class PrefixMeans:
         if not self.prefixes or self.prefixes != sorted(set(self.prefixes)) or self.prefixes[0] < 1:
             raise ValueError(f"prefixes must be increasing positive counts, got {prefixes!r}.")
 
+    def settings(self) -> dict[str, Any]:
+        """What, besides the design, this estimator's numbers depend on (for checkpoints)."""
+        return {"prefixes": self.prefixes}
+
     def rows_per_point(self) -> int:
         return 1
 

@@ -68,4 +68,8 @@ def result_from_dict(data: Any) -> AuditResult | ComparisonResult | AdviceResult
     kind = data.get("kind", "audit")
     if kind not in KINDS:
         raise ValueError(f"unknown report kind {kind!r}; known kinds: {', '.join(KINDS)}")
-    return KINDS[kind].from_dict(data)
+    try:
+        return KINDS[kind].from_dict(data)
+    except (KeyError, TypeError, AttributeError, IndexError) as exc:
+        what = f"missing {exc}" if isinstance(exc, KeyError) else f"{type(exc).__name__}: {exc}"
+        raise ValueError(f"the {kind} report is incomplete or malformed ({what})") from exc

@@ -160,6 +160,8 @@ class ComparisonResult(Displayable):
     def from_dict(cls, d: dict[str, Any]) -> ComparisonResult:
         if d.get("tool") != "netdim" or d.get("kind") != "comparison":
             raise ValueError("not a netdim comparison report")
+        if d.get("schema") != SCHEMA:
+            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
         return cls(
             old_model=d["model"]["old"],
             new_model=d["model"]["new"],

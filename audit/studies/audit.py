@@ -41,7 +41,10 @@ def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
     AuditResult
     """
     run = run or RunOptions()
+    if run.block:
+        setup.block = run.block
     check_time(setup.job(), setup.evaluations, run.time_budget, setup.block)
+    setup.find_relations()
     t0 = time.perf_counter()
     with Session(run) as session:
         sums = session.run(setup.job(), block=setup.block)

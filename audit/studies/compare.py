@@ -23,9 +23,9 @@ from ..inputs import InputSpec, Law
 from ..results import ComparisonResult, Estimate, FeatureEstimate, LayerChange, OutputChange
 from ..seeds import independent_seed
 from .evaluators import PairedEvaluator
-from .gates import Gates, judge, parse_output_map, rank_agreement
+from .gates import ROUNDINGS, Gates, beyond, judge, parse_output_map, rank_agreement
 from .options import split_options
-from .session import Session
+from .session import Session, job_block
 from .setup import (
     OUTPUTS,
     Setup,
@@ -130,34 +130,41 @@ def compare_models(
                 "`output_map` OLD=NEW,... (names or 0-based indices)."
             )
         output_map = [(i, i) for i in range(ko)]
+    jobs = []
+    if paired:
+        groups = [engine.Group("old", ko), engine.Group("new", kn)]
+        for a, _ in pairs:
+            groups += [engine.Group("old:" + a.name, a.units, False), engine.Group("new:" + a.name, a.units, False)]
+        job = engine.Job(
+            "compare",
+            PairedEvaluator(so.model, sn.model, [(a.name, b.name) for a, b in pairs], so.keep, sn.keep),
+            so.design,
+            so.estimator,
+            groups,
+            so.names,
+            so.dtype if so.dtype == sn.dtype else np.float64,
+            identity={"old": so.identity, "new": sn.identity},
+        )
+        jobs.append(job)
+    else:
+        for tag, st in (("old", so), ("new", sn)):
+            st.groups = [engine.Group(OUTPUTS, len(st.output_names))] + [
+                engine.Group("layer:" + x.name, x.units, False) for x in st.layers
+            ]
+            jobs.append(st.job(tag))
+    blocks = [job_block(j, run) for j in jobs]
+    check_memory(list(zip(jobs, blocks, strict=True)), run.memory_limit)
+    check_time(jobs[0], so.evaluations + sn.evaluations, run.time_budget, blocks[0])
+    so.find_relations()
+    sn.find_relations()
     t0 = time.perf_counter()
     with Session(run) as session:
         if paired:
-            groups = [engine.Group("old", ko), engine.Group("new", kn)]
-            for a, _ in pairs:
-                groups += [engine.Group("old:" + a.name, a.units, False), engine.Group("new:" + a.name, a.units, False)]
-            job = engine.Job(
-                "compare",
-                PairedEvaluator(so.model, sn.model, [(a.name, b.name) for a, b in pairs], so.keep, sn.keep),
-                so.design,
-                so.estimator,
-                groups,
-                so.names,
-                so.dtype if so.dtype == sn.dtype else np.float64,
-                identity={"old": so.identity, "new": sn.identity},
-            )
-            block = engine.plan_block(so.design.points, so.design.d, job.units, so.estimator.rows_per_point())
-            check_memory([(job, run.block or block)], run.memory_limit)
-            check_time(job, so.evaluations + sn.evaluations, run.time_budget, run.block or block)
-            sums = session.run(job, block=run.block or block)
+            sums = session.run(jobs[0], block=blocks[0])
         else:
-            check_time(so.job("old"), so.evaluations + sn.evaluations, run.time_budget, so.block)
             sums = {}
-            for tag, st in (("old", so), ("new", sn)):
-                st.groups = [engine.Group(OUTPUTS, len(st.output_names))] + [
-                    engine.Group("layer:" + x.name, x.units, False) for x in st.layers
-                ]
-                part = session.run(st.job(tag))
+            for tag, job, block in zip(("old", "new"), jobs, blocks, strict=True):
+                part = session.run(job, block=block)
                 sums[tag] = part[OUTPUTS]
                 for a, b in pairs:
                     sums[f"{tag}:{a.name}"] = part["layer:" + (a.name if tag == "old" else b.name)]
@@ -178,6 +185,7 @@ def _result(
     notices: list[str],
 ) -> ComparisonResult:
     ddof = so.design.ddof
+    floor = ROUNDINGS * max(float(np.max(so.eps())), float(np.max(sn.eps())))
     g_old, g_new = GroupStats.of(sums["old"], ddof, so.eps()), GroupStats.of(sums["new"], ddof, sn.eps())
     res_old = output_results(g_old, so.output_names, so.names, so.redundant)
     res_new = output_results(g_new, sn.output_names, sn.names, sn.redundant)
@@ -196,7 +204,7 @@ def _result(
         moved = [
             c.feature
             for c in sorted(changes, key=lambda c: -abs(c.value.estimate))
-            if c.value.ci_low > 0 or c.value.ci_high < 0
+            if beyond(c.value.ci_low, c.value.ci_high, floor) > 0
         ]
         tau, overlap, k = rank_agreement(a, b, top_k)
         name = b.name if b.name == a.name else f"{a.name} → {b.name}"
@@ -215,7 +223,8 @@ def _result(
     design["evaluations"] = so.evaluations + sn.evaluations
     design["paired"] = paired
     all_notices = list(dict.fromkeys(so.notices + sn.notices + notices))
-    checks = judge(outputs, gates or Gates())
+    design["rounding_floor"] = floor
+    checks = judge(outputs, gates or Gates(), floor)
     return ComparisonResult(
         model_info(so), model_info(sn), inputs_info(so), design, outputs, layer_changes, checks, all_notices
     )

@@ -22,7 +22,7 @@ import numpy as np
 from ..errors import UserError
 from ..results import GateCheck, OutputChange, OutputResult
 
-__all__ = ["Gates", "judge", "parse_output_map", "rank_agreement"]
+__all__ = ["ROUNDINGS", "Gates", "beyond", "judge", "parse_output_map", "rank_agreement"]
 
 
 @dataclass(frozen=True)
@@ -86,8 +86,18 @@ def rank_agreement(a: OutputResult, b: OutputResult, top_k: int) -> tuple[float,
     return tau, len(top_a & top_b) / k, k
 
 
-def judge(outputs: list[OutputChange], gates: Gates) -> list[GateCheck]:
-    """One check per gate that is set."""
+#: Changes within this many machine epsilons of the coarser model's values are rounding, not change.
+ROUNDINGS = 64
+
+
+def beyond(lo: float, hi: float, floor: float) -> float:
+    """How far an interval of a change lies from zero (0 when it contains zero or only rounding)."""
+    shift = 0.0 if lo <= 0 <= hi else min(abs(lo), abs(hi))
+    return 0.0 if max(abs(lo), abs(hi)) <= floor else shift
+
+
+def judge(outputs: list[OutputChange], gates: Gates, floor: float = 0.0) -> list[GateCheck]:
+    """One check per gate that is set; changes within ``floor`` (rounding) count as none."""
     checks = []
     if gates.max_dimension_rise is not None:
         lows = [(o.mean_dimension_change.ci_low, o.name) for o in outputs if o.mean_dimension_change is not None]
@@ -118,7 +128,7 @@ def judge(outputs: list[OutputChange], gates: Gates) -> list[GateCheck]:
         for o in outputs:
             for c in o.total_index_change:
                 lo, hi = c.value.ci_low, c.value.ci_high
-                shift = 0.0 if lo <= 0 <= hi else min(abs(lo), abs(hi))
+                shift = beyond(lo, hi, floor)
                 if shift > worst:
                     worst, where = shift, f"{c.feature} in {o.name}"
         checks.append(

@@ -118,14 +118,16 @@ class RunOptions:
     time_budget: float | None = 86400.0
 
     def __post_init__(self) -> None:
-        check_number(self.checkpoint_seconds, "checkpoint_seconds", 0.0)
+        seconds = check_number(self.checkpoint_seconds, "checkpoint_seconds", 0.0)
+        object.__setattr__(self, "checkpoint_seconds", seconds)
         if self.memory_limit is not None:
             limit = check_number(self.memory_limit, "memory_limit", 0.0, low_open=True, why="(bytes)")
             object.__setattr__(self, "memory_limit", int(limit))
         if self.block is not None:
-            check_int(self.block, "block", 1)
+            object.__setattr__(self, "block", check_int(self.block, "block", 1))
         if self.time_budget is not None:
-            check_number(self.time_budget, "time_budget", 0.0, low_open=True, why="(seconds)")
+            budget = check_number(self.time_budget, "time_budget", 0.0, low_open=True, why="(seconds)")
+            object.__setattr__(self, "time_budget", budget)
         if self.progress is not None and not callable(self.progress):
             raise UserError(f"`progress` must be callable as progress(evaluations, phase), got {self.progress!r}.")
 

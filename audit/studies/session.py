@@ -15,7 +15,16 @@ from .. import engine
 from ..estimators.base import Sums
 from .options import RunOptions
 
-__all__ = ["Session"]
+__all__ = ["Session", "job_block"]
+
+
+def job_block(job: engine.Job, run: RunOptions) -> int:
+    """Points per task for ``job``: the run's ``block``, else planned within its memory limit."""
+    if run.block:
+        return run.block
+    d, limit = job.design, run.memory_limit
+    budget = None if limit is None else limit // 2
+    return engine.plan_block(d.points, d.d, job.units, job.estimator.rows_per_point(), budget)
 
 
 class Session:
@@ -80,14 +89,15 @@ class Session:
         self._client = None
 
     def run(self, job: engine.Job, *, block: int | None = None, label: str | None = None) -> dict[str, list[Sums]]:
-        """Run ``job`` on this session's executor, with its checkpoint and progress."""
+        """Run ``job`` on this session's executor, with its checkpoint and progress (``block`` default
+        :func:`job_block`)."""
         progress = self.options.progress
         if progress is not None and label is not None:
             inner = progress
             progress = lambda n, phase: inner(n, f"{label}, {phase}")  # noqa: E731
         return engine.run(
             job,
-            block=block or self.options.block,
+            block=block or job_block(job, self.options),
             progress=progress,
             checkpoint=self.checkpoint,
             executor=self.executor,

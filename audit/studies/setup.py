@@ -169,6 +169,20 @@ class Setup:
     def evaluator(self) -> ModelEvaluator:
         return ModelEvaluator(self.model, [x.name for x in self.layers], self.keep)
 
+    def find_relations(self) -> list[str]:
+        """Evaluate a small probe and note outputs that are exact affine functions of earlier ones.
+
+        Returns the notices added (they are also appended to :attr:`notices`).
+        """
+        self.redundant = find_redundant(self.model, self.design, self.keep, self.output_names, self.dtype)
+        added = [
+            f"{name} {relation} exactly (on a probe of the design): its indices and ν follow from "
+            "those outputs', so the report details those only."
+            for name, relation in self.redundant.items()
+        ]
+        self.notices.extend(added)
+        return added
+
     def eps(self, group: str = OUTPUTS) -> np.ndarray | float:
         """Machine epsilon of the values of a group: per output unit kept, or the model's coarsest for a layer."""
         eps = value_eps(self.model, group)
@@ -249,9 +263,8 @@ def prepare(
     memory_limit: int | None = None,
     seed: int | None = None,
     outputs: Sequence[str] | None = None,
-    probe: bool = True,
 ) -> Setup:
-    """Resolve inputs, outputs, layers and design for ``model``; check memory.
+    """Resolve inputs, outputs, layers and design for ``model``; check memory. Nothing is evaluated.
 
     Parameters
     ----------
@@ -273,8 +286,6 @@ def prepare(
     outputs : list of str, optional
         Output units (or output tensors) to measure; default the spec's ``[outputs] keep``,
         else every float output.
-    probe : bool
-        Evaluate a small probe to note outputs that are exact linear functions of others.
 
     Raises
     ------
@@ -315,11 +326,4 @@ def prepare(
     setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
     setup.keep = keep
     check_memory([(setup.job(), blk)], memory_limit)
-    if probe:
-        setup.redundant = find_redundant(model, dsg, keep, out_names, setup.dtype)
-        for name, relation in setup.redundant.items():
-            notices.append(
-                f"{name} {relation} exactly (on a probe of the design): its indices and ν follow from "
-                "those outputs', so the report details those only."
-            )
     return setup

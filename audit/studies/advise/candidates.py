@@ -102,10 +102,10 @@ def integrate(plan: AdvicePlan, index: int, scale: np.ndarray, session: Session)
         estimator=s.estimator.name,
     )
     keep = s.keep if s.keep is not None else np.arange(len(s.output_names))
-    sub = prepare(pm, spec, design=options, layers="none", outputs=keep, probe=False)
+    sub = prepare(pm, spec, design=options, layers="none", outputs=keep)
     job = sub.job(f"pre-integrating {name}")
     job.cost = pm.cost
-    sums = session.run(job, block=sub.block)
+    sums = session.run(job)
     st = GroupStats.of(sums[OUTPUTS], sub.design.ddof, sub.eps())
     results = output_results(st, list(s.output_names), names)
     return Integrated(index, check, st, results, check.evaluations + job.evaluations, pm)

@@ -57,7 +57,6 @@ ADVICE_SETTINGS = (
     "freeze_threshold",
     "freeze_budget",
     "gain_points",
-    "outputs",
 )
 
 
@@ -78,9 +77,10 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
     run = run or RunOptions()
     s = plan.setup
     check_time(s.job("audit"), plan.evaluations, run.time_budget, s.block)
+    relations = s.find_relations()
     t0 = time.perf_counter()
     phases = {"audit": s.evaluations, "node_check": 0, "preintegrated": 0, "gain": 0, "freeze_check": 0}
-    notices = list(plan.notices)
+    notices = [*plan.notices, *relations]
     with Session(run) as session:
         main = GroupStats.of(session.run(s.job("audit"), block=s.block)[OUTPUTS], s.design.ddof, s.eps())
         audits = output_results(main, list(s.output_names), s.names, s.redundant)
@@ -166,7 +166,7 @@ def advise_model(model: Any, inputs: InputSpec | str | Sequence[Law] | None = No
     -------
     AdviceResult
     """
-    design, run = split_options(options, allowed=ADVICE_SETTINGS)
+    design, run = split_options(options, allowed=(*ADVICE_SETTINGS, "outputs"))
     spec = inputs_spec(inputs)
     plan = prepare_advice(
         resolve_model(model, spec), spec, design=design, block=run.block, memory_limit=run.memory_limit, **options

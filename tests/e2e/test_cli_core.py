@@ -11,7 +11,7 @@ import pytest
 
 from audit.cli import main
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 ENV = {**os.environ, "PYTHONPATH": os.pathsep.join([str(ROOT / "tests"), str(ROOT)])}
 
 
@@ -93,7 +93,7 @@ def _run(capsys, *args):
         (["--replicates", "1"], "At least 2 replicates"),
         (["--law", "gaussian"], "valid choices: normal, uniform"),
         (["--sampler", "halton"], "valid choices: sobol, mc"),
-        (["--estimator", "saltelli"], "valid choices: jansen, fast"),
+        (["--estimator", "pickfreeze"], "valid choices: jansen, fast"),
         (["--inputs", "nowhere.toml"], "does not exist"),
     ],
 )

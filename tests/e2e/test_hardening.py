@@ -4,6 +4,7 @@ One row per case of the README's table "When something is wrong".
 """
 
 import os
+import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -13,7 +14,7 @@ from onnx import TensorProto, helper
 
 from audit.cli import main
 
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 ZOO = ROOT / "model_zoo"
 
 
@@ -109,6 +110,7 @@ def test_user_error_exits_2_without_traceback(case, tmp_path, capsys, monkeypatc
 
 def test_report_kept_when_the_json_path_is_unwritable(tmp_path, capsys, monkeypatch):
     monkeypatch.chdir(ROOT)
+    monkeypatch.setattr(tempfile, "tempdir", str(tmp_path))  # the kept report goes there, not into /tmp
     blocker = tmp_path / "file"
     blocker.write_text("")
     code = main(

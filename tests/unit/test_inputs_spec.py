@@ -1,78 +1,13 @@
-"""Input laws and the TOML input spec."""
+"""The TOML input spec (audit.inputs.spec)."""
 
-import math
 import tomllib
 
-import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import integrate, stats
 
 from audit.errors import UserError
 from audit.inputs import LAWS, Law, load_spec, parse_spec, uniform_spec
-
-finite = st.floats(-1e6, 1e6, allow_nan=False, allow_infinity=False)
-positive = st.floats(1e-3, 1e3, allow_nan=False, allow_infinity=False)
-
-
-@st.composite
-def laws(draw):
-    kind = draw(st.sampled_from(sorted(LAWS)))
-    if kind == "normal":
-        return Law(kind, {"mean": draw(finite), "sd": draw(positive)})
-    if kind == "lognormal":
-        return Law(kind, {"log_mean": draw(st.floats(-5, 5)), "log_sd": draw(st.floats(0.01, 2))})
-    lo = draw(finite)
-    hi = lo + draw(positive)
-    if kind == "uniform":
-        return Law(kind, {"low": lo, "high": hi})
-    return Law(kind, {"low": lo, "mode": lo + draw(st.floats(0, 1)) * (hi - lo), "high": hi})
-
-
-@settings(max_examples=80, deadline=None)
-@given(laws(), st.lists(st.floats(1e-9, 1 - 1e-9), min_size=2, max_size=20))
-def test_inverse_cdf_monotone_and_inside_support(law, us):
-    u = np.sort(np.array(us))
-    x = law.ppf(u)
-    assert np.all(np.isfinite(x))
-    assert np.all(np.diff(x) >= -1e-9 * (1 + np.abs(x[:-1])))
-    lo, hi = law.dist.support()
-    assert np.all(x >= lo - 1e-9 * (1 + abs(lo))) and np.all(x <= hi + 1e-9 * (1 + abs(hi)))
-
-
-@pytest.mark.parametrize(
-    "law",
-    [
-        Law("normal", {"mean": 1.0, "sd": 2.0}),
-        Law("uniform", {"low": -1, "high": 3}),
-        Law("lognormal", {"log_mean": 0.2, "log_sd": 0.5}),
-        Law("triangular", {"low": 0, "mode": 1, "high": 4}),
-    ],
-)
-def test_quadrature_reproduces_moments(law):
-    # reference: scipy.stats moments of the same law (and scipy.integrate.quad for E[cos X])
-    x, w = law.quadrature(40)
-    assert w.sum() == pytest.approx(1.0)
-    for k in (1, 2, 3):
-        assert np.dot(w, x**k) == pytest.approx(law.dist.moment(k), rel=1e-6)
-    lo, hi = law.dist.support()
-    ref = integrate.quad(lambda t: math.cos(t) * law.dist.pdf(t), max(lo, -50), min(hi, 50), limit=200)[0]
-    assert np.dot(w, np.cos(x)) == pytest.approx(ref, abs=1e-6)
-
-
-def test_bad_law_parameters():
-    with pytest.raises(ValueError, match="sd must be > 0"):
-        Law("normal", {"sd": 0})
-    with pytest.raises(ValueError, match="low must be < high"):
-        Law("uniform", {"low": 1, "high": 1})
-    with pytest.raises(ValueError, match="valid laws: normal, uniform"):
-        Law("gauss")
-    with pytest.raises(ValueError, match="finite"):
-        Law("normal", {"mean": math.inf})
-    with pytest.raises(UserError, match="valid choices: normal, uniform"):
-        uniform_spec("unifrom")
-
 
 SPEC = """
 title = "test"
@@ -152,6 +87,8 @@ toml_values = st.recursive(
     lambda children: st.lists(children, max_size=3) | st.dictionaries(st.text(max_size=6), children, max_size=3),
     max_leaves=8,
 )
+
+
 keys = st.sampled_from(["law", "low", "high", "mean", "sd", "count", "names", "feature", "mode", "name", "x"])
 
 
@@ -171,7 +108,12 @@ def test_any_document_parses_or_raises_the_project_error(doc):
     assert spec.default.kind in LAWS
 
 
-def test_ppf_matches_scipy_reference():
-    # scipy.stats is the reference for the laws
-    u = np.linspace(0.01, 0.99, 7)
-    np.testing.assert_allclose(Law("normal", {"mean": 1, "sd": 2}).ppf(u), stats.norm.ppf(u, 1, 2))
+def test_resolve_takes_the_model_side_when_the_spec_says_nothing():
+    spec = uniform_spec("uniform")
+    assert spec.dim is None and spec.source == "--law uniform"
+    names, laws_ = spec.resolve(2, ["a", "b"])
+    assert names == ["a", "b"] and laws_ == [Law("uniform")] * 2
+    # default names of the wrong length are replaced by x0, x1, ...
+    assert spec.resolve(3, ["a", "b"])[0] == ["x0", "x1", "x2"]
+    with pytest.raises(UserError, match="does not say how many inputs"):
+        spec.resolve(None)

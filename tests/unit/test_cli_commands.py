@@ -1,0 +1,63 @@
+"""The subcommands (audit.cli.commands): argument conversions, and the exit code of a failed gate."""
+
+import argparse
+
+import pytest
+
+from audit.cli import main
+from audit.cli.commands import EXIT_GATE, EXIT_OK, EXIT_RUNTIME, EXIT_USAGE, _json_arg, _memory_limit, _shape_arg
+from audit.errors import UserError
+
+
+def test_exit_codes():
+    assert (EXIT_OK, EXIT_RUNTIME, EXIT_USAGE, EXIT_GATE) == (0, 1, 2, 3)
+
+
+def test_json_arguments_must_be_objects():
+    assert _json_arg('{"hidden": 32}', "--torch-args") == {"hidden": 32}
+    assert _json_arg(None, "--torch-args") == {} and _json_arg("", "--torch-args") == {}
+    with pytest.raises(UserError, match=r"--torch-args must be a JSON object like '\{\"hidden\": 32\}'; got '\[1\]'"):
+        _json_arg("[1]", "--torch-args")
+    with pytest.raises(UserError, match="must be a JSON object"):
+        _json_arg("{hidden: 32}", "--torch-args")
+
+
+def test_input_shapes_are_positive_whole_numbers():
+    assert _shape_arg("1,8,8") == (1, 8, 8) and _shape_arg(None) is None
+    for bad, needle in (("1,x", "whole numbers separated by commas"), ("0,3", "positive whole numbers")):
+        with pytest.raises(UserError, match=needle):
+            _shape_arg(bad)
+
+
+def test_the_memory_limit_is_given_in_gib():
+    assert _memory_limit(argparse.Namespace(memory_limit=None)) is None
+    assert _memory_limit(argparse.Namespace(memory_limit=1.5)) == 3 * 2**29
+    with pytest.raises(UserError, match=r"`memory_limit` must be a number > 0, got 0\.0\. \(GiB\)"):
+        _memory_limit(argparse.Namespace(memory_limit=0.0))
+
+
+def test_bad_gain_points_are_refused(capsys):
+    code = main(["advise", "clifuncs:two_outputs", "--dim", "2", "--no-save", "--gain-points", "256,x"])
+    assert code == 2 and "--gain-points takes whole numbers separated by commas, got '256,x'" in capsys.readouterr().err
+
+
+def test_a_failed_gate_exits_3_after_saving_the_report(tmp_path, capsys):
+    out = tmp_path / "c.json"
+    code = main([
+        "compare", "clifuncs:additive6", "clifuncs:additive6_plus_product", "--dim", "6", "--points", "128",
+        "--seed", "1", "--max-dimension-rise", "0", "--json", str(out), "--quiet",
+    ])  # fmt: skip
+    assert code == 3 and out.exists()
+    assert "netdim: gate failed: max_dimension_rise" in capsys.readouterr().err
+
+
+def test_an_unexpected_failure_exits_1_and_asks_for_a_report(capsys, monkeypatch):
+    import audit.cli.commands
+
+    def broken(args):
+        raise ZeroDivisionError("division by zero")
+
+    monkeypatch.setitem(audit.cli.commands.COMMANDS, "layers", broken)
+    assert main(["layers", "m"]) == 1
+    err = capsys.readouterr().err
+    assert "unexpected failure: ZeroDivisionError: division by zero" in err and "--debug" in err

@@ -1,0 +1,29 @@
+"""The estimator registry (audit.estimators): names, construction, evaluations per point."""
+
+import pytest
+
+from audit.errors import UserError
+from audit.estimators import ESTIMATORS, Fast, Jansen, make_estimator
+
+
+def test_registry_holds_the_estimators_a_user_can_choose():
+    assert list(ESTIMATORS) == ["jansen", "fast"]
+    for name, cls in ESTIMATORS.items():
+        assert cls.name == name and cls.label and cls.help and cls.copies == 2
+    assert Jansen.first_order and not Fast.first_order
+
+
+def test_make_estimator_builds_each_with_its_cost():
+    jansen = make_estimator("jansen", d=6)
+    assert isinstance(jansen, Jansen) and jansen.rows_per_point() == 8  # N(d + 2)
+    fast = make_estimator("fast", d=6, points=64)
+    assert isinstance(fast, Fast) and fast.rows_per_point() == 2 and fast.points == 64  # 2N whatever d is
+    grouped = make_estimator("jansen", d=6, groups=[[0, 1, 2], [3, 4, 5]])
+    assert grouped.rows_per_point() == 4
+
+
+def test_unknown_names_and_unsupported_groups_are_refused():
+    with pytest.raises(ValueError, match="valid choices: jansen, fast"):
+        make_estimator("pickfreeze", d=3)
+    with pytest.raises(UserError, match="groups"):
+        make_estimator("fast", d=3, points=8, groups=[[0, 1]])

@@ -1,0 +1,40 @@
+"""The public Python API (audit/__init__.py): names loaded on first use, so `import audit` stays light."""
+
+import subprocess
+import sys
+
+import pytest
+
+import audit
+
+HEAVY = ("scipy", "onnx", "onnxruntime", "torch")
+
+
+def _loaded_after(statement: str) -> list[str]:
+    code = f"import sys\n{statement}\nprint(' '.join(m for m in {HEAVY!r} if m in sys.modules))"
+    return subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()
+
+
+def test_import_audit_loads_no_scipy_onnx_or_torch():
+    assert _loaded_after("import audit") == []
+    assert _loaded_after("import audit.cli") == []  # the command line starts fast too
+
+
+def test_every_public_name_resolves_from_its_module():
+    assert audit.__all__ == sorted(audit._EXPORTS)
+    for name, module in audit._EXPORTS.items():
+        value = getattr(audit, name)
+        assert value is getattr(sys.modules[module], name), name
+    assert set(audit.__all__) <= set(dir(audit))
+    with pytest.raises(AttributeError, match="module 'audit' has no attribute 'nothing'"):
+        audit.nothing  # noqa: B018
+
+
+def test_results_render_through_the_report_layer_once_audit_is_imported():
+    from audit.results import Estimate, OutputResult
+    from audit.results.base import _RENDERER
+
+    assert _RENDERER is not None
+    e = Estimate(1.0, 0.9, 1.1, 0.05)
+    result = audit.AuditResult({"source": "m", "format": "onnx"}, [], {"points": 8}, [OutputResult("y", e, e, e)])
+    assert result.__rich__() is not None and not isinstance(result.__rich__(), str)

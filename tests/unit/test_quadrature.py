@@ -1,0 +1,81 @@
+"""Pre-integration (audit.quadrature): one input integrated out by a Gauss rule.
+
+References: the Gaussian integral of Φ, E Φ(a + bZ) = Φ(a / √(1 + b²)) for Z ~ N(0, 1), gives the
+closed form of the Φ ridge with one input integrated out (tests/advice_cases.py; common practice,
+no source); Gauss rules with m nodes integrate polynomials of degree ≤ 2m − 1 exactly (common
+practice, no source).
+"""
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from advice_cases import NORMAL6, phi_ridge, reduced_ridge
+
+from audit import Law
+from audit.errors import UserError
+from audit.models.open import open_model
+from audit.models.python import PythonModel
+from audit.quadrature import MAX_NODES, PreIntegrated, PreIntegratedModel, preintegrate
+
+ZOO = Path(__file__).resolve().parents[2] / "model_zoo"
+
+
+def test_preintegrated_phi_ridge_matches_closed_form():
+    x = np.random.default_rng(0).standard_normal((2000, 5)) * 1.5
+    for index in range(6):
+        g = PreIntegrated(phi_ridge, NORMAL6, index, nodes=32)
+        assert g.cost == 32
+        np.testing.assert_allclose(g(x), reduced_ridge(x, index), rtol=0, atol=1e-8)
+
+
+def test_preintegrated_returns_what_the_function_returns():
+    laws = [
+        Law("uniform", {"low": -1, "high": 2}),
+        Law("normal", {"mean": 1, "sd": 2}),
+        Law("uniform"),
+    ]
+
+    # x1 ~ N(1, 4): E[x1] = 1, E[x1²] = 5; a 3-node Gauss rule is exact for degree ≤ 5
+    def two(x):
+        return np.stack([x[:, 0] * x[:, 1], x[:, 1] ** 2 + x[:, 2]], axis=1)
+
+    x = np.random.default_rng(1).random((50, 2))
+    g = PreIntegrated(two, laws, 1, nodes=3)
+    np.testing.assert_allclose(g(x), np.stack([x[:, 0], 5 + x[:, 1]], axis=1), atol=1e-12)
+    # batching does not change the answer
+    np.testing.assert_allclose(
+        PreIntegrated(two, laws, 1, nodes=3, max_rows=7)(x), g(x), atol=1e-15
+    )
+    # an evaluator returning a dict of arrays gives a dict back
+    ev = PreIntegrated(lambda X: {"a": two(X), "b": X[:, :1] ** 2}, laws, 1, nodes=3)
+    out = ev(x)
+    assert set(out) == {"a", "b"} and out["b"].shape == (50, 1)
+    np.testing.assert_allclose(out["a"], g(x), atol=1e-15)
+    # a model gives a model with d - 1 inputs
+    pm = preintegrate(PythonModel(two, 3, source="two"), laws, 1, 3)
+    assert isinstance(pm, PreIntegratedModel)
+    assert pm.inputs[0].units == 2 and pm.feature_names() == ["x[0]", "x[2]"]
+    np.testing.assert_allclose(pm.evaluate(x).outputs, g(x), atol=1e-15)
+    assert g(np.zeros((0, 2))).shape == (0, 2)
+
+
+def test_preintegrated_onnx_network():
+    # ridge_phi.onnx computes Φ(s θᵀx − t) in float32 (its model card): agree to float32 precision
+    model = open_model(str(ZOO / "ridge_phi.onnx"))
+    pm = PreIntegratedModel(model, NORMAL6, 1, nodes=32)
+    x = np.random.default_rng(2).standard_normal((500, 5))
+    np.testing.assert_allclose(pm.evaluate(x).outputs[:, 0], reduced_ridge(x, 1), atol=2e-6)
+
+
+def test_bad_arguments_are_refused():
+    with pytest.raises(ValueError, match=r"valid: 0\.\.5"):
+        PreIntegrated(phi_ridge, NORMAL6, 6)
+    with pytest.raises(ValueError, match=rf"1\.\.{MAX_NODES}"):
+        PreIntegrated(phi_ridge, NORMAL6, 0, nodes=MAX_NODES + 1)
+    with pytest.raises(ValueError, match="at least 2 inputs"):
+        PreIntegrated(lambda x: x[:, 0], [Law("normal")], 0)
+    with pytest.raises(ValueError, match=r"\(n, 5\)"):
+        PreIntegrated(phi_ridge, NORMAL6, 0)(np.zeros((3, 6)))
+    with pytest.raises(UserError, match="quadrature node"), np.errstate(divide="ignore"):
+        PreIntegrated(lambda x: 1 / (x[:, 0] - x[:, 0]), NORMAL6, 0, nodes=4)(np.zeros((2, 5)))

@@ -1,0 +1,85 @@
+"""The advise workflow (audit.studies.advise.run): every phase through one session, evaluations by phase."""
+
+import numpy as np
+import pytest
+from advice_cases import render
+
+from audit.models.python import PythonModel
+from audit.studies import advise_function, advise_model
+
+
+def test_single_input_and_top_zero():
+    res = advise_model(
+        PythonModel(lambda x: x[:, 0] ** 2, 1, source="square"), "normal", points=256, seed=2
+    )
+    assert res.outputs[0].preintegrate == [] and res.outputs[0].rqmc_gain is None
+    assert any("single input" in n for n in res.notices)
+    text = render(res)
+    assert max(len(line) for line in text.splitlines()) <= 80
+
+
+def _quadratic(x):
+    """Two outputs of three inputs; the second does not use x0."""
+    return np.stack([x[:, 0] + x[:, 0] * x[:, 1] + 0.5 * x[:, 2], np.sin(x[:, 1]) + x[:, 2] ** 2], axis=1)
+
+
+KW = dict(points=128, replicates=4, seed=3, gain_points=(64, 128))
+
+
+def test_every_output_gets_advice_and_the_phases_add_up():
+    res = advise_function(_quadratic, "normal", dim=3, **KW)
+    assert [o.name for o in res.outputs] == ["y[0]", "y[1]"]
+    phases = res.design["evaluations_by_phase"]
+    assert set(phases) == {"audit", "node_check", "preintegrated", "gain", "freeze_check"}
+    assert res.design["evaluations"] == sum(phases.values()) and phases["audit"] == 128 * 4 * 5
+    assert "own seed" in res.design["seeds"]
+    for o, used in zip(res.outputs, (3, 2), strict=True):
+        after = [c.mean_dimension_after.estimate for c in o.preintegrate]
+        assert after == sorted(after) and len(after) == used  # the inputs it uses, best (lowest ν) first
+        assert o.rqmc_gain is not None and o.rqmc_gain.feature == o.best.feature
+    # x0 does not touch the second output: it is frozen, and freezing it changes nothing at all
+    group = res.outputs[1].freeze_group
+    assert group.features == ["x0"] and group.measured.estimate == 0.0 and group.holds
+    assert res.outputs[0].freeze_group is None
+    assert res.settings["gain_points"] == [64, 128]
+
+
+def test_top_zero_tries_no_candidate_and_measures_no_gain():
+    res = advise_function(_quadratic, "normal", dim=3, top=0, **KW)
+    assert all(o.preintegrate == [] and o.rqmc_gain is None for o in res.outputs)
+    phases = res.design["evaluations_by_phase"]
+    assert phases["node_check"] == phases["preintegrated"] == phases["gain"] == 0
+
+
+def test_max_candidates_limits_the_inputs_integrated_out():
+    res = advise_function(_quadratic, "normal", dim=3, max_candidates=1, **KW)
+    tried = {c.feature for o in res.outputs for c in o.preintegrate}
+    assert len(tried) == 1 and any("max_candidates" in n for n in res.notices)
+
+
+def test_a_resumed_advise_run_repeats_only_the_node_checks(tmp_path):
+    rows = []
+
+    def counted(x):
+        rows.append(len(x))
+        return _quadratic(x)
+
+    first = advise_function(counted, "normal", dim=3, checkpoint=tmp_path / "c.npz", **KW)
+    rows.clear()
+    again = advise_function(counted, "normal", dim=3, checkpoint=tmp_path / "c.npz", **KW)
+    # every phase that runs on the engine resumes from the checkpoint; the pilot node checks
+    # evaluate the model directly (and the model is probed once on two rows when opened, and on
+    # the first rows of the design for exact relations between its outputs)
+    probe = min(256, again.design["points"])
+    assert sum(rows) == again.design["evaluations_by_phase"]["node_check"] + 2 + probe
+    a, b = first.to_dict(), again.to_dict()
+    for x, y in zip(a["outputs"], b["outputs"], strict=True):
+        assert x == y
+    assert a["design"]["evaluations"] == b["design"]["evaluations"]
+
+
+@pytest.mark.parametrize("estimator", ["jansen", "fast"])
+def test_both_estimators_are_used_for_every_audit(estimator):
+    res = advise_function(_quadratic, "normal", dim=3, estimator=estimator, top=1, **KW)
+    assert res.design["estimator"] == estimator
+    assert all(o.best is not None and o.best.mean_dimension_after is not None for o in res.outputs)
