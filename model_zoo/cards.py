@@ -178,7 +178,7 @@ def write_readme(path: Path, cards: dict[str, Any]) -> Path:
         f"{REBUILD} --only digits_mlp",
         "```",
         "",
-        f"Held-out splits use seed {cards['split_seed']}; `tests/test_zoo.py` recomputes every",
+        f"Held-out splits use seed {cards['split_seed']}; `tests/unit/test_model_zoo.py` recomputes every",
         "metric from the shipped files. Needs the `build` extra (scikit-learn).",
         "",
         "## Caution",
