@@ -48,6 +48,7 @@ FLAGS = {
     "time_budget": "--time-budget",
     "dim": "--dim",
     "inputs": "--inputs",
+    "law": "--law",
     "torch_class": "--torch-class",
     "torch_arguments": "--torch-args",
     "input_shape": "--input-shape",

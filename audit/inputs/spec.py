@@ -117,7 +117,7 @@ class InputSpec:
         if d is None:
             raise UserError(
                 f"{where} does not say how many inputs there are and the model does not either: "
-                "give --dim D, or `count = D` (or the features) under [inputs] in the spec."
+                "give `dim` (the number of inputs), or `count = D` (or the features) under [inputs] in the spec."
             )
         if own is not None and own != d:
             raise UserError(
@@ -135,7 +135,7 @@ def uniform_spec(law: str = "normal") -> InputSpec:
     """The spec of ``--law normal|uniform``: every input N(0, 1) or U[0, 1]."""
     if law not in ("normal", "uniform"):
         raise UserError(
-            f"Unknown law '{law}' for --law; valid choices: normal, uniform."
+            f"Unknown law '{law}' for `law`; valid choices: normal, uniform."
             + suggest(law, ["normal", "uniform"])
             + " Other laws (lognormal, triangular) can be set in an input spec file."
         )
@@ -299,9 +299,9 @@ def load_spec(path: str | Path) -> InputSpec:
     """
     p = Path(path)
     if not p.exists():
-        raise UserError(f"The input spec file '{path}' does not exist. Check the path given to --inputs.")
+        raise UserError(f"The input spec file '{path}' does not exist. Check the path given to `inputs`.")
     if p.is_dir():
-        raise UserError(f"'{path}' is a folder; --inputs needs a TOML file.")
+        raise UserError(f"'{path}' is a folder; `inputs` needs a TOML file.")
     try:
         text = p.read_text(encoding="utf-8")
     except (OSError, UnicodeDecodeError) as exc:
