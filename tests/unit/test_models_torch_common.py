@@ -51,7 +51,7 @@ def test_unknown_capture_name(mlp_models) -> None:
 
 def test_float32_network_keeps_float32(mlp_models) -> None:
     x = RNG.normal(size=(4, 3))
-    captures = {"torchscript": "net.1", "pt2": "tanh", "state_dict": "net.1"}
+    captures = {"torchscript": "net.1", "pt2": "net.1", "state_dict": "net.1"}
     for kind, model in mlp_models.items():
         assert row_dtype(model) is np.float32, kind
         ev = model.evaluate(x, capture=[captures[kind]])
