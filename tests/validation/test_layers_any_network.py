@@ -79,7 +79,7 @@ def test_attention_block_every_unit_between_1_and_d_and_formats_agree(attention)
     for name in sorted(common):
         for a in results.values():
             for b in results.values():
-                assert b["nu_weighted_ci_low"] <= a["nu_weighted"] <= b["nu_weighted_ci_high"], name
+                assert b[name]["nu_weighted_ci_low"] <= a[name]["nu_weighted"] <= b[name]["nu_weighted_ci_high"], name
 
 
 def test_attention_heads_are_rows_first(attention) -> None:
