@@ -25,6 +25,7 @@ __all__ = [
     "Activations",
     "AttentionBlock",
     "BatchNormed",
+    "GradientInside",
     "HandSiLU",
     "LabelAndScore",
     "RowsLast",
@@ -67,6 +68,14 @@ class TinyMLP(torch.nn.Module):
 
     def forward(self, x: torch.Tensor) -> torch.Tensor:
         return self.net(x)
+
+
+class GradientInside(TinyMLP):
+    """TinyMLP's weights, but the forward returns the gradient of its output sum by autograd."""
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        x = x.detach().requires_grad_(True)
+        return torch.autograd.grad(self.net(x).sum(), x)[0]
 
 
 class TinyCNN(torch.nn.Module):

@@ -71,8 +71,10 @@ def import_reference(ref: str, what: str = "Python reference") -> object:
     for part in attr.split("."):
         if not hasattr(obj, part):
             names = [n for n in dir(module) if not n.startswith("_")]
+            shadowed = shadow_notice(module_name)
             raise UserError(
                 f"The {what} '{ref}': module '{module_name}' has no attribute '{attr}'." + suggest(part, names)
+                + (f" {shadowed}" if shadowed else "")
             )
         obj = getattr(obj, part)
     return obj

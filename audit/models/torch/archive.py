@@ -41,7 +41,6 @@ from ...errors import UserError
 
 __all__ = ["check_sizes", "read_program", "size_limit"]
 
-_TRUST = "--trust-pickle"
 _MIB = 2**20
 
 _OPERATOR = frozenset(
@@ -129,8 +128,8 @@ def check_sizes(path: Path) -> None:
 def _refuse(path: Path, what: str) -> UserError:
     return UserError(
         f"The torch.export program '{path}' {what}. Loading it could run code stored in the file, so "
-        f"netdim does not load it. Export the program again from plain tensors and Torch operators, or, "
-        f"if you trust the file and its source, pass {_TRUST} (`trust`) to load it anyway."
+        "netdim does not load it. Export the program again from plain tensors and Torch operators, or, "
+        "if you trust the file and its source, set `trust` to load it anyway."
     )
 
 
