@@ -24,7 +24,9 @@ __all__ = [
     "OPSET",
     "Activations",
     "AttentionBlock",
+    "BatchCentred",
     "BatchNormed",
+    "Dropped",
     "GradientInside",
     "HandSiLU",
     "LabelAndScore",
@@ -206,6 +208,30 @@ class BatchNormed(torch.nn.Module):
 
     def forward(self, x: torch.Tensor) -> torch.Tensor:
         return self.out(torch.tanh(self.bn(self.fc(x))))
+
+
+class BatchCentred(torch.nn.Module):
+    """A normalisation across the batch written by hand: each row depends on the others."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(3, 2)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        h = self.lin(x)
+        return h - h.mean(dim=0, keepdim=True)
+
+
+class Dropped(torch.nn.Module):
+    """Linear -> Dropout(0.5): random in training mode."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(3, 2)
+        self.drop = torch.nn.Dropout(0.5)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        return self.drop(self.lin(x))
 
 
 class TwoInputs(torch.nn.Module):
