@@ -18,7 +18,8 @@ nodes are fused into one first (:func:`audit.models.patterns.fuse`); then
    operator (``encoder.attn/softmax``), or ``op`` at the top of the model
    (``add``). Pure data movement (reshapes, transposes, casts, slices,
    concatenations, dropout at inference) is not offered unless it is a
-   module's output: it holds the units of another layer.
+   module's output: it holds the units of another layer; nor are values made
+   without reading any (zeros shaped like the batch).
 3. Names that would repeat (a module called twice, two additions in one
    module) get ``#2``, ``#3``... in execution order: ``block.act``,
    ``block.act#2``.
@@ -36,6 +37,7 @@ from dataclasses import dataclass
 
 __all__ = [
     "ACTIVATION_OPS",
+    "CONSTANT_OPS",
     "DATA_MOVEMENT_OPS",
     "NORMALISATION_OPS",
     "Const",
@@ -72,8 +74,22 @@ DATA_MOVEMENT_OPS = frozenset(
     }
 )  # fmt: skip
 
+#: Operators that make values without reading any (zeros of the batch's shape, ranges, noise).
+CONSTANT_OPS = frozenset(
+    {
+        "zeros", "ones", "full", "empty", "new_zeros", "new_ones", "new_full", "new_empty",
+        "zeros_like", "ones_like", "full_like", "empty_like", "arange", "constantofshape",
+        "scalar_tensor", "rand", "randn", "rand_like", "randn_like",
+    }
+)  # fmt: skip
+
 # Spellings of one operator in ONNX, ATen and TorchScript -> the one name.
 _ALIASES = {
+    "reducesum": "sum",
+    "reducemean": "mean",
+    "reducemax": "amax",
+    "reducemin": "amin",
+    "reduceprod": "prod",
     "leakyrelu": "leaky_relu",
     "logsoftmax": "log_softmax",
     "layernormalization": "layer_norm",
@@ -215,7 +231,7 @@ def name_layers(nodes: Sequence[Node], returned: set[str]) -> list[Layer]:
             continue
         if node.key in leaving:
             base.append((str(node.scope), node))
-        elif node.op in DATA_MOVEMENT_OPS:
+        elif node.op in DATA_MOVEMENT_OPS or node.op in CONSTANT_OPS:
             continue
         elif node.scope is None:
             base.append((node.key if not scoped else node.op, node))

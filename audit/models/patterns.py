@@ -10,7 +10,7 @@ the whole function, so that the function's output is one layer and the inner
 nodes are none.
 
 A pattern is a small expression tree over lower-case operator names: a tuple
-``(op, arg, ...)`` (``op`` may list alternatives, ``"reducemean|mean"``; ``add``
+``(op, arg, ...)`` (``op`` may list alternatives, ``"rsqrt|reciprocal"``; ``add``
 and ``mul`` match their arguments in either order; trailing constant arguments
 of a node beyond the pattern's are allowed), :data:`X` for the function's one
 input (the same tensor at every occurrence), ``const(v, ...)`` for a scalar constant
@@ -59,8 +59,20 @@ _INNER = alt(
 )
 _TANH1 = ("add", ("tanh", _INNER), const(1.0))
 _SHIFT3 = ("add", X, const(3.0))
-_RELU6 = alt(("clip", _SHIFT3), ("hardtanh", _SHIFT3, const(0.0), const(6.0)), ("relu6", _SHIFT3))
-_MEAN = "reducemean|mean"
+_RELU6 = alt(
+    ("clip", _SHIFT3),
+    ("hardtanh", _SHIFT3, const(0.0), const(6.0)),
+    ("relu6", _SHIFT3),
+    ("clamp", _SHIFT3, const(0.0), const(6.0)),
+    ("clamp", ("clamp", _SHIFT3, const(0.0)), const(), const(6.0)),  # as torch decomposes it
+)
+# softplus as torch decomposes it: x beyond the threshold, else log1p(exp(x)) (with beta: of β x, / β)
+_BETA_X = ("mul", X, const())
+_SOFTPLUS_CUT = alt(
+    ("where", ("gt", X, const()), X, ("log1p", ("exp", X))),
+    ("where", ("gt", _BETA_X, const()), X, ("div", ("log1p", ("exp", _BETA_X)), const())),
+)
+_MEAN = "mean"
 _CENTRED = ("sub", X, (_MEAN, X))
 _VARIANCE = (_MEAN, alt(("pow", _CENTRED, const(2.0)), ("mul", _CENTRED, _CENTRED)))
 _NORMED = alt(
@@ -69,7 +81,9 @@ _NORMED = alt(
 )
 
 _PHI = alt(("mul", _ERF1, const(0.5)), ("div", _ERF1, const(2.0)))  # Φ(x)
-_SOFTPLUS = alt(("softplus", X), ("log1p", ("exp", X)), ("log", ("add", ("exp", X), const(1.0))))
+_SOFTPLUS = alt(
+    ("softplus", X), _SOFTPLUS_CUT, ("log1p", ("exp", X)), ("log", ("add", ("exp", X), const(1.0)))
+)
 _HARDSIGMOID = alt(("hardsigmoid", X), ("div", _RELU6, const(6.0)), ("mul", _RELU6, const(1.0 / 6.0)))
 
 #: (operator the match computes, pattern), tried in this order at every node.
@@ -85,6 +99,7 @@ PATTERNS: tuple[tuple[str, Any], ...] = (
     ("normal_cdf", _PHI),
     ("mish", ("mul", X, ("tanh", _SOFTPLUS))),
     ("softplus", ("div", ("softplus", ("mul", X, const())), const())),
+    ("softplus", _SOFTPLUS_CUT),
     ("softplus", ("log1p", ("exp", X))),
     ("softplus", ("log", ("add", ("exp", X), const(1.0)))),
     ("hardswish", ("mul", X, _HARDSIGMOID)),

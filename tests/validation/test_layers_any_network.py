@@ -200,3 +200,21 @@ def test_batch_dependent_models_are_refused(tmp_path: Path) -> None:
         program = torch.export.export(net, (example,), dynamic_shapes=({0: torch.export.Dim("batch")},))
         torch.export.save(program, str(pt2_path))
     assert open_model(str(pt2_path)).outputs[0].shape == (2,)
+
+
+def test_activations_of_a_decomposed_program(activations, tmp_path: Path) -> None:
+    # run_decompositions() spells GELU, SiLU, Mish, HardSwish and softplus out in core ATen operators
+    net, _ = activations
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        dim = torch.export.Dim("batch")
+        program = torch.export.export(net, (torch.zeros(4, 4),), dynamic_shapes=({0: dim},)).run_decompositions()
+        torch.export.save(program, str(tmp_path / "core.pt2"))
+    model = open_model(str(tmp_path / "core.pt2"))
+    acts = net.acts()
+    assert [la.name for la in model.layers()] == [n for i in range(7) for n in (f"fc.{i}", acts[i])]
+    x = RNG.normal(size=(9, 4))
+    ref = _hooked(net, acts, x)
+    ev = model.evaluate(x, capture=acts)
+    for name in acts:
+        np.testing.assert_allclose(ev.hidden[name], ref[name], rtol=1e-5, atol=1e-6, err_msg=name)

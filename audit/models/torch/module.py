@@ -44,8 +44,10 @@ _MODULE_OPS = {
     "Conv1d": "conv", "Conv2d": "conv", "Conv3d": "conv", "LayerNorm": "layer_norm",
     "BatchNorm1d": "batch_norm", "BatchNorm2d": "batch_norm", "BatchNorm3d": "batch_norm",
     "GroupNorm": "group_norm", "RMSNorm": "rms_norm", "InstanceNorm1d": "instance_norm",
-    "InstanceNorm2d": "instance_norm", "MaxPool1d": "max_pool", "MaxPool2d": "max_pool",
-    "AvgPool2d": "avg_pool", "MultiheadAttention": "multihead_attention",
+    "InstanceNorm2d": "instance_norm", "MaxPool1d": "max_pool1d", "MaxPool2d": "max_pool2d",
+    "MaxPool3d": "max_pool3d", "AvgPool1d": "avg_pool1d", "AvgPool2d": "avg_pool2d",
+    "AdaptiveAvgPool1d": "adaptive_avg_pool1d", "AdaptiveAvgPool2d": "adaptive_avg_pool2d",
+    "MultiheadAttention": "multihead_attention",
 }  # fmt: skip
 
 
