@@ -39,11 +39,14 @@ from .batch import BatchAxis, Refusal, establish, make_probe
 from .graph import name_layers
 from .onnx_graph import check_external_data, check_file, load_proto, value_info, with_outputs
 from .onnx_layers import graph_nodes
+from .onnx_session import INPUT_TYPES, kind_of, static_dims
+from .onnx_session import session as make_session
 from .patterns import fuse
 from .tensors import (
     InputShape,
     Skipped,
     check_features,
+    empty_evaluation,
     gather,
     input_shapes,
     left_out_notice,
@@ -55,70 +58,6 @@ from .tensors import (
 )
 
 __all__ = ["OnnxModel"]
-
-# onnxruntime input types rows can be fed as, and their numpy dtype names.
-_INPUT_TYPES = {
-    f"tensor({kind})": name
-    for kind, name in (
-        ("float", "float32"), ("double", "float64"), ("float16", "float16"), ("bool", "bool"),
-        ("int8", "int8"), ("int16", "int16"), ("int32", "int32"), ("int64", "int64"),
-        ("uint8", "uint8"), ("uint16", "uint16"), ("uint32", "uint32"), ("uint64", "uint64"),
-    )
-}  # fmt: skip
-
-
-def _session_options() -> ort.SessionOptions:
-    options = ort.SessionOptions()
-    options.intra_op_num_threads = os.cpu_count() or 1
-    options.log_severity_level = 3  # errors only: no warnings on the user's terminal
-    return options
-
-
-def _session(model: str | bytes, where: Path) -> ort.InferenceSession:
-    try:
-        return ort.InferenceSession(
-            model, sess_options=_session_options(), providers=["CPUExecutionProvider"]
-        )
-    except Exception as exc:  # onnxruntime raises its own classes (Fail, InvalidGraph, ...)
-        kind = type(exc).__name__
-        text = str(exc)
-        unsupported = ("not a registered function/op", "Could not find an implementation")
-        if kind == "NotImplemented" or any(marker in text for marker in unsupported):
-            why = (
-                "it uses an operator (or operator version) that onnxruntime "
-                f"{ort.__version__} cannot run on the CPU"
-            )
-            fix = "re-export the model with a supported opset or without custom operators"
-        elif kind in ("InvalidProtobuf", "InvalidGraph", "Fail", "InvalidArgument"):
-            why = "onnxruntime found it invalid or damaged"
-            fix = "export or copy the model again and check it with onnx.checker"
-        else:
-            why = "onnxruntime could not load it"
-            fix = "export or copy the model again"
-        first_line = text.strip().splitlines()[0] if text.strip() else kind
-        raise UserError(
-            f"The ONNX model '{where}' cannot be used: {why} ({first_line}). To fix: {fix}."
-        ) from exc
-
-
-def _static_dims(dims: Sequence[object]) -> tuple[int, ...] | None:
-    """Non-batch dims as ints, or None if any is symbolic or unknown."""
-    out = []
-    for dim in dims:
-        if not isinstance(dim, int) or dim < 0:
-            return None
-        out.append(dim)
-    return tuple(out)
-
-
-def _kind(ort_type: str) -> str:
-    """What a non-tensor output holds, in words."""
-    if ort_type.startswith("seq(map"):
-        return "a sequence of maps"
-    if ort_type.startswith("map"):
-        return "a map"
-    return "a sequence" if ort_type.startswith("seq") else ort_type
-
 
 class OnnxModel:
     """An ONNX file seen through the :class:`~audit.models.base.Model` interface.
@@ -155,7 +94,7 @@ class OnnxModel:
         check_file(self.path)
         self._proto = load_proto(self.path)
         self._has_external = check_external_data(self._proto, self.path)
-        self._session = _session(str(self.path), self.path)
+        self._session = make_session(str(self.path), self.path)
         self._sessions: dict[tuple[str, ...], ort.InferenceSession] = {}
         self._layers: list[LayerInfo] | None = None
         self._found: dict[str, tuple[str, BatchAxis]] = {}
@@ -173,7 +112,7 @@ class OnnxModel:
         batches: set[int] = set()
         self.inputs: list[TensorInfo] = []
         for meta in metas:
-            if meta.type not in _INPUT_TYPES:
+            if meta.type not in INPUT_TYPES:
                 raise UserError(
                     f"The input '{meta.name}' of the ONNX model '{self.path}' has type {meta.type}; "
                     "netdim feeds real-valued features and supports float, double, float16, integer "
@@ -189,7 +128,7 @@ class OnnxModel:
             if isinstance(batch, int) and batch > 0:
                 batches.add(batch)
             self.inputs.append(TensorInfo(meta.name, self._shape(meta, rest, given, len(metas)),
-                                          _INPUT_TYPES[meta.type]))  # fmt: skip
+                                          INPUT_TYPES[meta.type]))  # fmt: skip
         if len(batches) > 1:
             raise UserError(
                 f"The input tensors of the ONNX model '{self.path}' have different fixed batch sizes "
@@ -207,7 +146,7 @@ class OnnxModel:
     def _shape(
         self, meta: ort.NodeArg, rest: list[object], given: dict[str, tuple[int, ...]], count: int
     ) -> tuple[int, ...]:
-        shape = _static_dims(rest)
+        shape = static_dims(rest)
         wanted = given.get(meta.name)
         if wanted is not None:
             if shape is not None and wanted != shape:
@@ -226,7 +165,7 @@ class OnnxModel:
 
     def _read_outputs(self) -> None:
         metas = self._session.get_outputs()
-        skipped: list[Skipped] = [(o.name, _kind(o.type)) for o in metas if not o.type.startswith("tensor(")]
+        skipped: list[Skipped] = [(o.name, kind_of(o.type)) for o in metas if not o.type.startswith("tensor(")]
         tensors = [o.name for o in metas if o.type.startswith("tensor(")]
         small, large, again = self._probe_all(self._session, tensors) if tensors else ([], [], [])
         self.outputs: list[TensorInfo] = []
@@ -318,7 +257,7 @@ class OnnxModel:
         key = tuple(sorted(names))
         if key not in self._sessions:
             model = with_outputs(self._proto, key, self.path, self._has_external)
-            self._sessions[key] = _session(model, self.path)
+            self._sessions[key] = make_session(model, self.path)
         return self._sessions[key]
 
     # -- evaluation ----------------------------------------------------------------------
@@ -380,6 +319,9 @@ class OnnxModel:
         capture = tuple(dict.fromkeys(capture))
         if capture:
             self._check_capture(capture)
+        if n == 0:
+            chosen = [la for la in self.layers() if la.name in capture]
+            return empty_evaluation(self.outputs, chosen, self.outputs[0].dtype)
         keys = [self._found[name][0] for name in capture]
         session = self._extended(tuple(dict.fromkeys(keys))) if capture else self._session
         axes = [*self._output_axes, *(self._found[name][1] for name in capture)]

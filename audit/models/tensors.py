@@ -22,7 +22,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from ..errors import UserError, suggest
-from .base import TensorInfo
+from .base import Evaluation, LayerInfo, TensorInfo
 from .batch import BatchAxis, Probe, Refusal
 
 __all__ = [
@@ -30,6 +30,7 @@ __all__ = [
     "InputShape",
     "Skipped",
     "check_features",
+    "empty_evaluation",
     "gather",
     "input_shapes",
     "integer_output_error",
@@ -277,3 +278,10 @@ def left_out_notice(refused: Sequence[tuple[str, Refusal]], limit: int = 6) -> s
         "Hidden tensors left out because netdim could not tell which axis holds the rows of the batch: "
         f"{shown}{more}."
     )
+
+
+def empty_evaluation(outputs: Sequence[TensorInfo], layers: Sequence[LayerInfo], dtype: str) -> Evaluation:
+    """The evaluation of no rows: (0, k) outputs and (0, units) captured layers in ``dtype``."""
+    kind = numpy_dtype(dtype) if dtype != "bfloat16" else np.dtype("float32")
+    k = sum(t.units for t in outputs)
+    return Evaluation(np.zeros((0, k), kind), {la.name: np.zeros((0, la.units), kind) for la in layers})

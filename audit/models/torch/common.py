@@ -35,6 +35,7 @@ from ..graph import Layer
 from ..tensors import (
     Skipped,
     check_features,
+    empty_evaluation,
     gather,
     left_out_notice,
     moved_notice,
@@ -342,6 +343,9 @@ class TorchModel:
         capture = tuple(dict.fromkeys(capture))
         if capture:
             self._check_capture(capture)
+        if n == 0:
+            chosen = [la for la in self.layers() if la.name in capture]
+            return empty_evaluation(self.outputs, chosen, self.outputs[0].dtype)
         keys = tuple(self._found[name][0] for name in capture)
         axes = [*self._output_axes, *(self._found[name][1] for name in capture)]
         values = self._run(x, keys, axes)
