@@ -53,6 +53,7 @@ from .tensors import (
     moved_notice,
     no_output_error,
     output_notice,
+    read_rows,
     refused_output,
     split_features,
 )
@@ -280,9 +281,17 @@ class OnnxModel:
             raise self._failure(exc, len(x)) from exc
 
     def _run(
-        self, session: ort.InferenceSession, names: list[str], x: np.ndarray, axes: list[BatchAxis]
+        self,
+        session: ort.InferenceSession,
+        names: list[str],
+        x: np.ndarray,
+        axes: list[BatchAxis],
+        units: list[tuple[str, int]],
     ) -> list[np.ndarray]:
-        """Tensors ``names`` on rows ``x`` (n, d) as (n, units) rows, chunking for a fixed batch size."""
+        """Tensors ``names`` on rows ``x`` (n, d) as (n, units) rows, chunking for a fixed batch size.
+
+        ``units`` gives each tensor's name for messages and its values per row.
+        """
         n = len(x)
         batch = self.batch_size or n
         parts: list[list[np.ndarray]] = []
@@ -292,7 +301,10 @@ class OnnxModel:
             if real < batch:
                 chunk = np.concatenate([chunk, np.repeat(chunk[-1:], batch - real, axis=0)])
             values = self._raw(session, names, chunk)
-            parts.append([axis.rows(v, batch)[:real] for axis, v in zip(axes, values, strict=True)])
+            parts.append([
+                read_rows(axis, v, batch, size, label, self.source)[:real]
+                for axis, v, (label, size) in zip(axes, values, units, strict=True)
+            ])  # fmt: skip
         if len(parts) == 1:
             return parts[0]
         return [np.concatenate([p[i] for p in parts]) for i in range(len(names))]
@@ -325,7 +337,11 @@ class OnnxModel:
         keys = [self._found[name][0] for name in capture]
         session = self._extended(tuple(dict.fromkeys(keys))) if capture else self._session
         axes = [*self._output_axes, *(self._found[name][1] for name in capture)]
-        values = self._run(session, [*self._output_names, *keys], x, axes)
+        sizes = [(t.name, t.units) for t in self.outputs]
+        if capture:
+            per_row = {la.name: la.units for la in self.layers()}
+            sizes += [(name, per_row[name]) for name in capture]
+        values = self._run(session, [*self._output_names, *keys], x, axes, sizes)
         k = len(self._output_names)
         hidden = dict(zip(capture, values[k:], strict=True))
         return Evaluation(outputs=gather(values[:k], n), hidden=hidden)

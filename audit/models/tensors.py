@@ -39,6 +39,7 @@ __all__ = [
     "no_output_error",
     "numpy_dtype",
     "output_notice",
+    "read_rows",
     "refused_output",
     "split_features",
 ]
@@ -285,3 +286,18 @@ def empty_evaluation(outputs: Sequence[TensorInfo], layers: Sequence[LayerInfo],
     kind = numpy_dtype(dtype) if dtype != "bfloat16" else np.dtype("float32")
     k = sum(t.units for t in outputs)
     return Evaluation(np.zeros((0, k), kind), {la.name: np.zeros((0, la.units), kind) for la in layers})
+
+
+def read_rows(axis: BatchAxis, value: np.ndarray, n: int, units: int, name: str, source: str) -> np.ndarray:
+    """``value`` as (n, units) rows, or a UserError when its size is not what the probe found."""
+    try:
+        rows = axis.rows(value, n)
+    except ValueError:
+        rows = None
+    if rows is None or rows.shape != (n, units):
+        raise UserError(
+            f"The tensor '{name}' of '{source}' came out with shape {tuple(np.shape(value))} for {n} rows, "
+            f"but had {units} values per row on the probe: its shape depends on the input values (or on the "
+            "batch). Leave it out of `layers`, or export a model whose tensors have a fixed shape per row."
+        )
+    return rows

@@ -41,6 +41,7 @@ from ..tensors import (
     moved_notice,
     no_output_error,
     output_notice,
+    read_rows,
     refused_output,
     split_features,
 )
@@ -302,8 +303,13 @@ class TorchModel:
             "is wrong, give the shape of one input row, e.g. --input-shape 1,8,8."
         )
 
-    def _run(self, x: np.ndarray, capture: tuple[str, ...], axes: list[BatchAxis]) -> list[np.ndarray]:
-        """Kept outputs, then captured tensors, as (n, units) rows; in chunks when the batch is bounded."""
+    def _run(
+        self, x: np.ndarray, capture: tuple[str, ...], axes: list[BatchAxis], units: list[tuple[str, int]]
+    ) -> list[np.ndarray]:
+        """Kept outputs, then captured tensors, as (n, units) rows; in chunks when the batch is bounded.
+
+        ``units`` gives each tensor's name for messages and its values per row.
+        """
         n = len(x)
         low, high = self._min_batch, self._max_batch
         size = n if n >= low and (high is None or n <= high) else (high or max(n, low))
@@ -316,7 +322,10 @@ class TorchModel:
             outs, hidden = self._raw(chunk, capture)
             values = [outs[i] for i in self._keep] + list(hidden)
             rows = len(chunk)
-            parts.append([ax.rows(numpy_of(v), rows)[:real] for ax, v in zip(axes, values, strict=True)])
+            parts.append([
+                read_rows(ax, numpy_of(v), rows, size, label, self.source)[:real]
+                for ax, v, (label, size) in zip(axes, values, units, strict=True)
+            ])  # fmt: skip
         if len(parts) == 1:
             return parts[0]
         return [np.concatenate([p[i] for p in parts]) for i in range(len(axes))]
@@ -348,7 +357,11 @@ class TorchModel:
             return empty_evaluation(self.outputs, chosen, self.outputs[0].dtype)
         keys = tuple(self._found[name][0] for name in capture)
         axes = [*self._output_axes, *(self._found[name][1] for name in capture)]
-        values = self._run(x, keys, axes)
+        sizes = [(t.name, t.units) for t in self.outputs]
+        if capture:
+            per_row = {la.name: la.units for la in self.layers()}
+            sizes += [(name, per_row[name]) for name in capture]
+        values = self._run(x, keys, axes, sizes)
         k = len(self._keep)
         return Evaluation(outputs=gather(values[:k], n), hidden=dict(zip(capture, values[k:], strict=True)))
 
