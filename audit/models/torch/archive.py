@@ -18,9 +18,9 @@ first (unless the user trusts the file):
 * members that Torch would read with full pickle (tensor subclasses), objects
   with their own pickling (script objects, opaque objects) and compiled code
   (AOTInductor libraries) are refused;
-* every graph node must call a Torch operator (``torch.ops.<namespace>.<op>``),
-  a function of ``operator`` or ``math``, or a symbolic-shape function of
-  ``torch``; every shape expression may only combine integers, symbols and
+* every graph node, and every operator passed as an argument, must be a Torch
+  operator (``torch.ops.<namespace>.<op>``), a function of ``operator`` or
+  ``math``, or a symbolic-shape function of ``torch``; every shape expression may only combine integers, symbols and
   the arithmetic of ``sympy`` (its syntax tree is read, never evaluated).
 """
 
@@ -186,7 +186,7 @@ def _check_graph(document: Any, path: Path) -> None:
         item = stack.pop()
         if isinstance(item, dict):
             for key, value in item.items():
-                if key == "target" and isinstance(value, str) and not _target_ok(value):
+                if key in ("target", "as_operator") and isinstance(value, str) and not _target_ok(value):
                     raise _refuse(path, f"has a graph node that calls '{value[:80]}', which is not a Torch operator")
                 if key == "expr_str" and isinstance(value, str) and not _expr_ok(value):
                     raise _refuse(path, f"holds a shape expression that is not plain arithmetic ('{value[:80]}')")
