@@ -174,12 +174,16 @@ class Layer:
         Lower-case operator name.
     activation : bool
         Captured by default.
+    detail : str
+        What to show as the format's own name when the key is not meant for
+        people (eager modules: ``net.1``, ``act (call 2)``); ``""``: the key.
     """
 
     name: str
     key: str
     op: str
     activation: bool
+    detail: str = ""
 
 
 def _within(scope: str | None, module: str) -> bool:

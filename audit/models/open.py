@@ -55,7 +55,9 @@ def open_model(
     torch_arguments : dict, optional
         Keyword arguments for ``torch_class``.
     trust : bool
-        Allow unpickling a whole Torch module (runs code from the file).
+        Allow what runs code from the file: unpickling a whole Torch module,
+        or a ``torch.export`` program whose members Torch would unpickle or
+        that holds compiled code.
     input_shape : sequence of int, or dict of str to sequence of int, optional
         Non-batch shape of a model file's input tensor, e.g. ``(1, 8, 8)``, or
         for a model with several input tensors one shape per tensor name,

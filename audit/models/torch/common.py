@@ -255,7 +255,7 @@ class TorchModel:
                 continue
             self._found[layer.name] = (layer.key, axis)
             shape = axis.shape(large, len(probe.large))
-            layers.append(LayerInfo(layer.name, layer.op, shape, layer.activation, layer.key))
+            layers.append(LayerInfo(layer.name, layer.op, shape, layer.activation, layer.detail or layer.key))
         if refused:
             self.notices.append(left_out_notice(refused))
         return layers

@@ -155,7 +155,8 @@ class ModuleModel(TorchModel):
             op = module_op(self._submodules[name])
             active = type(self._submodules[name]).__name__ in ACTIVATION_MODULES or op in ACTIVATION_OPS
             unique = name if count == 1 else f"{name}#{count}"
-            layers.append(Layer(unique, f"{name}|{call}|{leaf}", op, active))
+            detail = name + (f" (call {call + 1})" if call else "") + (f" (output {leaf + 1})" if leaf else "")
+            layers.append(Layer(unique, f"{name}|{call}|{leaf}", op, active, detail))
         return layers
 
 
