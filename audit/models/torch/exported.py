@@ -163,7 +163,7 @@ class ExportedModel(TorchModel):
         self._modules.pop(tuple(sorted(keys)), None)
 
     def _candidates(self) -> list[Layer]:
-        nodes, returned = program_nodes(self.module.graph)
+        nodes, returned = program_nodes(self.module.graph, self.module)
         return name_layers(fuse(nodes, returned), returned)
 
 
@@ -181,9 +181,9 @@ def _op(node: torch.fx.Node) -> str:
     return op_name(schema.name if schema is not None else getattr(node.target, "__name__", str(node.target)))
 
 
-def _arg(value: Any, made: dict[torch.fx.Node, str]) -> str | Const:
+def _arg(value: Any, made: dict[torch.fx.Node, str], scalars: dict[torch.fx.Node, float]) -> str | Const:
     if isinstance(value, torch.fx.Node):
-        return made.get(value, Const())
+        return made.get(value, Const(scalars.get(value)))
     if isinstance(value, bool):
         return Const(float(value))
     if isinstance(value, int | float):
@@ -191,15 +191,31 @@ def _arg(value: Any, made: dict[torch.fx.Node, str]) -> str | Const:
     return Const()
 
 
-def program_nodes(graph: torch.fx.Graph) -> tuple[list[Node], set[str]]:
+def _scalars(graph: torch.fx.Graph, owner: torch.nn.Module | None) -> dict[torch.fx.Node, float]:
+    """The values of the one-element constants (``get_attr``) of ``graph``."""
+    found: dict[torch.fx.Node, float] = {}
+    for node in graph.nodes:
+        if node.op != "get_attr" or owner is None:
+            continue
+        value: Any = owner
+        for part in str(node.target).split("."):
+            value = getattr(value, part, None)
+        if isinstance(value, torch.Tensor) and value.numel() == 1 and not value.is_complex():
+            found[node] = float(value.detach().reshape(-1)[0])
+    return found
+
+
+def program_nodes(graph: torch.fx.Graph, owner: torch.nn.Module | None = None) -> tuple[list[Node], set[str]]:
     """The graph of a program's module as backend-neutral nodes, and the names of the returned ones.
 
     Tensor-producing ``call_function`` nodes computed from the placeholders
     become nodes (an operator returning several tensors is read through its
     ``getitem`` nodes); parameters, constants and shape arithmetic become
-    constant arguments.
+    constant arguments (with their value when ``owner``, the graph's module,
+    holds a one-element constant).
     """
     made: dict[torch.fx.Node, str] = {}
+    scalars = _scalars(graph, owner)
     dynamic = {n for n in graph.nodes if n.op == "placeholder"}
     made.update((n, n.name) for n in dynamic)
     nodes: list[Node] = []
@@ -217,7 +233,7 @@ def program_nodes(graph: torch.fx.Graph) -> tuple[list[Node], set[str]]:
         if not isinstance(value, torch.Tensor):
             continue
         made[node] = node.name
-        args = tuple(_arg(a, made) for a in source.args)
+        args = tuple(_arg(a, made, scalars) for a in source.args)
         candidate = value.is_floating_point() and value.ndim >= 1
         nodes.append(Node(node.name, _op(source), args, _scope(source), candidate))
     output = next(n for n in graph.nodes if n.op == "output")

@@ -103,6 +103,8 @@ def _constant(value: torch._C.Value) -> Const:
             return Const()
         if isinstance(ivalue, bool | int | float):
             return Const(float(ivalue))
+        if isinstance(ivalue, torch.Tensor) and ivalue.numel() == 1 and not ivalue.is_complex():
+            return Const(float(ivalue.item()))  # a traced scalar constant
     return Const()
 
 
@@ -255,6 +257,8 @@ class ScriptModel(TorchModel):
         torch._C._jit_pass_inline(graph)
         with contextlib.suppress(Exception):  # in-place ops would alter captured values
             torch._C._jit_pass_remove_mutation(graph)
+        with contextlib.suppress(Exception):  # scalar arithmetic (1 / math.sqrt(2)) into constants
+            torch._C._jit_pass_constant_propagation(graph)
         return graph
 
     def _function(self, keys: tuple[str, ...]) -> Any:
