@@ -204,3 +204,15 @@ def test_module_called_twice_is_numbered_in_every_format(tmp_path) -> None:
         ev = model.evaluate(x, capture=["act", "act#2"])
         np.testing.assert_allclose(ev.hidden["act"], first.numpy(), rtol=1e-5, atol=1e-6, err_msg=kind)
         np.testing.assert_allclose(ev.hidden["act#2"], second.numpy(), rtol=1e-5, atol=1e-6, err_msg=kind)
+
+
+def test_zoo_models_have_one_layer_list_in_every_format() -> None:
+    zoo = Path(__file__).resolve().parents[2] / "model_zoo"
+    suffixes = (".onnx", ".pt2", ".pt")
+    names = {s: [la.name for la in open_model(str(zoo / f"greenhouse_v1{s}")).layers()] for s in suffixes}
+    assert names[".onnx"] == names[".pt2"] == names[".pt"]
+    body = ["body.0", "body.1", "body.2", "body.3", "body.4"]
+    assert names[".onnx"] == ["scale_in/sub", "scale_in", *body, "scale_out/mul"]
+    # Φ(z) = (1 + erf(z / √2)) / 2 is one function, traced (scalar constants) or exported: the model's output
+    for suffix in (".onnx", ".pt"):
+        assert [la.name for la in open_model(str(zoo / f"ridge_phi{suffix}")).layers()] == ["project"], suffix
