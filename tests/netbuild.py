@@ -30,6 +30,7 @@ __all__ = [
     "GradientInside",
     "HandSiLU",
     "LabelAndScore",
+    "Recurrent",
     "RowsLast",
     "SharedAct",
     "TinyCNN",
@@ -232,6 +233,19 @@ class Dropped(torch.nn.Module):
 
     def forward(self, x: torch.Tensor) -> torch.Tensor:
         return self.drop(self.lin(x))
+
+
+class Recurrent(torch.nn.Module):
+    """(batch, 6, 3) -> LSTM over the 6 steps (sequence first inside) -> tanh of the last step -> 2."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.rnn = torch.nn.LSTM(3, 5)
+        self.head = torch.nn.Linear(5, 2)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        out, _ = self.rnn(x.transpose(0, 1))
+        return self.head(torch.tanh(out[-1]))
 
 
 class TwoInputs(torch.nn.Module):

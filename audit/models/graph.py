@@ -16,8 +16,10 @@ nodes are fused into one first (:func:`audit.models.patterns.fuse`); then
    is not named separately: the tensor belongs to the deepest module.
 2. Any other tensor is named ``P/op`` after its scope and its (lower-case)
    operator (``encoder.attn/softmax``), or ``op`` at the top of the model
-   (``add``). Pure data movement (reshapes, transposes, casts, slices,
-   concatenations, dropout at inference) is not offered unless it is a
+   (``add``); the second, third... output of an operator with several is
+   ``op_1``, ``op_2`` (``rnn/lstm_1``, an LSTM's last hidden state). Pure
+   data movement (reshapes, transposes, casts, slices, concatenations,
+   dropout at inference) is not offered unless it is a
    module's output: it holds the units of another layer; nor are values made
    without reading any (zeros shaped like the batch).
 3. Names that would repeat (a module called twice, two additions in one
@@ -150,6 +152,9 @@ class Node:
         tensor, not returned by the model).
     extra : tuple of str
         Tensors read inside the node's subgraphs (control flow): users only.
+    output : int
+        Which output of its operator the tensor is (an LSTM's sequence 0, its
+        last state 1...); names of outputs after the first say so (``lstm_1``).
     """
 
     key: str
@@ -158,6 +163,7 @@ class Node:
     scope: str | None = ""
     candidate: bool = True
     extra: tuple[str, ...] = ()
+    output: int = 0
 
 
 @dataclass(frozen=True)
@@ -240,7 +246,8 @@ def name_layers(nodes: Sequence[Node], returned: set[str]) -> list[Layer]:
         elif node.scope is None:
             base.append((node.key if not scoped else node.op, node))
         else:
-            base.append((f"{node.scope}/{node.op}" if node.scope else node.op, node))
+            op = f"{node.op}_{node.output}" if node.output else node.op
+            base.append((f"{node.scope}/{op}" if node.scope else op, node))
     seen: dict[str, int] = {}
     layers = []
     for name, node in base:

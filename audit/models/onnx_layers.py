@@ -192,11 +192,12 @@ def graph_nodes(
         op = op_name(node.op_type)
         if op == "gather" and args and isinstance(args[0], Const):
             op = "embedding"  # a lookup in a weight table, not a move of computed values
-        for output in node.output:
+        for index, output in enumerate(node.output):
             if not output:
                 continue
             info = value_info.get(output)
             elem = info.type.tensor_type.elem_type if info is not None and info.type.HasField("tensor_type") else 0
             candidate = node.op_type not in _SKIP_OPS and (not elem or elem in FLOAT_TYPES)
-            nodes.append(Node(output, op, args, scope, candidate and output not in returned, tuple(extra)))
+            candidate = candidate and output not in returned
+            nodes.append(Node(output, op, args, scope, candidate, tuple(extra), index))
     return nodes, returned

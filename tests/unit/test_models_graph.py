@@ -160,3 +160,15 @@ def test_onnx_scope_paths() -> None:
     assert scope_path(["gate_1"], memo, params, ops) == "gate_1"  # other operators: another module
     assert scope_path(["block"], memo, params, ops) == "block"
     assert scope_path(["block_1"], memo, params, ops) == "block_1"  # owns weights: a module of its own
+
+
+def test_later_outputs_of_one_operator_are_numbered() -> None:
+    # an LSTM inside module rnn: its sequence leaves the module, its last states do not
+    nodes = [
+        Node("seq", "lstm", ("x", Const()), "rnn", output=0),
+        Node("h", "lstm", ("x", Const()), "rnn", output=1),
+        Node("c", "lstm", ("x", Const()), "rnn", output=2),
+        Node("hc", "add", ("h", "c"), "rnn"),
+        Node("y", "add", ("seq", "hc"), ""),
+    ]
+    assert [n for n, _, _ in _names(nodes, {"y"})] == ["rnn", "rnn/lstm_1", "rnn/lstm_2", "rnn#2"]

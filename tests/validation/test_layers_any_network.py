@@ -218,3 +218,36 @@ def test_activations_of_a_decomposed_program(activations, tmp_path: Path) -> Non
     ev = model.evaluate(x, capture=acts)
     for name in acts:
         np.testing.assert_allclose(ev.hidden[name], ref[name], rtol=1e-5, atol=1e-6, err_msg=name)
+
+
+def _same_name_same_values(paths: dict[str, Path], x: np.ndarray, kinds=("onnx", "pt2", "torchscript"), **kw) -> int:
+    """Capture every layer in every format; a name the formats share must hold the same values.
+
+    Returns how many (name, pair of formats) were compared.
+    """
+    captured = {}
+    for kind in kinds:
+        model = open_model(str(paths[kind]), **(kw if kind == "torchscript" else {}))
+        units = {la.name: la.units for la in model.layers()}
+        captured[kind] = (units, model.evaluate(x, capture=list(units)).hidden)
+    compared = 0
+    for i, a in enumerate(kinds):
+        for b in kinds[i + 1 :]:
+            (ua, ha), (ub, hb) = captured[a], captured[b]
+            for name in sorted(set(ua) & set(ub)):
+                assert ua[name] == ub[name], (a, b, name, ua[name], ub[name])
+                np.testing.assert_allclose(ha[name], hb[name], rtol=1e-4, atol=1e-5, err_msg=f"{a} {b} {name}")
+                compared += 1
+    return compared
+
+
+def test_one_name_one_tensor_across_formats(attention, activations, tmp_path: Path) -> None:
+    # a layer name the formats share holds the same tensor in each (to float32 rounding)
+    _, attention_paths = attention
+    assert _same_name_same_values(attention_paths, RNG.normal(size=(5, 64)), input_shape=(16, 4)) >= 3 * 7
+    _, activation_paths = activations
+    assert _same_name_same_values(activation_paths, RNG.normal(size=(5, 4))) == 3 * 14
+    net = netbuild.seeded(netbuild.Recurrent, seed=4)
+    paths = netbuild.export_all(net, torch.zeros(3, 6, 3), tmp_path, "rnn")
+    # the LSTM's sequence (the module's output), and its last hidden and cell states (rnn/lstm_1, rnn/lstm_2)
+    assert _same_name_same_values(paths, RNG.normal(size=(5, 18)), input_shape=(6, 3)) >= 3 * 3

@@ -226,16 +226,17 @@ def program_nodes(graph: torch.fx.Graph, owner: torch.nn.Module | None = None) -
         if not any(i in dynamic for i in inputs):
             continue
         dynamic.add(node)
-        source = node
+        source, index = node, 0
         if node.target is operator.getitem and isinstance(node.args[0], torch.fx.Node):
             source = node.args[0]  # one tensor of an operator that returns several
+            index = node.args[1] if isinstance(node.args[1], int) else 0
         value = node.meta.get("val")
         if not isinstance(value, torch.Tensor):
             continue
         made[node] = node.name
         args = tuple(_arg(a, made, scalars) for a in source.args)
         candidate = value.is_floating_point() and value.ndim >= 1
-        nodes.append(Node(node.name, _op(source), args, _scope(source), candidate))
+        nodes.append(Node(node.name, _op(source), args, _scope(source), candidate, output=index))
     output = next(n for n in graph.nodes if n.op == "output")
     returned = {n.name for n in pytree.tree_leaves(output.args) if isinstance(n, torch.fx.Node)}
     return nodes, returned

@@ -177,14 +177,14 @@ def script_nodes(
         )
         extra = tuple(k for v in reads if isinstance(key.get(v.unique()), list) for k in _flat(key[v.unique()]))
         extra += tuple(key[v.unique()] for v in inner if isinstance(key.get(v.unique()), str))
-        for out in node.outputs():
+        for index, out in enumerate(node.outputs()):
             scope_of[out.unique()] = scope
             if not isinstance(out.type(), torch._C.TensorType):
                 continue
             name = out.debugName()
             key[out.unique()] = name
             values[name] = out
-            nodes.append(Node(name, op, args, scope, True, extra))
+            nodes.append(Node(name, op, args, scope, True, extra, index if node.outputsSize() > 1 else 0))
     returned = {k for v in graph.outputs() for k in _flat(key.get(v.unique()))}
     return nodes, returned, values
 
