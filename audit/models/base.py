@@ -4,7 +4,10 @@ A model takes one or more input tensors. Each row of features is the
 concatenation of the input tensors' elements, tensor after tensor in feed order,
 each flattened in C order, so a model has ``d = Σ units`` features. A model
 returns one or more output tensors, flattened and concatenated in the same way
-to ``k`` scalar output units, and offers a list of probe-able hidden layers.
+to ``k`` scalar output units, and offers a list of probe-able hidden layers,
+named by the module path of their origin in every format
+(:mod:`audit.models.graph`). Outputs and layers are read rows first, whichever
+axis of the tensor holds the rows (:mod:`audit.models.batch`).
 
 Rows come in any floating dtype; a backend casts each tensor's columns to the
 tensor's own element type (integer tensors: rounded to the nearest integer

@@ -17,7 +17,7 @@ import numpy as np
 import onnxruntime as ort
 import pytest
 import torch
-from onnx import TensorProto
+from onnx import TensorProto, helper, numpy_helper
 from rich.console import Console
 
 from audit.errors import UserError
@@ -402,3 +402,24 @@ def test_module_paths_from_the_newer_exporters_metadata(tmp_path) -> None:
     x = RNG.normal(size=(4, 3))
     ev = model.evaluate(x, capture=["enc.fc", "enc.act"])
     np.testing.assert_allclose(ev.hidden["enc.act"], np.maximum(ev.hidden["enc.fc"], 0), rtol=1e-6)
+
+
+def test_hidden_tensor_without_rows_is_left_out_with_a_notice(tmp_path) -> None:
+    # pairs = x xᵀ is (N, N): no single axis holds the rows; y = x + 0·max(pairs) is per row
+    graph = helper.make_graph(
+        [
+            helper.make_node("Transpose", ["x"], ["xt"], perm=[1, 0]),
+            helper.make_node("MatMul", ["x", "xt"], ["pairs"]),
+            helper.make_node("ReduceMax", ["pairs"], ["top"], keepdims=0),
+            helper.make_node("Mul", ["top", "zero"], ["nothing"]),
+            helper.make_node("Tanh", ["x"], ["t"]),
+            helper.make_node("Add", ["t", "nothing"], ["y"]),
+        ],
+        "pairs_inside",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 3])],
+        [numpy_helper.from_array(np.zeros(1, dtype=np.float32), "zero")],
+    )
+    model = OnnxModel(netbuild.save_onnx(graph, tmp_path / "pairs.onnx", opset=13))
+    assert [la.name for la in model.layers()] == ["t"]
+    assert any("left out" in n and "'pairs' (several of its axes change" in n for n in model.notices), model.notices
