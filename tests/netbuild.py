@@ -22,17 +22,32 @@ from scipy.special import erf
 
 __all__ = [
     "OPSET",
+    "Activations",
+    "AttentionBlock",
+    "BatchCentred",
+    "BatchNormed",
+    "Dropped",
+    "GradientInside",
+    "HandSiLU",
     "LabelAndScore",
+    "Recurrent",
+    "RowsLast",
+    "SharedAct",
     "TinyCNN",
     "TinyMLP",
     "TwoShapes",
+    "batch_mean_graph",
+    "empty_input_graph",
     "export_all",
     "label_and_score_graph",
     "ops_graph",
     "ops_reference",
+    "pairwise_graph",
+    "rows_last_graph",
     "save_onnx",
     "string_input_graph",
     "symbolic_pair_graph",
+    "torch_scoped_graph",
     "two_input_graph",
     "typed_graph",
     "zipmap_graph",
@@ -56,6 +71,14 @@ class TinyMLP(torch.nn.Module):
 
     def forward(self, x: torch.Tensor) -> torch.Tensor:
         return self.net(x)
+
+
+class GradientInside(TinyMLP):
+    """TinyMLP's weights, but the forward returns the gradient of its output sum by autograd."""
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        x = x.detach().requires_grad_(True)
+        return torch.autograd.grad(self.net(x).sum(), x)[0]
 
 
 class TinyCNN(torch.nn.Module):
@@ -86,6 +109,143 @@ class TwiceReLU(torch.nn.Module):
 
     def forward(self, x: torch.Tensor) -> torch.Tensor:
         return self.act(self.b(self.act(self.a(x))))
+
+
+class SharedAct(torch.nn.Module):
+    """One Tanh module called twice inside the network: c(act(b(act(a(x))))), d = 3, 2 outputs.
+
+    Its two calls are the layers ``act`` and ``act#2`` in every format.
+    """
+
+    def __init__(self, d: int = 3) -> None:
+        super().__init__()
+        self.a = torch.nn.Linear(d, 4)
+        self.b = torch.nn.Linear(4, 4)
+        self.act = torch.nn.Tanh()
+        self.c = torch.nn.Linear(4, 2)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        return self.c(self.act(self.b(self.act(self.a(x)))))
+
+
+class Activations(torch.nn.Module):
+    """d = 4 -> Linear(8) then, each after a Linear: GELU, tanh GELU, SiLU, Mish, HardSwish, a
+    softplus with beta 2 and a hand-written SiLU ``h * sigmoid(h)`` (in module ``gate``), -> 2.
+
+    Every activation is a module of its own (``gelu``, ``gelu_tanh``, ``silu``, ``mish``,
+    ``hardswish``, ``softplus``, ``gate``); exporters split most of them into several nodes.
+    """
+
+    def __init__(self, d: int = 4, width: int = 8) -> None:
+        super().__init__()
+        self.fc = torch.nn.ModuleList([torch.nn.Linear(d if i == 0 else width, width) for i in range(7)])
+        self.gelu = torch.nn.GELU()
+        self.gelu_tanh = torch.nn.GELU(approximate="tanh")
+        self.silu = torch.nn.SiLU()
+        self.mish = torch.nn.Mish()
+        self.hardswish = torch.nn.Hardswish()
+        self.softplus = torch.nn.Softplus(beta=2.0)
+        self.gate = HandSiLU()
+        self.out = torch.nn.Linear(width, 2)
+
+    def acts(self) -> list[str]:
+        """The activation modules, in the order the forward applies them."""
+        return ["gelu", "gelu_tanh", "silu", "mish", "hardswish", "softplus", "gate"]
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        fc = self.fc
+        h = self.gelu_tanh(fc[1](self.gelu(fc[0](x))))
+        h = self.hardswish(fc[4](self.mish(fc[3](self.silu(fc[2](h))))))
+        return self.out(self.gate(fc[6](self.softplus(fc[5](h)))))
+
+
+class HandSiLU(torch.nn.Module):
+    """``h * torch.sigmoid(h)``, as authors write Swish by hand."""
+
+    def forward(self, h: torch.Tensor) -> torch.Tensor:
+        return h * torch.sigmoid(h)
+
+
+class AttentionBlock(torch.nn.Module):
+    """A transformer block over (batch, 16, 4) inputs (d = 64): multi-head attention with a
+    residual, LayerNorm, a GELU feed-forward with a residual, then a Linear head to 3 outputs."""
+
+    def __init__(self, tokens: int = 16, width: int = 4, heads: int = 2, k: int = 3) -> None:
+        super().__init__()
+        self.attn = torch.nn.MultiheadAttention(width, heads, batch_first=True)
+        self.norm = torch.nn.LayerNorm(width)
+        self.ff = torch.nn.Sequential(
+            torch.nn.Linear(width, 2 * width), torch.nn.GELU(), torch.nn.Linear(2 * width, width)
+        )
+        self.head = torch.nn.Linear(tokens * width, k)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        a, _ = self.attn(x, x, x, need_weights=False)
+        h = self.norm(x + a)
+        h = h + self.ff(h)
+        return self.head(h.flatten(1))
+
+
+class RowsLast(torch.nn.Module):
+    """An additive model returning its 3 outputs with the batch axis last, shape (3, batch):
+    y_k = Σ_j tanh(w_kj x_j), so every output has mean dimension 1."""
+
+    def __init__(self, d: int = 4, k: int = 3) -> None:
+        super().__init__()
+        self.w = torch.nn.Parameter(torch.linspace(-1.5, 1.5, d * k).reshape(k, d))
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        return torch.tanh(x[:, None, :] * self.w).sum(dim=2).T
+
+
+class BatchNormed(torch.nn.Module):
+    """Linear -> BatchNorm1d -> Tanh -> Linear; in training mode rows depend on the batch."""
+
+    def __init__(self, d: int = 3) -> None:
+        super().__init__()
+        self.fc = torch.nn.Linear(d, 4)
+        self.bn = torch.nn.BatchNorm1d(4)
+        self.out = torch.nn.Linear(4, 2)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        return self.out(torch.tanh(self.bn(self.fc(x))))
+
+
+class BatchCentred(torch.nn.Module):
+    """A normalisation across the batch written by hand: each row depends on the others."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(3, 2)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        h = self.lin(x)
+        return h - h.mean(dim=0, keepdim=True)
+
+
+class Dropped(torch.nn.Module):
+    """Linear -> Dropout(0.5): random in training mode."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(3, 2)
+        self.drop = torch.nn.Dropout(0.5)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        return self.drop(self.lin(x))
+
+
+class Recurrent(torch.nn.Module):
+    """(batch, 6, 3) -> LSTM over the 6 steps (sequence first inside) -> tanh of the last step -> 2."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.rnn = torch.nn.LSTM(3, 5)
+        self.head = torch.nn.Linear(5, 2)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        out, _ = self.rnn(x.transpose(0, 1))
+        return self.head(torch.tanh(out[-1]))
 
 
 class TwoInputs(torch.nn.Module):
@@ -425,3 +585,84 @@ def zipmap_graph(path: Path) -> Path:
     model.ir_version = 8
     onnx.save(model, str(path))
     return path
+
+
+def rows_last_graph(path: Path) -> Path:
+    """x (N, 3) -> h = Tanh(x A) (N, 2) -> y = Transpose(h), shape (2, N): rows on the last axis."""
+    a = np.array([[1.0, -0.5], [0.25, 2.0], [-1.0, 0.5]], dtype=np.float32)
+    graph = helper.make_graph(
+        [
+            helper.make_node("MatMul", ["x", "A"], ["h"]),
+            helper.make_node("Tanh", ["h"], ["t"]),
+            helper.make_node("Transpose", ["t"], ["y"], perm=[1, 0]),
+        ],
+        "rows_last",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, [2, "N"])],
+        [_init("A", a)],
+    )
+    return save_onnx(graph, path)
+
+
+def batch_mean_graph(path: Path) -> Path:
+    """x (N, 3) -> y = ReduceMean over the batch axis, shape (3,): one value per batch."""
+    graph = helper.make_graph(
+        [helper.make_node("ReduceMean", ["x"], ["y"], axes=[0], keepdims=0)],
+        "batch_mean",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, [3])],
+    )
+    return save_onnx(graph, path, opset=13)
+
+
+def pairwise_graph(path: Path) -> Path:
+    """x (N, 3) -> y = x xᵀ, shape (N, N): the output's width is the batch size."""
+    graph = helper.make_graph(
+        [helper.make_node("Transpose", ["x"], ["xt"], perm=[1, 0]), helper.make_node("MatMul", ["x", "xt"], ["y"])],
+        "pairwise",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", "N"])],
+    )
+    return save_onnx(graph, path)
+
+
+def empty_input_graph(path: Path) -> Path:
+    """An input x of shape (N, 0), no features: y = ReduceSum(x) + 1, shape (N, 1)."""
+    graph = helper.make_graph(
+        [
+            helper.make_node("ReduceSum", ["x"], ["s"], axes=[1], keepdims=1),
+            helper.make_node("Add", ["s", "one"], ["y"]),
+        ],
+        "empty",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 0])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 1])],
+        [_init("one", np.array([1.0]))],
+    )
+    return save_onnx(graph, path, opset=12)
+
+
+def torch_scoped_graph(path: Path) -> Path:
+    """x (N, 3) -> Gemm -> Relu -> Gemm -> y, with module paths as the newer Torch exporter writes
+    them (node metadata ``pkg.torch.onnx.name_scopes``) and no scoped node names: the layers are
+    ``enc.fc`` and ``enc.act``."""
+    rng = np.random.default_rng(1)
+    nodes = [
+        helper.make_node("Gemm", ["x", "W1", "b1"], ["linear"], name="node_linear", transB=1),
+        helper.make_node("Relu", ["linear"], ["relu"], name="node_relu"),
+        helper.make_node("Gemm", ["relu", "W2", "b2"], ["y"], name="node_linear_1", transB=1),
+    ]
+    scopes = [["", "enc", "enc.fc", "linear"], ["", "enc", "enc.act", "relu"], ["", "head", "linear_1"]]
+    for node, scope in zip(nodes, scopes, strict=True):
+        node.metadata_props.add(key="pkg.torch.onnx.name_scopes", value=repr(scope))
+    inits = [
+        _init("W1", rng.normal(size=(4, 3))), _init("b1", rng.normal(size=4)),
+        _init("W2", rng.normal(size=(2, 4))), _init("b2", rng.normal(size=2)),
+    ]  # fmt: skip
+    graph = helper.make_graph(
+        nodes,
+        "scoped",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 2])],
+        inits,
+    )
+    return save_onnx(graph, path)

@@ -9,11 +9,20 @@ Modules
 -------
 base
     The interface (:class:`Model`, :class:`TensorInfo`, :class:`LayerInfo`,
-    :class:`Evaluation`) and helpers every backend and study uses.
+    :class:`Evaluation`) and helpers every backend and study uses
+    (``output_units`` selects outputs by name).
+batch
+    Which axis of a tensor holds the rows, from a probe evaluated in two batches.
+graph, patterns
+    One layer name across formats: backend-neutral graph nodes, the naming rule,
+    and activations that exporters split into several nodes.
+tensors
+    Between rows and tensors, and the words for what the probe finds.
 open
     ``open_model`` and ``reopen``: the one entry point (backends never import it).
-onnx
-    ONNX files run with onnxruntime.
+onnx, onnx_graph, onnx_layers, onnx_session
+    ONNX files run with onnxruntime: the model, the file, its nodes' module
+    paths, the sessions.
 torch
     TorchScript archives, ``torch.export`` programs, state dicts, trusted pickles.
 python
@@ -26,7 +35,7 @@ import importlib
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from .base import Evaluation, LayerInfo, Model, TensorInfo, feature_count, index_names, row_dtype
+    from .base import Evaluation, LayerInfo, Model, TensorInfo, feature_count, index_names, output_units, row_dtype
     from .onnx import OnnxModel
     from .open import is_python_reference, open_model, reopen
     from .python import PythonModel, import_reference
@@ -41,6 +50,7 @@ _EXPORTS = {
     "feature_count": "base",
     "row_dtype": "base",
     "index_names": "base",
+    "output_units": "base",
     "OnnxModel": "onnx",
     "is_python_reference": "open",
     "open_model": "open",
@@ -65,6 +75,7 @@ __all__ = [
     "is_python_reference",
     "open_model",
     "open_torch",
+    "output_units",
     "reopen",
     "row_dtype",
 ]

@@ -4,7 +4,10 @@ A model takes one or more input tensors. Each row of features is the
 concatenation of the input tensors' elements, tensor after tensor in feed order,
 each flattened in C order, so a model has ``d = Σ units`` features. A model
 returns one or more output tensors, flattened and concatenated in the same way
-to ``k`` scalar output units, and offers a list of probe-able hidden layers.
+to ``k`` scalar output units, and offers a list of probe-able hidden layers,
+named by the module path of their origin in every format
+(:mod:`audit.models.graph`). Outputs and layers are read rows first, whichever
+axis of the tensor holds the rows (:mod:`audit.models.batch`).
 
 Rows come in any floating dtype; a backend casts each tensor's columns to the
 tensor's own element type (integer tensors: rounded to the nearest integer
@@ -25,6 +28,8 @@ from typing import Protocol, runtime_checkable
 
 import numpy as np
 
+from ..errors import UserError, suggest
+
 __all__ = [
     "Evaluation",
     "LayerInfo",
@@ -34,6 +39,7 @@ __all__ = [
     "element_names",
     "feature_count",
     "index_names",
+    "output_units",
     "row_dtype",
 ]
 
@@ -70,19 +76,29 @@ class LayerInfo:
     Attributes
     ----------
     name : str
-        Name used with ``capture`` and on the command line.
+        Name used with ``capture`` and on the command line: the module path of
+        its origin, the same in every format (``body.1``, ``encoder.attn``,
+        ``block/add#2``; see :mod:`audit.models.graph` for the rule).
     op : str
-        Operation or module type that produced it (``Relu``, ``Tanh``, ``Linear``...).
+        Operation that produced it, in lower case (``tanh``, ``gelu``,
+        ``layer_norm``, ``linear``, ``gemm``...); an activation that exporters
+        split into several nodes is named once for the whole function.
     shape : tuple of int
-        Non-batch shape.
+        Non-batch shape, rows first (a tensor whose rows lie along another axis
+        is read with them moved first).
     activation : bool
         True for the output of a nonlinearity (captured by default).
+    tensor : str
+        The format's own name of the tensor (ONNX tensor name, ``torch.export``
+        node name, TorchScript value, module path of an eager module), shown as
+        a detail.
     """
 
     name: str
     op: str
     shape: tuple[int, ...]
     activation: bool = False
+    tensor: str = ""
 
     @property
     def units(self) -> int:
@@ -207,3 +223,47 @@ def element_names(tensors: Sequence[TensorInfo]) -> list[str]:
     for tensor in tensors:
         names.extend(index_names(tensor.name or "x", tensor.shape))
     return names
+
+
+def output_units(model: Model, names: Sequence[str]) -> list[int]:
+    """Positions of the output units (columns of ``Evaluation.outputs``) that ``names`` select.
+
+    Parameters
+    ----------
+    model : Model
+    names : sequence of str
+        Output tensor names (every unit of the tensor: ``y``) or output unit
+        names (``y[1]``, as :meth:`Model.output_names` gives them), in any mix.
+
+    Returns
+    -------
+    list of int
+        Unit positions in the order asked for, each once.
+
+    Raises
+    ------
+    UserError
+        For a name that is neither, listing the valid names.
+    """
+    units = model.output_names()
+    by_unit = {name: i for i, name in enumerate(units)}
+    by_tensor: dict[str, list[int]] = {}
+    start = 0
+    for tensor in model.outputs:
+        by_tensor[tensor.name] = list(range(start, start + tensor.units))
+        start += tensor.units
+    chosen: list[int] = []
+    for name in names:
+        found = by_tensor.get(name)
+        if found is None and name in by_unit:
+            found = [by_unit[name]]
+        if found is None:
+            valid = [*by_tensor, *(u for u in units if u not in by_tensor)]
+            shown = ", ".join(f"'{v}'" for v in valid[:12])
+            shown += f" and {len(valid) - 12} more" if len(valid) > 12 else ""
+            raise UserError(
+                f"The model '{model.source}' has no output named '{name}'." + suggest(name, valid)
+                + f" Its outputs are {shown}: give output tensor names or unit names."
+            )
+        chosen.extend(i for i in found if i not in chosen)
+    return chosen

@@ -6,11 +6,18 @@ tensor in the graph's input order. Symbolic non-batch dimensions are fixed by
 ``input_shape``. Outputs that hold no real numbers (an integer class label, a
 ``ZipMap`` sequence of maps) are left out with a notice.
 
-Hidden tensors are exposed by adding them as extra graph outputs
+Layers are named by the module path of their origin (:mod:`.onnx_layers`,
+:mod:`.graph`) and exposed by adding their tensors as extra graph outputs
 (:mod:`.onnx_graph`; the file itself is never re-exported or rewritten); the
 extended session is built lazily, once per distinct set of captured tensors,
-and cached. Shapes of hidden tensors come from ONNX shape inference, completed
-by one small probe run where inference leaves a dimension unknown.
+and cached.
+
+Which axis of every output and hidden tensor holds the rows is established by
+evaluating a probe in two batches (:mod:`.batch`; 2 and 5 rows, or two batches
+of a fixed batch size): a tensor with its rows along another axis is read with
+them moved first; a hidden tensor whose rows cannot be found is left out with a
+notice; such an output, an output of one value per batch, or a model whose rows
+depend on the rest of the batch is refused.
 
 A model exported with a fixed batch size B is fed in chunks of B rows (the
 last chunk padded by repeating its last row; padding is dropped from the
@@ -28,75 +35,30 @@ import onnxruntime as ort
 
 from ..errors import UserError, suggest
 from .base import Evaluation, LayerInfo, TensorInfo, check_rows, element_names, feature_count
-from .onnx_graph import ACTIVATION_OPS, check_external_data, check_file, hidden_tensors, load_proto, with_outputs
-from .tensors import InputShape, Skipped, gather, input_shapes, no_output_error, output_notice, split_features
+from .batch import BatchAxis, Refusal, establish, make_probe
+from .graph import name_layers
+from .onnx_graph import check_external_data, check_file, load_proto, value_info, with_outputs
+from .onnx_layers import graph_nodes
+from .onnx_session import INPUT_TYPES, kind_of, static_dims
+from .onnx_session import session as make_session
+from .patterns import fuse
+from .tensors import (
+    InputShape,
+    Skipped,
+    check_features,
+    empty_evaluation,
+    gather,
+    input_shapes,
+    left_out_notice,
+    moved_notice,
+    no_output_error,
+    output_notice,
+    read_rows,
+    refused_output,
+    split_features,
+)
 
-__all__ = ["ACTIVATION_OPS", "OnnxModel"]
-
-# onnxruntime input types rows can be fed as, and their numpy dtype names.
-_INPUT_TYPES = {
-    f"tensor({kind})": name
-    for kind, name in (
-        ("float", "float32"), ("double", "float64"), ("float16", "float16"), ("bool", "bool"),
-        ("int8", "int8"), ("int16", "int16"), ("int32", "int32"), ("int64", "int64"),
-        ("uint8", "uint8"), ("uint16", "uint16"), ("uint32", "uint32"), ("uint64", "uint64"),
-    )
-}  # fmt: skip
-_PROBE_ROWS = 3
-
-
-def _session_options() -> ort.SessionOptions:
-    options = ort.SessionOptions()
-    options.intra_op_num_threads = os.cpu_count() or 1
-    options.log_severity_level = 3  # errors only: no warnings on the user's terminal
-    return options
-
-
-def _session(model: str | bytes, where: Path) -> ort.InferenceSession:
-    try:
-        return ort.InferenceSession(
-            model, sess_options=_session_options(), providers=["CPUExecutionProvider"]
-        )
-    except Exception as exc:  # onnxruntime raises its own classes (Fail, InvalidGraph, ...)
-        kind = type(exc).__name__
-        text = str(exc)
-        unsupported = ("not a registered function/op", "Could not find an implementation")
-        if kind == "NotImplemented" or any(marker in text for marker in unsupported):
-            why = (
-                "it uses an operator (or operator version) that onnxruntime "
-                f"{ort.__version__} cannot run on the CPU"
-            )
-            fix = "re-export the model with a supported opset or without custom operators"
-        elif kind in ("InvalidProtobuf", "InvalidGraph", "Fail", "InvalidArgument"):
-            why = "onnxruntime found it invalid or damaged"
-            fix = "export or copy the model again and check it with onnx.checker"
-        else:
-            why = "onnxruntime could not load it"
-            fix = "export or copy the model again"
-        first_line = text.strip().splitlines()[0] if text.strip() else kind
-        raise UserError(
-            f"The ONNX model '{where}' cannot be used: {why} ({first_line}). To fix: {fix}."
-        ) from exc
-
-
-def _static_dims(dims: Sequence[object]) -> tuple[int, ...] | None:
-    """Non-batch dims as ints, or None if any is symbolic or unknown."""
-    out = []
-    for dim in dims:
-        if not isinstance(dim, int) or dim < 0:
-            return None
-        out.append(dim)
-    return tuple(out)
-
-
-def _kind(ort_type: str) -> str:
-    """What a non-tensor output holds, in words."""
-    if ort_type.startswith("seq(map"):
-        return "a sequence of maps"
-    if ort_type.startswith("map"):
-        return "a map"
-    return "a sequence" if ort_type.startswith("seq") else ort_type
-
+__all__ = ["OnnxModel"]
 
 class OnnxModel:
     """An ONNX file seen through the :class:`~audit.models.base.Model` interface.
@@ -115,9 +77,11 @@ class OnnxModel:
     inputs : list of TensorInfo
         The input tensors, in the graph's order.
     outputs : list of TensorInfo
-        The float output tensors (others are left out, see ``notices``).
+        The float output tensors (others are left out, see ``notices``), with
+        their non-batch shapes once the rows come first.
     notices : list of str
-        Remarks for the user (outputs left out, a batch size fixed at 1).
+        Remarks for the user (outputs left out, a batch size fixed at 1,
+        hidden tensors left out).
     batch_size : int or None
         The fixed batch size of the model, or None for a dynamic batch axis.
     """
@@ -131,14 +95,17 @@ class OnnxModel:
         check_file(self.path)
         self._proto = load_proto(self.path)
         self._has_external = check_external_data(self._proto, self.path)
-        self._session = _session(str(self.path), self.path)
+        self._session = make_session(str(self.path), self.path)
         self._sessions: dict[tuple[str, ...], ort.InferenceSession] = {}
         self._layers: list[LayerInfo] | None = None
+        self._found: dict[str, tuple[str, BatchAxis]] = {}
         self._read_inputs(input_shape)
+        check_features(self.inputs, self.source)
+        size = self.batch_size
+        self._probe = make_probe(feature_count(self), size or 1, size)
         self._read_outputs()
 
     # -- signature -----------------------------------------------------------------------
-
     def _read_inputs(self, input_shape: InputShape | None) -> None:
         metas = self._session.get_inputs()
         names = [meta.name for meta in metas]
@@ -146,7 +113,7 @@ class OnnxModel:
         batches: set[int] = set()
         self.inputs: list[TensorInfo] = []
         for meta in metas:
-            if meta.type not in _INPUT_TYPES:
+            if meta.type not in INPUT_TYPES:
                 raise UserError(
                     f"The input '{meta.name}' of the ONNX model '{self.path}' has type {meta.type}; "
                     "netdim feeds real-valued features and supports float, double, float16, integer "
@@ -162,7 +129,7 @@ class OnnxModel:
             if isinstance(batch, int) and batch > 0:
                 batches.add(batch)
             self.inputs.append(TensorInfo(meta.name, self._shape(meta, rest, given, len(metas)),
-                                          _INPUT_TYPES[meta.type]))  # fmt: skip
+                                          INPUT_TYPES[meta.type]))  # fmt: skip
         if len(batches) > 1:
             raise UserError(
                 f"The input tensors of the ONNX model '{self.path}' have different fixed batch sizes "
@@ -180,7 +147,7 @@ class OnnxModel:
     def _shape(
         self, meta: ort.NodeArg, rest: list[object], given: dict[str, tuple[int, ...]], count: int
     ) -> tuple[int, ...]:
-        shape = _static_dims(rest)
+        shape = static_dims(rest)
         wanted = given.get(meta.name)
         if wanted is not None:
             if shape is not None and wanted != shape:
@@ -199,32 +166,45 @@ class OnnxModel:
 
     def _read_outputs(self) -> None:
         metas = self._session.get_outputs()
-        skipped: list[Skipped] = [(o.name, _kind(o.type)) for o in metas if not o.type.startswith("tensor(")]
-        tensors = [o for o in metas if o.type.startswith("tensor(")]
-        probe = self._run(self._session, [o.name for o in tensors], self._probe_rows()) if tensors else []
+        skipped: list[Skipped] = [(o.name, kind_of(o.type)) for o in metas if not o.type.startswith("tensor(")]
+        tensors = [o.name for o in metas if o.type.startswith("tensor(")]
+        small, large, again = self._probe_all(self._session, tensors) if tensors else ([], [], [])
         self.outputs: list[TensorInfo] = []
-        for meta, value in zip(tensors, probe, strict=True):
-            value = np.asarray(value)
-            if value.dtype.kind != "f":
-                skipped.append((meta.name, str(value.dtype) if value.dtype.kind in "iub" else meta.type))
+        self._output_axes: list[BatchAxis] = []
+        moved = []
+        n = len(self._probe.large)
+        for name, s, lg, a in zip(tensors, small, large, again, strict=True):
+            if lg.dtype.kind != "f":
+                meta = next(o for o in metas if o.name == name)
+                skipped.append((name, str(lg.dtype) if lg.dtype.kind in "iub" else meta.type))
                 continue
-            if value.ndim == 0:
-                raise UserError(
-                    f"The output '{meta.name}' of the ONNX model '{self.path}' has type "
-                    f"{value.dtype} and shape {value.shape}; netdim needs numeric outputs with a "
-                    "batch axis first."
-                )
-            self.outputs.append(TensorInfo(meta.name, tuple(value.shape[1:]), str(value.dtype)))
+            axis = establish(s, lg, self._probe, a)
+            if isinstance(axis, Refusal):
+                raise refused_output(self.source, name, axis, self._probe)
+            if axis.factor != 1:
+                raise refused_output(self.source, name, Refusal("shape", f"its rows are merged with another "
+                                     f"axis ({axis.describe()})"), self._probe)  # fmt: skip
+            if axis.moved:
+                moved.append((name, axis))
+            self.outputs.append(TensorInfo(name, axis.shape(lg, n), str(lg.dtype)))
+            self._output_axes.append(axis)
         order = [o.name for o in metas]
         skipped.sort(key=lambda item: order.index(item[0]))
         if not self.outputs:
             raise no_output_error(self.source, skipped)
         if skipped:
             self.notices.append(output_notice(skipped))
+        if moved:
+            self.notices.append(moved_notice(moved))
         self._output_names = [o.name for o in self.outputs]
 
-    def _probe_rows(self) -> np.ndarray:
-        return np.zeros((self.batch_size or _PROBE_ROWS, feature_count(self)))
+    def _probe_all(
+        self, session: ort.InferenceSession, names: list[str]
+    ) -> tuple[list[np.ndarray], list[np.ndarray], list[np.ndarray]]:
+        """Tensors ``names`` on the small probe batch, the large one, and the large one again."""
+        probe = self._probe
+        runs = [self._raw(session, names, x) for x in (probe.small, probe.large, probe.large)]
+        return tuple([np.asarray(v) for v in run] for run in runs)  # type: ignore[return-value]
 
     # -- names ---------------------------------------------------------------------------
 
@@ -237,67 +217,97 @@ class OnnxModel:
     # -- layers --------------------------------------------------------------------------
 
     def layers(self) -> list[LayerInfo]:
-        """Float tensors computed from the inputs, with a known non-batch shape, in graph order."""
+        """Float tensors computed from the inputs whose rows the probe finds, in graph order."""
         if self._layers is None:
-            candidates, shapes, unknown = hidden_tensors(self._proto, self._input_names, self.batch_size)
-            if unknown:
-                shapes.update(self._probe_shapes(unknown))
-            self._layers = [
-                LayerInfo(name, op, shapes[name], op in ACTIVATION_OPS)
-                for name, op in candidates
-                if name in shapes
-            ]
+            nodes, returned = graph_nodes(self._proto, self._input_names, value_info(self._proto))
+            named = name_layers(fuse(nodes, returned), returned)
+            self._layers = []
+            if named:
+                self._discover([(layer.name, layer.key, layer.op, layer.activation) for layer in named])
         return list(self._layers)
 
-    def _probe_shapes(self, names: list[str]) -> dict[str, tuple[int, ...]]:
-        x = self._probe_rows()
+    def _discover(self, named: list[tuple[str, str, str, bool]]) -> None:
+        keys = tuple(dict.fromkeys(key for _, key, _, _ in named))
         try:
-            values = self._run(self._extended(tuple(names)), list(names), x)
-        except UserError:
-            return {}
-        shapes = {}
-        for name, value in zip(names, values, strict=True):
-            value = np.asarray(value)
-            if value.dtype.kind == "f" and value.ndim >= 1 and value.shape[0] == len(x):
-                shapes[name] = tuple(value.shape[1:])
-        return shapes
+            small, large, again = self._probe_all(self._extended(keys), list(keys))
+        except UserError as exc:
+            self.notices.append(f"Hidden tensors could not be probed, so no layer is offered: {exc.message}")
+            return
+        finally:
+            self._sessions.pop(tuple(sorted(keys)), None)
+        values = {key: (s, lg, a) for key, s, lg, a in zip(keys, small, large, again, strict=True)}
+        n = len(self._probe.large)
+        refused = []
+        assert self._layers is not None
+        for name, key, op, activation in named:
+            s, lg, a = values[key]
+            if lg.dtype.kind != "f":
+                continue
+            axis = establish(s, lg, self._probe, a)
+            if isinstance(axis, Refusal):
+                if axis.kind != "constant":
+                    refused.append((name, axis))
+                continue
+            self._found[name] = (key, axis)
+            self._layers.append(LayerInfo(name, op, axis.shape(lg, n), activation, key))
+        if refused:
+            self.notices.append(left_out_notice(refused))
 
     def _extended(self, names: tuple[str, ...]) -> ort.InferenceSession:
         """A session whose graph also returns the tensors ``names`` (built once per set)."""
         key = tuple(sorted(names))
         if key not in self._sessions:
             model = with_outputs(self._proto, key, self.path, self._has_external)
-            self._sessions[key] = _session(model, self.path)
+            self._sessions[key] = make_session(model, self.path)
         return self._sessions[key]
 
     # -- evaluation ----------------------------------------------------------------------
 
-    def _run(self, session: ort.InferenceSession, names: list[str], x: np.ndarray) -> list[np.ndarray]:
-        """Run ``session`` on rows ``x`` (n, d), chunking for a fixed batch size."""
-        n = len(x)
+    def _failure(self, exc: Exception, n: int) -> UserError:
+        first_line = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
+        shapes = ", ".join(f"{t.name} {t.shape}" for t in self.inputs)
+        return UserError(
+            f"The ONNX model '{self.path}' failed on a batch of {n} rows of input shape "
+            f"{shapes} ({type(exc).__name__}: {first_line}). Check that the input shape is "
+            "right (`input_shape`) and that the model runs in onnxruntime."
+        )
+
+    def _raw(self, session: ort.InferenceSession, names: list[str], x: np.ndarray) -> list[np.ndarray]:
+        """Run ``session`` on one batch of rows ``x`` (n, d), as the graph returns the tensors."""
         feeds = split_features(x, self.inputs)
-        batch = self.batch_size
         try:
-            if batch is None:
-                return session.run(names, dict(zip(self._input_names, feeds, strict=True)))
-            parts: list[list[np.ndarray]] = []
-            for start in range(0, n, batch):
-                chunks = [feed[start : start + batch] for feed in feeds]
-                if len(chunks[0]) < batch:
-                    pad = batch - len(chunks[0])
-                    chunks = [np.concatenate([c, np.repeat(c[-1:], pad, axis=0)]) for c in chunks]
-                parts.append(session.run(names, dict(zip(self._input_names, chunks, strict=True))))
-            return [np.concatenate([p[i] for p in parts])[:n] for i in range(len(names))]
-        except UserError:
-            raise
+            return session.run(names, dict(zip(self._input_names, feeds, strict=True)))
         except Exception as exc:
-            first_line = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
-            shapes = ", ".join(f"{t.name} {t.shape}" for t in self.inputs)
-            raise UserError(
-                f"The ONNX model '{self.path}' failed on a batch of {n} rows of input shape "
-                f"{shapes} ({type(exc).__name__}: {first_line}). Check that the input shape is "
-                "right (--input-shape) and that the model runs in onnxruntime."
-            ) from exc
+            raise self._failure(exc, len(x)) from exc
+
+    def _run(
+        self,
+        session: ort.InferenceSession,
+        names: list[str],
+        x: np.ndarray,
+        axes: list[BatchAxis],
+        units: list[tuple[str, int]],
+    ) -> list[np.ndarray]:
+        """Tensors ``names`` on rows ``x`` (n, d) as (n, units) rows, chunking for a fixed batch size.
+
+        ``units`` gives each tensor's name for messages and its values per row.
+        """
+        n = len(x)
+        batch = self.batch_size or n
+        parts: list[list[np.ndarray]] = []
+        for start in range(0, n, batch):
+            chunk = x[start : start + batch]
+            real = len(chunk)
+            if real < batch:
+                chunk = np.concatenate([chunk, np.repeat(chunk[-1:], batch - real, axis=0)])
+            values = self._raw(session, names, chunk)
+            parts.append([
+                read_rows(axis, v, batch, size, label, self.source)[:real]
+                for axis, v, (label, size) in zip(axes, values, units, strict=True)
+            ])  # fmt: skip
+        if len(parts) == 1:
+            return parts[0]
+        return [np.concatenate([p[i] for p in parts]) for i in range(len(names))]
 
     def evaluate(self, x: np.ndarray, capture: Sequence[str] = ()) -> Evaluation:
         """Evaluate rows ``x``.
@@ -308,12 +318,12 @@ class OnnxModel:
             Input rows, any float dtype; each tensor's columns are cast to its
             element type (integers: rounded to the nearest first).
         capture : sequence of str
-            Names of hidden tensors (from :meth:`layers`) to return as well.
+            Names of layers (from :meth:`layers`) to return as well.
 
         Returns
         -------
         Evaluation
-            Outputs (n, k) and the captured tensors (n, units), in the dtypes
+            Outputs (n, k) and the captured layers (n, units), in the dtypes
             onnxruntime returns.
         """
         x = check_rows(x, feature_count(self))
@@ -321,12 +331,19 @@ class OnnxModel:
         capture = tuple(dict.fromkeys(capture))
         if capture:
             self._check_capture(capture)
-            session = self._extended(capture)
-        else:
-            session = self._session
-        values = self._run(session, [*self._output_names, *capture], x)
+        if n == 0:
+            chosen = [la for la in self.layers() if la.name in capture]
+            return empty_evaluation(self.outputs, chosen, self.outputs[0].dtype)
+        keys = [self._found[name][0] for name in capture]
+        session = self._extended(tuple(dict.fromkeys(keys))) if capture else self._session
+        axes = [*self._output_axes, *(self._found[name][1] for name in capture)]
+        sizes = [(t.name, t.units) for t in self.outputs]
+        if capture:
+            per_row = {la.name: la.units for la in self.layers()}
+            sizes += [(name, per_row[name]) for name in capture]
+        values = self._run(session, [*self._output_names, *keys], x, axes, sizes)
         k = len(self._output_names)
-        hidden = {name: value.reshape(n, -1) for name, value in zip(capture, values[k:], strict=True)}
+        hidden = dict(zip(capture, values[k:], strict=True))
         return Evaluation(outputs=gather(values[:k], n), hidden=hidden)
 
     def _check_capture(self, capture: Sequence[str]) -> None:

@@ -2,9 +2,8 @@
 
 Nothing here runs the model. :func:`load_proto` parses the file without its
 external data; :func:`check_external_data` refuses external data outside the
-model's folder; :func:`hidden_tensors` lists the float tensors computed from the
-inputs, with their shapes where ONNX shape inference knows them;
-:func:`with_outputs` makes the serialized model that also returns given hidden
+model's folder; :func:`value_info` reads what ONNX shape inference knows of the
+hidden tensors; :func:`with_outputs` makes the serialized model that also returns given hidden
 tensors (the file itself is never rewritten).
 """
 
@@ -20,23 +19,13 @@ import onnx
 from ..errors import UserError
 
 __all__ = [
-    "ACTIVATION_OPS",
     "FLOAT_TYPES",
     "check_external_data",
     "check_file",
-    "hidden_tensors",
     "load_proto",
+    "value_info",
     "with_outputs",
 ]
-
-#: ONNX operator types whose output counts as an activation (captured by default).
-ACTIVATION_OPS = frozenset(
-    {
-        "Relu", "LeakyRelu", "PRelu", "Elu", "Selu", "Celu", "Gelu", "Tanh", "Sigmoid",
-        "HardSigmoid", "HardSwish", "Softplus", "Softsign", "Softmax", "LogSoftmax", "Erf",
-        "Mish",
-    }
-)  # fmt: skip
 
 #: numpy dtypes of the ONNX tensor element types netdim can capture.
 FLOAT_TYPES = {
@@ -44,10 +33,6 @@ FLOAT_TYPES = {
     onnx.TensorProto.DOUBLE: np.float64,
     onnx.TensorProto.FLOAT16: np.float16,
 }
-
-# Operators whose outputs are never worth probing (shape arithmetic, constants).
-_SKIP_OPS = frozenset({"Constant", "ConstantOfShape", "Shape", "Size", "Identity"})
-
 
 def check_file(path: Path) -> None:
     """A UserError unless ``path`` is a non-empty file."""
@@ -133,68 +118,13 @@ def with_outputs(
     return extended.SerializeToString()
 
 
-def hidden_tensors(
-    proto: onnx.ModelProto, inputs: Sequence[str], batch_size: int | None
-) -> tuple[list[tuple[str, str]], dict[str, tuple[int, ...]], list[str]]:
-    """Hidden tensors computed from ``inputs``, in graph order, and what is known of their shapes.
+def value_info(proto: onnx.ModelProto) -> dict[str, onnx.ValueInfoProto]:
+    """What ONNX shape inference knows of the hidden tensors (types and shapes), by name.
 
-    Parameters
-    ----------
-    proto : onnx.ModelProto
-        The model.
-    inputs : sequence of str
-        Names of the input tensors rows are fed to.
-    batch_size : int or None
-        The model's fixed batch size, if any.
-
-    Returns
-    -------
-    candidates : list of (name, op type)
-        Node outputs that depend on an input and are not graph outputs.
-    shapes : dict of str to tuple of int
-        Non-batch shapes of the float candidates shape inference fully knows.
-    unknown : list of str
-        Candidates whose type or shape inference leaves open (to be probed).
-        Candidates known to be non-float, or with a fixed leading size other
-        than the batch, are in neither.
+    Inference is a convenience: when it fails, the probe run tells the rest.
     """
-    graph = proto.graph
     try:
         inferred = onnx.shape_inference.infer_shapes(proto, strict_mode=False).graph
-        value_info = {v.name: v for v in inferred.value_info}
     except Exception:  # inference is a convenience; a probe run fills the gaps
-        value_info = {}
-    outputs = {o.name for o in graph.output}
-    dynamic = set(inputs)
-    candidates: list[tuple[str, str]] = []
-    for node in graph.node:
-        if not any(name in dynamic for name in node.input):
-            continue
-        dynamic.update(o for o in node.output if o)
-        if node.op_type in _SKIP_OPS:
-            continue
-        candidates.extend((o, node.op_type) for o in node.output if o and o not in outputs)
-
-    shapes: dict[str, tuple[int, ...]] = {}
-    unknown: list[str] = []
-    for name, _ in candidates:
-        info = value_info.get(name)
-        if info is None or not info.type.HasField("tensor_type"):
-            unknown.append(name)
-            continue
-        tensor = info.type.tensor_type
-        if tensor.elem_type and tensor.elem_type not in FLOAT_TYPES:
-            continue
-        dims = tensor.shape.dim if tensor.HasField("shape") else None
-        if not dims or not tensor.elem_type:
-            unknown.append(name)
-            continue
-        first = dims[0]
-        if first.HasField("dim_value") and first.dim_value != (batch_size or -1):
-            continue  # a fixed leading size that is not the batch: not per-row
-        rest = [d.dim_value if d.HasField("dim_value") else None for d in dims[1:]]
-        if all(r is not None and r > 0 for r in rest):
-            shapes[name] = tuple(rest)  # type: ignore[arg-type]
-        else:
-            unknown.append(name)
-    return candidates, shapes, unknown
+        return {}
+    return {v.name: v for v in inferred.value_info}

@@ -1,15 +1,23 @@
-"""Open a model from a path or a Python reference: one entry point for all backends."""
+"""Open a model from a path or a Python reference: one entry point for all backends.
+
+:func:`open_model` checks the types of its arguments (they may come from a TOML
+``[model]`` table), dispatches by suffix, and turns any failure of a backend to
+load a file into a :class:`~audit.errors.UserError` naming the file and the
+cause, so that a model that cannot be opened never ends in a traceback.
+"""
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+import numbers
+import os
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
 from ..errors import UserError
 from .base import Model
-from .python import PythonModel, import_reference
-from .tensors import InputShape
+from .python import PythonModel, import_reference, shadow_notice
+from .tensors import InputShape, input_shapes
 
 __all__ = ["is_python_reference", "open_model"]
 
@@ -47,7 +55,9 @@ def open_model(
     torch_arguments : dict, optional
         Keyword arguments for ``torch_class``.
     trust : bool
-        Allow unpickling a whole Torch module (runs code from the file).
+        Allow what runs code from the file: unpickling a whole Torch module,
+        or a ``torch.export`` program whose members Torch would unpickle or
+        that holds compiled code.
     input_shape : sequence of int, or dict of str to sequence of int, optional
         Non-batch shape of a model file's input tensor, e.g. ``(1, 8, 8)``, or
         for a model with several input tensors one shape per tensor name,
@@ -60,6 +70,7 @@ def open_model(
     -------
     Model
     """
+    ref = _check_arguments(ref, dim, torch_class, torch_arguments, trust, input_shape)
     if is_python_reference(ref):
         func = import_reference(ref)
         if dim is None:
@@ -67,7 +78,9 @@ def open_model(
                 f"The input dimension of the Python model '{ref}' is unknown: give --dim D "
                 "or an input spec file (--inputs SPEC.toml) that lists its features."
             )
-        return PythonModel(func, dim, source=ref)
+        python = PythonModel(func, dim, source=ref)
+        _add_notice(python, shadow_notice(ref.partition(":")[0]))
+        return python
     path = Path(ref)
     if not path.exists():
         raise UserError(
@@ -77,23 +90,10 @@ def open_model(
     if path.is_dir():
         raise UserError(f"'{ref}' is a folder, not a model file. Give the path of the model file itself.")
     suffix = path.suffix.lower()
-    if suffix == ".onnx":
-        from .onnx import OnnxModel
-
-        model: Any = OnnxModel(path, input_shape=input_shape)
-    elif suffix in (".pt", ".pth", ".pt2", ".ts", ".torchscript"):
-        from .torch import open_torch
-
-        model = open_torch(
-            path,
-            torch_class=torch_class,
-            torch_arguments=torch_arguments,
-            trust=trust,
-            input_shape=input_shape,
-        )
-    else:
-        model = None
+    model = _open_file(path, suffix, torch_class, torch_arguments, trust, input_shape)
     if model is not None:
+        if torch_class:
+            _add_notice(model, shadow_notice(torch_class.partition(":")[0]))
         # how to open it again elsewhere (another process or machine): see reopen()
         model.open_args = {
             "ref": str(path.resolve()), "torch_class": torch_class, "torch_arguments": torch_arguments,
@@ -105,6 +105,90 @@ def open_model(
         "Supported: .onnx (ONNX), .pt / .pth (TorchScript or state dict), .pt2 (torch.export), "
         "or a Python reference 'package.module:function'."
     )
+
+
+def _open_file(
+    path: Path,
+    suffix: str,
+    torch_class: str | None,
+    torch_arguments: Mapping[str, Any] | None,
+    trust: bool,
+    input_shape: InputShape | None,
+) -> Any:
+    """The backend's model for ``path``, or None for an unknown suffix; every failure a UserError."""
+    try:
+        if suffix == ".onnx":
+            from .onnx import OnnxModel
+
+            return OnnxModel(path, input_shape=input_shape)
+        if suffix in (".pt", ".pth", ".pt2", ".ts", ".torchscript"):
+            from .torch import open_torch
+
+            return open_torch(
+                path,
+                torch_class=torch_class,
+                torch_arguments=dict(torch_arguments) if torch_arguments is not None else None,
+                trust=trust,
+                input_shape=input_shape,
+            )
+    except UserError:
+        raise
+    except Exception as exc:  # a backend library failing on this file
+        text = str(exc).strip()
+        first = text.splitlines()[0][:240] if text else ""
+        raise UserError(
+            f"The model file '{path}' could not be opened ({type(exc).__name__}{': ' + first if first else ''}). "
+            "The file may be damaged, made by a newer or incompatible exporter, or use a feature netdim does "
+            "not support: save or export the model again (ONNX, TorchScript, a torch.export program or a "
+            "state dict), and check that it loads in its own runtime."
+        ) from exc
+    return None
+
+
+def _add_notice(model: Any, notice: str | None) -> None:
+    if notice and notice not in model.notices:
+        model.notices.append(notice)
+
+
+def _check_arguments(
+    ref: Any,
+    dim: Any,
+    torch_class: Any,
+    torch_arguments: Any,
+    trust: Any,
+    input_shape: Any,
+) -> str:
+    """``ref`` as a string; a UserError for any argument of the wrong type (as a TOML table may give)."""
+    if isinstance(ref, os.PathLike):
+        ref = os.fspath(ref)
+    if not isinstance(ref, str) or not ref:
+        raise UserError(f"The model must be a path or a reference 'package.module:function', got {ref!r}.")
+    if dim is not None and (isinstance(dim, bool) or not isinstance(dim, numbers.Integral) or dim < 1):
+        raise UserError(f"`dim` must be a whole number of at least 1 (the number of inputs), got {dim!r}.")
+    if torch_class is not None and not isinstance(torch_class, str):
+        raise UserError(
+            f"`torch_class` must be a string 'package.module:Class', got {torch_class!r}. In an input spec, "
+            "write class = \"package.module:Class\" in the [model] table."
+        )
+    if torch_arguments is not None and (
+        not isinstance(torch_arguments, Mapping) or not all(isinstance(k, str) for k in torch_arguments)
+    ):
+        raise UserError(
+            f"`torch_arguments` (the constructor arguments of `torch_class`) must be a table of named values, "
+            f"got {torch_arguments!r}. In an input spec, write arguments = {{ hidden = 32 }} in the [model] table."
+        )
+    if not isinstance(trust, bool):
+        raise UserError(f"`trust` must be true or false, got {trust!r}.")
+    if input_shape is not None:
+        bad = isinstance(input_shape, str | bytes) or not isinstance(input_shape, Mapping | Sequence)
+        if bad:
+            raise UserError(
+                f"`input_shape` must be a list of positive whole numbers such as [1, 8, 8] (or a table of "
+                f"them by input name), got {input_shape!r}."
+            )
+        names = list(input_shape) if isinstance(input_shape, Mapping) else ["x"]
+        input_shapes(input_shape, names, ref)  # checks every shape is positive whole numbers
+    return ref
 
 
 def _plain_shape(input_shape: InputShape | None) -> Any:

@@ -3,6 +3,12 @@
 The callable takes an (n, d) float64 array and returns an array of shape
 (n,) or (n, k). It has one input tensor ``x`` of d features, no hidden layers,
 and its outputs are returned as float64 (whatever dtype the rows came in).
+
+References are imported with the working folder at the *end* of the module
+search path, so a file of the working folder never shadows an installed
+package (a stray ``rich.py`` or ``numpy.py`` does not run); a reference whose
+module exists both there and installed gets the installed one, and
+:func:`shadow_notice` says so.
 """
 
 from __future__ import annotations
@@ -11,13 +17,37 @@ import importlib
 import os
 import sys
 from collections.abc import Callable, Sequence
+from pathlib import Path
 
 import numpy as np
 
-from ..errors import UserError
+from ..errors import UserError, suggest
 from .base import Evaluation, LayerInfo, TensorInfo, index_names
 
-__all__ = ["PythonModel", "import_reference"]
+__all__ = ["PythonModel", "import_reference", "shadow_notice"]
+
+
+def _on_path_end() -> None:
+    """Put the working folder on the module search path, after everything installed."""
+    cwd = os.getcwd()
+    if cwd not in sys.path and "" not in sys.path:  # the console script does not put it there
+        sys.path.append(cwd)
+
+
+def shadow_notice(module_name: str) -> str | None:
+    """A notice when the working folder holds a module of the name that Python took from elsewhere."""
+    top = module_name.split(".")[0]
+    cwd = Path.cwd()
+    if not ((cwd / f"{top}.py").is_file() or (cwd / top / "__init__.py").is_file()):
+        return None
+    origin = getattr(sys.modules.get(top), "__file__", None)
+    if not origin or Path(origin).resolve().is_relative_to(cwd.resolve()):
+        return None
+    return (
+        f"The working folder holds a module '{top}', but '{top}' is also installed ({origin}) and netdim "
+        "imported the installed one, because the working folder never shadows installed packages. Rename "
+        "your file, or install your package, if you meant yours."
+    )
 
 
 def import_reference(ref: str, what: str = "Python reference") -> object:
@@ -28,8 +58,7 @@ def import_reference(ref: str, what: str = "Python reference") -> object:
             f"The {what} '{ref}' is not of the form 'package.module:name'. Write the "
             "importable module, a colon, then the attribute, e.g. 'model_zoo.greenhouse:simulate'."
         )
-    if os.getcwd() not in sys.path:  # the console script does not put the working folder on the path
-        sys.path.insert(0, os.getcwd())
+    _on_path_end()
     try:
         module = importlib.import_module(module_name)
     except Exception as exc:  # any import failure is the user's module
@@ -42,10 +71,10 @@ def import_reference(ref: str, what: str = "Python reference") -> object:
     for part in attr.split("."):
         if not hasattr(obj, part):
             names = [n for n in dir(module) if not n.startswith("_")]
-            from ..errors import suggest
-
+            shadowed = shadow_notice(module_name)
             raise UserError(
                 f"The {what} '{ref}': module '{module_name}' has no attribute '{attr}'." + suggest(part, names)
+                + (f" {shadowed}" if shadowed else "")
             )
         obj = getattr(obj, part)
     return obj

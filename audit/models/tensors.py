@@ -7,7 +7,11 @@
 * :func:`input_shapes` reads the ``input_shape`` argument (one shape, or one per
   input tensor by name);
 * :func:`output_notice` and :func:`no_output_error` word what happens to outputs
-  that do not hold real numbers (class labels, sequences of maps).
+  that do not hold real numbers (class labels, sequences of maps);
+* :func:`check_features` refuses inputs that hold no features;
+* :func:`refused_output`, :func:`moved_notice` and :func:`left_out_notice` word
+  what the batch probe (:mod:`.batch`) found: outputs whose rows cannot be
+  found, outputs read along another axis, hidden tensors left out.
 """
 
 from __future__ import annotations
@@ -18,18 +22,25 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from ..errors import UserError, suggest
-from .base import TensorInfo
+from .base import Evaluation, LayerInfo, TensorInfo
+from .batch import BatchAxis, Probe, Refusal
 
 __all__ = [
     "FEEDABLE_KINDS",
     "InputShape",
     "Skipped",
+    "check_features",
+    "empty_evaluation",
     "gather",
     "input_shapes",
     "integer_output_error",
+    "left_out_notice",
+    "moved_notice",
     "no_output_error",
     "numpy_dtype",
     "output_notice",
+    "read_rows",
+    "refused_output",
     "split_features",
 ]
 
@@ -204,3 +215,89 @@ def no_output_error(source: str, skipped: Sequence[Skipped]) -> UserError:
         f"The model '{source}' has no output netdim can audit: {_describe(skipped)} hold no real "
         f"numbers (class labels, sequences or maps). Sobol' indices need float outputs: {fix}."
     )
+
+
+def check_features(inputs: Sequence[TensorInfo], source: str) -> None:
+    """A UserError when an input tensor, or the model as a whole, holds no features."""
+    for tensor in inputs:
+        if tensor.units == 0:
+            raise UserError(
+                f"The input '{tensor.name}' of '{source}' has a dimension of size 0 (shape {tensor.shape} per "
+                "row), so it holds no features to vary. Export the model with a non-empty input, or give the "
+                "right shape with `input_shape`."
+            )
+    if not inputs:
+        raise UserError(f"The model '{source}' takes no input, so there is nothing to vary.")
+
+
+_EVAL_FIX = (
+    "Call `model.eval()` before exporting or saving the model (so that batch normalisation uses its "
+    "running statistics and dropout is off), or remove the normalisation across rows"
+)
+
+
+def refused_output(source: str, name: str, refusal: Refusal, probe: Probe) -> UserError:
+    """The error for an output whose rows the batch probe could not find."""
+    where = f"The output '{name}' of '{source}'"
+    if refusal.kind == "random":
+        return UserError(
+            f"The model '{source}' gives different values when the same batch is evaluated twice (output "
+            f"'{name}'): something random is active, such as dropout left in training mode. netdim needs a "
+            f"deterministic model. {_EVAL_FIX}."
+        )
+    if refusal.kind == "rows":
+        return UserError(
+            f"The model '{source}' gives different values for the same rows when they are evaluated in "
+            f"another batch (output '{name}': {refusal.reason}). Its rows depend on the rest of the batch, "
+            "typically batch normalisation left in training mode or a normalisation across the batch, and "
+            f"netdim evaluates rows in batches of any size and order. {_EVAL_FIX}."
+        )
+    if refusal.kind in ("constant", "per-batch"):
+        return UserError(
+            f"{where} holds one value per batch, not one per row ({refusal.reason}): a statistic of all rows "
+            "together, such as a mean or a loss. netdim needs one output row per input row: export the "
+            "per-row values (the tensor before the reduction)."
+        )
+    return UserError(
+        f"{where} changes its width with the batch size ({refusal.reason}, from {probe.describe()}), so "
+        "netdim cannot tell which values belong to which row. Export an output of shape (batch, ...) "
+        "whose other dimensions do not depend on the number of rows."
+    )
+
+
+def moved_notice(moved: Sequence[tuple[str, BatchAxis]]) -> str:
+    """One line naming the outputs whose rows lie along another axis than the first."""
+    listed = ", ".join(f"'{name}' ({axis.describe()})" for name, axis in moved)
+    return f"Outputs with their rows along another axis than the first are read with the rows moved first: {listed}."
+
+
+def left_out_notice(refused: Sequence[tuple[str, Refusal]], limit: int = 6) -> str:
+    """One line naming the hidden tensors left out because their rows could not be found."""
+    shown = "; ".join(f"'{name}' ({r.reason})" for name, r in refused[:limit])
+    more = f"; and {len(refused) - limit} more" if len(refused) > limit else ""
+    return (
+        "Hidden tensors left out because netdim could not tell which axis holds the rows of the batch: "
+        f"{shown}{more}."
+    )
+
+
+def empty_evaluation(outputs: Sequence[TensorInfo], layers: Sequence[LayerInfo], dtype: str) -> Evaluation:
+    """The evaluation of no rows: (0, k) outputs and (0, units) captured layers in ``dtype``."""
+    kind = numpy_dtype(dtype) if dtype != "bfloat16" else np.dtype("float32")
+    k = sum(t.units for t in outputs)
+    return Evaluation(np.zeros((0, k), kind), {la.name: np.zeros((0, la.units), kind) for la in layers})
+
+
+def read_rows(axis: BatchAxis, value: np.ndarray, n: int, units: int, name: str, source: str) -> np.ndarray:
+    """``value`` as (n, units) rows, or a UserError when its size is not what the probe found."""
+    try:
+        rows = axis.rows(value, n)
+    except ValueError:
+        rows = None
+    if rows is None or rows.shape != (n, units):
+        raise UserError(
+            f"The tensor '{name}' of '{source}' came out with shape {tuple(np.shape(value))} for {n} rows, "
+            f"but had {units} values per row on the probe: its shape depends on the input values (or on the "
+            "batch). Leave it out of `layers`, or export a model whose tensors have a fixed shape per row."
+        )
+    return rows

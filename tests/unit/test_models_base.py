@@ -89,3 +89,28 @@ def test_check_rows() -> None:
     assert check_rows(np.zeros((4, 3)), 3).shape == (4, 3)
     with pytest.raises(ValueError, match=r"shape \(n, 3\)"):
         check_rows(np.zeros(3), 3)
+
+
+class _TwoOutputs:
+    """A stand-in model with outputs ``p`` (2 units) and ``q`` (one scalar per row)."""
+
+    def __init__(self) -> None:
+        self.source, self.format, self.notices = "two-outputs", "python", []
+        self.inputs = [TensorInfo("x", (3,))]
+        self.outputs = [TensorInfo("p", (2,)), TensorInfo("q", ())]
+
+    def output_names(self) -> list[str]:
+        return element_names(self.outputs)
+
+
+def test_output_units_by_tensor_or_unit_name() -> None:
+    from audit.errors import UserError
+    from audit.models.base import output_units
+
+    model = _TwoOutputs()
+    assert model.output_names() == ["p[0]", "p[1]", "q"]
+    assert output_units(model, ["q"]) == [2]
+    assert output_units(model, ["p"]) == [0, 1]
+    assert output_units(model, ["p[1]", "q", "p"]) == [1, 2, 0]  # in the order asked, each once
+    with pytest.raises(UserError, match=r"no output named 'pp'.*Did you mean 'p'.*'p', 'q', 'p\[0\]', 'p\[1\]'"):
+        output_units(model, ["pp"])

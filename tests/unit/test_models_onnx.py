@@ -17,7 +17,7 @@ import numpy as np
 import onnxruntime as ort
 import pytest
 import torch
-from onnx import TensorProto
+from onnx import TensorProto, helper, numpy_helper
 from rich.console import Console
 
 from audit.errors import UserError
@@ -128,8 +128,9 @@ def test_cnn_export_all_layers(cnn_files) -> None:
     layers = model.layers()
     ops = [layer.op for layer in layers]
     # shape arithmetic of h.reshape(h.shape[0], -1) is not offered
-    assert not {"Shape", "Gather", "Unsqueeze", "Concat", "Constant"} & set(ops)
-    assert ops[:3] == ["Conv", "Relu", "MaxPool"]
+    assert not {"shape", "gather", "unsqueeze", "concat", "constant"} & set(ops)
+    assert ops[:3] == ["conv", "relu", "maxpool"]
+    assert [layer.name for layer in layers][:3] == ["conv", "act", "pool"]  # module paths
     x = RNG.normal(size=(9, 64))
     ev = model.evaluate(x, capture=[layer.name for layer in layers])
     xt = torch.from_numpy(x.astype(np.float32)).reshape(9, 1, 8, 8)
@@ -137,10 +138,9 @@ def test_cnn_export_all_layers(cnn_files) -> None:
         conv = net.conv(xt)
         ref = net(xt)
     np.testing.assert_allclose(ev.outputs, ref.numpy(), rtol=1e-5, atol=1e-6)
-    by_op = {layer.op: layer.name for layer in layers}
-    np.testing.assert_allclose(ev.hidden[by_op["Conv"]], conv.reshape(9, -1), rtol=1e-5, atol=1e-5)
+    np.testing.assert_allclose(ev.hidden["conv"], conv.reshape(9, -1), rtol=1e-5, atol=1e-5)
     relu = torch.relu(conv).reshape(9, -1).numpy()
-    np.testing.assert_allclose(ev.hidden[by_op["Relu"]], relu, rtol=1e-5, atol=1e-5)
+    np.testing.assert_allclose(ev.hidden["act"], relu, rtol=1e-5, atol=1e-5)
     for layer in layers:
         assert ev.hidden[layer.name].shape == (9, layer.units)
 
@@ -149,14 +149,14 @@ def test_signature_plain_when_not_a_terminal(ops_model: OnnxModel) -> None:
     buffer = io.StringIO()
     render_signature(model_signature(ops_model), Console(file=buffer, width=200))
     text = buffer.getvalue()
-    assert "d = 16" in text and "Conv" in text and "(2, 4, 4)" in text
+    assert "d = 16" in text and "conv" in text and "(2, 4, 4)" in text
     assert max(len(line) for line in text.splitlines()) <= 80
     assert "\x1b[" not in text  # no escape codes
     assert "─" not in text and "│" not in text  # no borders
     assert all(line == line.rstrip() for line in text.splitlines())
     rows = [line.split() for line in text.splitlines() if line.startswith(("relu ", "gemm "))]
-    assert rows == [["relu", "Relu", "(2,", "4,", "4)", "32", "yes"],
-                    ["gemm", "Gemm", "(6,)", "6", "no"]]  # fmt: skip
+    assert rows == [["relu", "relu", "(2,", "4,", "4)", "32", "yes"],
+                    ["gemm", "gemm", "(6,)", "6", "no"]]  # fmt: skip
 
 
 def test_input_shape_override_checked(tmp_path) -> None:
@@ -268,8 +268,7 @@ def test_two_inputs_named_per_tensor_and_equal_to_onnxruntime(pair_files) -> Non
         ref = net(xa, xb)
         tanh = torch.tanh(net.fa(xa) + net.fb(xb.reshape(9, 4)))
     np.testing.assert_allclose(ev.outputs, ref.numpy(), rtol=1e-5, atol=1e-6)
-    by_op = {layer.op: layer.name for layer in model.layers()}
-    hidden = model.evaluate(x, capture=[by_op["Tanh"]]).hidden[by_op["Tanh"]]
+    hidden = model.evaluate(x, capture=["act"]).hidden["act"]
     np.testing.assert_allclose(hidden, tanh.numpy(), rtol=1e-5, atol=1e-6)
 
 
@@ -368,3 +367,59 @@ def test_scikit_learn_classifier_with_zipmap_is_refused_with_advice(tmp_path: Pa
     message = str(info.value)
     assert "'output_label' (int64)" in message and "'output_probability' (a sequence of maps)" in message
     assert "options={id(model): {'zipmap': False}}" in message
+
+
+# -- rows of outputs and hidden tensors, and module paths ------------------------------------
+
+
+def test_output_with_rows_last_is_read_rows_first(tmp_path) -> None:
+    model = OnnxModel(netbuild.rows_last_graph(tmp_path / "last.onnx"))
+    assert [(o.name, o.shape) for o in model.outputs] == [("y", (2,))]
+    assert any("rows along another axis" in note and "'y' (axis 1)" in note for note in model.notices)
+    x = RNG.normal(size=(7, 3))
+    a = np.array([[1.0, -0.5], [0.25, 2.0], [-1.0, 0.5]])
+    # reference: y[:, i] = tanh(x A)[i], the graph's own definition, rows first
+    np.testing.assert_allclose(model.evaluate(x).outputs, np.tanh(x @ a), rtol=1e-5, atol=1e-6)
+
+
+@pytest.mark.parametrize(
+    ("build", "words"),
+    [
+        (netbuild.batch_mean_graph, "one value per batch"),
+        (netbuild.pairwise_graph, "changes its width with the batch size"),
+        (netbuild.empty_input_graph, "dimension of size 0"),
+    ],
+)
+def test_outputs_without_rows_and_inputs_without_features_are_refused(tmp_path, build, words) -> None:
+    with pytest.raises(UserError, match=words):
+        OnnxModel(build(tmp_path / "m.onnx"))
+
+
+def test_module_paths_from_the_newer_exporters_metadata(tmp_path) -> None:
+    model = OnnxModel(netbuild.torch_scoped_graph(tmp_path / "scoped.onnx"))
+    layers = model.layers()
+    assert [(la.name, la.op, la.tensor) for la in layers] == [("enc.fc", "gemm", "linear"), ("enc.act", "relu", "relu")]
+    x = RNG.normal(size=(4, 3))
+    ev = model.evaluate(x, capture=["enc.fc", "enc.act"])
+    np.testing.assert_allclose(ev.hidden["enc.act"], np.maximum(ev.hidden["enc.fc"], 0), rtol=1e-6)
+
+
+def test_hidden_tensor_without_rows_is_left_out_with_a_notice(tmp_path) -> None:
+    # pairs = x xᵀ is (N, N): no single axis holds the rows; y = x + 0·max(pairs) is per row
+    graph = helper.make_graph(
+        [
+            helper.make_node("Transpose", ["x"], ["xt"], perm=[1, 0]),
+            helper.make_node("MatMul", ["x", "xt"], ["pairs"]),
+            helper.make_node("ReduceMax", ["pairs"], ["top"], keepdims=0),
+            helper.make_node("Mul", ["top", "zero"], ["nothing"]),
+            helper.make_node("Tanh", ["x"], ["t"]),
+            helper.make_node("Add", ["t", "nothing"], ["y"]),
+        ],
+        "pairs_inside",
+        [helper.make_tensor_value_info("x", TensorProto.FLOAT, ["N", 3])],
+        [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", 3])],
+        [numpy_helper.from_array(np.zeros(1, dtype=np.float32), "zero")],
+    )
+    model = OnnxModel(netbuild.save_onnx(graph, tmp_path / "pairs.onnx", opset=13))
+    assert [la.name for la in model.layers()] == ["t"]
+    assert any("left out" in n and "'pairs' (several of its axes change" in n for n in model.notices), model.notices

@@ -1,9 +1,10 @@
 """Reading an ONNX file: damaged files, external data, and the hidden tensors a graph offers.
 
 The expected layer list of :func:`netbuild.ops_graph` follows from its node list (every
-node output that depends on the input and is not a graph output, in graph order); bad
-files are built here (common practice, no source) and the assertions check the error type
-and the words a user needs to fix the problem.
+node output that depends on the input, is not a graph output and computes something, in
+graph order; the hand-made graph carries no module paths, so its tensors keep their
+names); bad files are built here (common practice, no source) and the assertions check the
+error type and the words a user needs to fix the problem.
 """
 
 from __future__ import annotations
@@ -19,7 +20,9 @@ import torch
 
 from audit.errors import UserError
 from audit.models import OnnxModel, open_model
-from audit.models.onnx_graph import hidden_tensors, load_proto, with_outputs
+from audit.models.graph import Const
+from audit.models.onnx_graph import load_proto, value_info, with_outputs
+from audit.models.onnx_layers import graph_nodes
 
 RNG = np.random.default_rng(20240612)
 
@@ -43,10 +46,11 @@ def _random_bytes(path: Path, size: int = 4096) -> Path:
 
 def test_ops_graph_layers(ops_model: OnnxModel) -> None:
     layers = {layer.name: layer for layer in ops_model.layers()}
-    # every node output except the graph output, in graph order
-    expected = ["conv", "relu", "flat", "gemm", "tanh", "matmul", "add", "sigmoid", "erf", "logits"]
+    # every node output except the graph output and the Flatten (a pure move), in graph order
+    expected = ["conv", "relu", "gemm", "tanh", "matmul", "add", "sigmoid", "erf", "logits"]
     assert list(layers) == expected
-    assert layers["conv"].op == "Conv" and layers["conv"].shape == (2, 4, 4)
+    assert all(layer.tensor == name for name, layer in layers.items())  # no module paths: tensor names
+    assert layers["conv"].op == "conv" and layers["conv"].shape == (2, 4, 4)
     assert layers["gemm"].shape == (6,) and layers["logits"].shape == (3,)
     active = {name for name, layer in layers.items() if layer.activation}
     assert active == {"relu", "tanh", "sigmoid", "erf"}
@@ -91,17 +95,19 @@ def test_external_data_missing(tmp_path: Path) -> None:
         open_model(str(path))
 
 
-def test_hidden_tensors_of_the_ops_graph(tmp_path: Path) -> None:
+def test_graph_nodes_of_the_ops_graph(tmp_path: Path) -> None:
     proto = load_proto(netbuild.ops_graph(tmp_path / "ops.onnx"))
-    candidates, shapes, unknown = hidden_tensors(proto, ["x"], None)
-    assert [name for name, _ in candidates] == [
-        "conv", "relu", "flat", "gemm", "tanh", "matmul", "add", "sigmoid", "erf", "logits"
+    nodes, returned = graph_nodes(proto, ["x"], value_info(proto))
+    assert [n.key for n in nodes] == [
+        "conv", "relu", "flat", "gemm", "tanh", "matmul", "add", "sigmoid", "erf", "logits", "y"
     ]  # fmt: skip
-    assert dict(candidates)["erf"] == "Erf"
-    # every tensor of this graph has a static shape, so inference knows them all
-    assert unknown == [] and shapes["flat"] == (32,) and shapes["conv"] == (2, 4, 4)
+    assert returned == {"y"}
+    by_key = {n.key: n for n in nodes}
+    assert by_key["erf"].op == "erf" and by_key["erf"].args == ("sigmoid",)
+    assert by_key["conv"].args[0] == "x" and by_key["conv"].args[1] == Const(None)  # weights
+    assert all(n.scope is None for n in nodes)  # hand-made: no module paths
     # nothing depends on a tensor that is not fed
-    assert hidden_tensors(proto, ["nothing"], None)[0] == []
+    assert graph_nodes(proto, ["nothing"], {})[0] == []
 
 
 def test_extended_model_returns_more_and_leaves_the_file_alone(tmp_path: Path) -> None:

@@ -155,23 +155,12 @@ def test_same_hidden_activations_in_every_format(mlp, mlp_models) -> None:
     x = RNG.normal(size=(6, 3))
     tanh, relu = _eager(net, x, 2), _eager(net, x, 4)
     pre = _eager(net, x, 1)  # output of net.0 (Linear), before Tanh
-    names = {
-        "torchscript": ("net.1", "net.3", "net.0"),
-        "state_dict": ("net.1", "net.3", "net.0"),
-        "pickle": ("net.1", "net.3", "net.0"),
-        "pt2": ("tanh", "relu", "linear"),
-        "pt2_fixed": ("tanh", "relu", "linear"),
-    }
+    wanted = ("net.1", "net.3", "net.0")  # one name in every format: the module path
     for kind, model in mlp_models.items():
         layers = model.layers()
-        if kind.startswith("onnx"):  # tensor names chosen by the exporter: find them by op
-            by_op: dict[str, str] = {}
-            for layer in layers:
-                by_op.setdefault(layer.op, layer.name)  # first of each op
-            wanted = (by_op["Tanh"], by_op["Relu"], by_op["Gemm"])
-        else:
-            wanted = names[kind]
         info = {layer.name: layer for layer in layers}
+        assert [la.name for la in layers] == ["net.0", "net.1", "net.2", "net.3"], kind
+        assert info["net.1"].op == "tanh" and info["net.3"].op == "relu", kind
         assert info[wanted[0]].activation and info[wanted[1]].activation, kind
         assert not info[wanted[2]].activation, kind
         assert all(info[w].shape == (5,) for w in wanted), kind
@@ -187,8 +176,7 @@ def test_cnn_all_layers_every_format(tmp_path) -> None:
     xt = torch.from_numpy(x.astype(np.float32)).reshape(7, 1, 8, 8)
     with torch.no_grad():
         ref, conv = net(xt).numpy(), net.conv(xt).reshape(7, -1).numpy()
-    conv_name = {"onnx": "Conv", "torchscript": "conv", "state_dict": "conv", "pt2": "conv2d"}
-    for kind, pick in conv_name.items():
+    for kind in ("onnx", "torchscript", "state_dict", "pt2"):
         kwargs = {"torch_class": "netbuild:TinyCNN"} if kind == "state_dict" else {}
         model = open_model(str(paths[kind]), input_shape=(1, 8, 8), **kwargs)
         layers = model.layers()
@@ -197,6 +185,34 @@ def test_cnn_all_layers_every_format(tmp_path) -> None:
         np.testing.assert_allclose(ev.outputs, ref, rtol=1e-5, atol=1e-6, err_msg=kind)
         for layer in layers:
             assert ev.hidden[layer.name].shape == (7, layer.units), (kind, layer)
-        name = next(la.name for la in layers if pick in (la.name, la.op))
-        assert dict((la.name, la.shape) for la in layers)[name] == (2, 8, 8)
-        np.testing.assert_allclose(ev.hidden[name], conv, rtol=1e-5, atol=1e-5, err_msg=kind)
+        assert [la.name for la in layers][:3] == ["conv", "act", "pool"], kind  # the same in every format
+        assert dict((la.name, la.shape) for la in layers)["conv"] == (2, 8, 8)
+        np.testing.assert_allclose(ev.hidden["conv"], conv, rtol=1e-5, atol=1e-5, err_msg=kind)
+
+
+def test_module_called_twice_is_numbered_in_every_format(tmp_path) -> None:
+    net = netbuild.seeded(netbuild.SharedAct, seed=3)
+    paths = netbuild.export_all(net, torch.zeros(4, 3), tmp_path, "shared")
+    x = RNG.normal(size=(6, 3))
+    with torch.no_grad():
+        first = torch.tanh(net.a(torch.from_numpy(x.astype(np.float32))))
+        second = torch.tanh(net.b(first))
+    for kind in ("onnx", "torchscript", "pt2", "state_dict"):
+        kwargs = {"torch_class": "netbuild:SharedAct"} if kind == "state_dict" else {}
+        model = open_model(str(paths[kind]), **kwargs)
+        assert [la.name for la in model.layers()] == ["a", "act", "b", "act#2"], kind
+        ev = model.evaluate(x, capture=["act", "act#2"])
+        np.testing.assert_allclose(ev.hidden["act"], first.numpy(), rtol=1e-5, atol=1e-6, err_msg=kind)
+        np.testing.assert_allclose(ev.hidden["act#2"], second.numpy(), rtol=1e-5, atol=1e-6, err_msg=kind)
+
+
+def test_zoo_models_have_one_layer_list_in_every_format() -> None:
+    zoo = Path(__file__).resolve().parents[2] / "model_zoo"
+    suffixes = (".onnx", ".pt2", ".pt")
+    names = {s: [la.name for la in open_model(str(zoo / f"greenhouse_v1{s}")).layers()] for s in suffixes}
+    assert names[".onnx"] == names[".pt2"] == names[".pt"]
+    body = ["body.0", "body.1", "body.2", "body.3", "body.4"]
+    assert names[".onnx"] == ["scale_in/sub", "scale_in", *body, "scale_out/mul"]
+    # Φ(z) = (1 + erf(z / √2)) / 2 is one function, traced (scalar constants) or exported: the model's output
+    for suffix in (".onnx", ".pt"):
+        assert [la.name for la in open_model(str(zoo / f"ridge_phi{suffix}")).layers()] == ["project"], suffix

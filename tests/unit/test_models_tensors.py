@@ -76,3 +76,13 @@ def test_words_for_outputs_left_out() -> None:
     assert "holds integers (int64)" in str(no_output_error("m.onnx", [("label", "int64")]))
     both = str(no_output_error("m.onnx", [("label", "int64"), ("probability", "a sequence of maps")]))
     assert "'label' (int64)" in both and "'probability' (a sequence of maps)" in both and "'zipmap': False" in both
+
+
+def test_rows_of_an_unexpected_size_are_a_user_error() -> None:
+    from audit.models.batch import BatchAxis
+    from audit.models.tensors import read_rows
+
+    value = np.arange(12.0).reshape(3, 4).T  # (4, 3): rows along axis 1
+    np.testing.assert_array_equal(read_rows(BatchAxis(1), value, 3, 4, "h", "m.onnx"), value.T)
+    with pytest.raises(UserError, match=r"'h' of 'm.onnx' came out with shape \(4, 3\).*5 values per row"):
+        read_rows(BatchAxis(1), value, 3, 5, "h", "m.onnx")

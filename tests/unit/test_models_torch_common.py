@@ -51,7 +51,7 @@ def test_unknown_capture_name(mlp_models) -> None:
 
 def test_float32_network_keeps_float32(mlp_models) -> None:
     x = RNG.normal(size=(4, 3))
-    captures = {"torchscript": "net.1", "pt2": "tanh", "state_dict": "net.1"}
+    captures = {"torchscript": "net.1", "pt2": "net.1", "state_dict": "net.1"}
     for kind, model in mlp_models.items():
         assert row_dtype(model) is np.float32, kind
         ev = model.evaluate(x, capture=[captures[kind]])
@@ -119,3 +119,37 @@ class _LabelOnly(torch.nn.Module):
 def test_only_integer_outputs_refused(tmp_path) -> None:
     with pytest.raises(UserError, match=r"output 'y' .* holds integers \(int64\).*scores"):
         _scripted(tmp_path, netbuild.seeded(_LabelOnly), "label.pt")
+
+
+def test_rows_that_depend_on_the_batch_are_refused_in_every_torch_format(tmp_path) -> None:
+    net = netbuild.seeded(netbuild.BatchCentred)
+    script = _scripted_path(tmp_path, net, "centred.pt")
+    state = tmp_path / "centred_state.pt"
+    torch.save(net.state_dict(), state)
+    program = tmp_path / "centred.pt2"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        dim = torch.export.Dim("batch")
+        torch.export.save(torch.export.export(net, (torch.zeros(4, 3),), dynamic_shapes=({0: dim},)), str(program))
+    for path, kwargs in ((script, {}), (program, {}), (state, {"torch_class": "netbuild:BatchCentred"})):
+        with pytest.raises(UserError, match=r"depend on the rest of the batch.*normalisation across rows"):
+            open_model(str(path), **kwargs)
+
+
+def test_randomness_left_on_is_refused(tmp_path) -> None:
+    net = netbuild.seeded(netbuild.Dropped).train()
+    program = tmp_path / "dropped.pt2"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        dim = torch.export.Dim("batch")
+        torch.export.save(torch.export.export(net, (torch.zeros(4, 3),), dynamic_shapes=({0: dim},)), str(program))
+    with pytest.raises(UserError, match=r"same batch is evaluated twice.*dropout.*model\.eval\(\)"):
+        open_model(str(program))
+
+
+def _scripted_path(tmp_path, net: torch.nn.Module, name: str):
+    path = tmp_path / name
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        torch.jit.script(net).save(str(path))
+    return path

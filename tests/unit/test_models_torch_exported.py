@@ -61,7 +61,7 @@ def test_batch_of_one_runs_row_by_row_with_a_notice(tmp_path: Path) -> None:
     x = RNG.normal(size=(5, 3))
     with torch.no_grad():
         ref = net(torch.from_numpy(x.astype(np.float32))).numpy()
-    np.testing.assert_allclose(model.evaluate(x, capture=["relu"]).outputs, ref, rtol=1e-5, atol=1e-6)
+    np.testing.assert_allclose(model.evaluate(x, capture=["net.3"]).outputs, ref, rtol=1e-5, atol=1e-6)
 
 
 class _Scaled(torch.nn.Module):

@@ -1,12 +1,14 @@
 """Torch models: TorchScript archives, ``torch.export`` programs and state dicts.
 
-:func:`open_torch` recognises the file by its content, never by unpickling
-anything first (:mod:`.load`):
+:func:`open_torch` first checks the declared sizes of a zip archive's members
+(:mod:`.archive`), then recognises the file by its content, never by
+unpickling anything first (:mod:`.load`):
 
 * a TorchScript archive (``torch.jit.save``) is loaded with ``torch.jit.load``
   (:mod:`.script`);
-* a ``torch.export`` program (``.pt2``, ``torch.export.save``) with
-  ``torch.export.load`` (:mod:`.exported`);
+* a ``torch.export`` program (``.pt2``, ``torch.export.save``, or a ``.pt``
+  holding one) with ``torch.export.load`` after checking that no member would
+  run code (:mod:`.archive`, :mod:`.exported`);
 * a ``torch.save`` file is read with ``torch.load(weights_only=True)``; a dict
   of tensors is a state dict, rebuilt with a user-named class
   ``package.module:Class`` and its keyword arguments (:mod:`.module`);
@@ -14,9 +16,9 @@ anything first (:mod:`.load`):
   is refused unless the user trusts it, because unpickling runs code from the
   file.
 
-Layer shapes are learnt from one probe forward pass on a few rows. Everything
-runs under ``torch.inference_mode()`` in the model's own precision
-(:mod:`.common`).
+Outputs and layers are learnt from a probe evaluated in two batches, which
+also finds the axis that holds the rows of every tensor. Everything runs under
+``torch.inference_mode()`` in the model's own precision (:mod:`.common`).
 """
 
 from __future__ import annotations
@@ -28,15 +30,15 @@ from typing import Any
 import torch
 
 from ..tensors import InputShape
-from .common import ACTIVATION_MODULES, TorchModel
-from .exported import ACTIVATION_TARGETS, ExportedModel
+from .archive import check_sizes
+from .common import TorchModel
+from .exported import ExportedModel
 from .load import check_file, load_weights, rebuild, sniff, state_dict
-from .module import ModuleModel
+from .module import ACTIVATION_MODULES, ModuleModel
 from .script import SHAPE_FILE, ScriptModel
 
 __all__ = [
     "ACTIVATION_MODULES",
-    "ACTIVATION_TARGETS",
     "SHAPE_FILE",
     "ExportedModel",
     "ModuleModel",
@@ -66,8 +68,9 @@ def open_torch(
     torch_arguments : dict, optional
         Keyword arguments for ``torch_class``.
     trust : bool
-        Load a file holding a whole pickled ``nn.Module``. Unpickling runs
-        code from the file, so this is off by default.
+        Load a file holding a whole pickled ``nn.Module``, or a ``torch.export``
+        program with members that could run code. Unpickling runs code from
+        the file, so this is off by default.
     input_shape : tuple of int or dict of str to tuple of int, optional
         Non-batch shape of the input, or ``{argument name: shape}`` when the
         forward takes several tensors. Torch files do not store it, except
@@ -81,10 +84,11 @@ def open_torch(
     """
     path = Path(path)
     check_file(path)
+    check_sizes(path)
     torch.set_num_threads(os.cpu_count() or 1)
     kind = sniff(path)
     if kind == "export":
-        return ExportedModel(path, input_shape=input_shape)
+        return ExportedModel(path, input_shape=input_shape, trust=trust)
     if kind == "torchscript":
         return ScriptModel(path, input_shape=input_shape)
     obj = load_weights(path, trust)

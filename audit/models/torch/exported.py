@@ -1,35 +1,33 @@
-"""``torch.export`` programs (``.pt2``): layers are graph nodes (``relu``, ``linear_1``).
+"""``torch.export`` programs (``.pt2``): layers are graph nodes, named by module path.
 
-Captured nodes are added to the outputs of a copy of the program's graph module
-(one copy per distinct set of captured names, cached).
+The program is read without running code from the file (:mod:`.archive`). Its
+ATen graph becomes backend-neutral nodes (:mod:`..graph`), each scoped by the
+module in the last entry of its ``nn_module_stack``; the layers are named by
+:func:`audit.models.graph.name_layers` (``body.1``, ``encoder.attn/softmax``),
+the graph node (``tanh_1``) kept as the detail. Captured nodes are added to the
+outputs of a copy of the program's graph module (one copy per distinct set of
+captured nodes, cached).
 """
 
 from __future__ import annotations
 
+import operator
 import warnings
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import torch
 from torch.utils import _pytree as pytree
 
 from ...errors import UserError
-from ..base import LayerInfo, TensorInfo, feature_count
+from ..base import TensorInfo
+from ..graph import Const, Layer, Node, name_layers, op_name
+from ..patterns import fuse
 from ..tensors import InputShape, input_shapes
+from .archive import read_program
 from .common import TorchModel, dtype_name, leaves, shape_error
 
-__all__ = ["ACTIVATION_TARGETS", "ExportedModel"]
-
-#: ATen operator names (in ``torch.export`` graphs) whose output counts as an activation.
-ACTIVATION_TARGETS = frozenset(
-    {
-        "relu", "relu6", "leaky_relu", "prelu", "_prelu_kernel", "rrelu", "elu", "selu",
-        "celu", "gelu", "silu", "mish", "tanh", "sigmoid", "hardtanh", "hardsigmoid",
-        "hardswish", "softplus", "softshrink", "hardshrink", "log_sigmoid", "softmax",
-        "_softmax", "log_softmax", "_log_softmax", "erf", "glu", "threshold",
-    }
-)  # fmt: skip
+__all__ = ["ExportedModel", "program_nodes"]
 
 
 def _narrow(a: tuple[int, int | None], b: tuple[int, int | None]) -> tuple[int, int | None]:
@@ -58,12 +56,15 @@ class ExportedModel(TorchModel):
 
     format = "torch-export"
 
-    def __init__(self, path: Path, *, input_shape: InputShape | None = None) -> None:
+    def __init__(self, path: Path, *, input_shape: InputShape | None = None, trust: bool = False) -> None:
+        data = read_program(path, trust)
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                program = torch.export.load(str(path))
+                program = torch.export.load(data)
                 self.module = program.module()
+        except UserError:
+            raise
         except Exception as exc:
             raise UserError(
                 f"The torch.export program '{path}' could not be loaded ({type(exc).__name__}: "
@@ -158,38 +159,84 @@ class ExportedModel(TorchModel):
             captured[name] for name in capture
         ]
 
-    def _discover_layers(self) -> list[LayerInfo]:
-        output = next(n for n in self.module.graph.nodes if n.op == "output")
-        returned = {n.name for n in pytree.tree_leaves(output.args) if isinstance(n, torch.fx.Node)}
-        candidates = []
-        for node in self.module.graph.nodes:
-            value = node.meta.get("val")
-            if (
-                node.op == "call_function"
-                and node.name not in returned
-                and isinstance(value, torch.Tensor)
-                and value.is_floating_point()
-                and value.ndim >= 1
-            ):
-                candidates.append(node)
-        if not candidates:
-            return []
-        names = tuple(node.name for node in candidates)
-        rows = self._probe_rows()
-        _, values = self._run(np.zeros((rows, feature_count(self))), names)
-        self._modules.pop(tuple(sorted(names)), None)
-        layers = []
-        for node, value in zip(candidates, values, strict=True):
-            if value.shape[0] != rows:
-                continue
-            target = node.target
-            schema = getattr(target, "_schema", None)
-            op = (
-                schema.name.split("::")[-1]
-                if schema is not None
-                else getattr(target, "__name__", str(target))
-            )
-            layers.append(
-                LayerInfo(node.name, op, tuple(value.shape[1:]), op in ACTIVATION_TARGETS)
-            )
-        return layers
+    def _release(self, keys: tuple[str, ...]) -> None:
+        self._modules.pop(tuple(sorted(keys)), None)
+
+    def _candidates(self) -> list[Layer]:
+        nodes, returned = program_nodes(self.module.graph, self.module)
+        return name_layers(fuse(nodes, returned), returned)
+
+
+def _scope(node: torch.fx.Node) -> str:
+    """Module path of the last entry of the node's ``nn_module_stack`` (``""`` at the top)."""
+    stack = node.meta.get("nn_module_stack") or {}
+    if not stack:
+        return ""
+    path = list(stack.values())[-1][0]
+    return path if isinstance(path, str) and not path.startswith("_") else ""
+
+
+def _op(node: torch.fx.Node) -> str:
+    schema = getattr(node.target, "_schema", None)
+    return op_name(schema.name if schema is not None else getattr(node.target, "__name__", str(node.target)))
+
+
+def _arg(value: Any, made: dict[torch.fx.Node, str], scalars: dict[torch.fx.Node, float]) -> str | Const:
+    if isinstance(value, torch.fx.Node):
+        return made.get(value, Const(scalars.get(value)))
+    if isinstance(value, bool):
+        return Const(float(value))
+    if isinstance(value, int | float):
+        return Const(float(value))
+    return Const()
+
+
+def _scalars(graph: torch.fx.Graph, owner: torch.nn.Module | None) -> dict[torch.fx.Node, float]:
+    """The values of the one-element constants (``get_attr``) of ``graph``."""
+    found: dict[torch.fx.Node, float] = {}
+    for node in graph.nodes:
+        if node.op != "get_attr" or owner is None:
+            continue
+        value: Any = owner
+        for part in str(node.target).split("."):
+            value = getattr(value, part, None)
+        if isinstance(value, torch.Tensor) and value.numel() == 1 and not value.is_complex():
+            found[node] = float(value.detach().reshape(-1)[0])
+    return found
+
+
+def program_nodes(graph: torch.fx.Graph, owner: torch.nn.Module | None = None) -> tuple[list[Node], set[str]]:
+    """The graph of a program's module as backend-neutral nodes, and the names of the returned ones.
+
+    Tensor-producing ``call_function`` nodes computed from the placeholders
+    become nodes (an operator returning several tensors is read through its
+    ``getitem`` nodes); parameters, constants and shape arithmetic become
+    constant arguments (with their value when ``owner``, the graph's module,
+    holds a one-element constant).
+    """
+    made: dict[torch.fx.Node, str] = {}
+    scalars = _scalars(graph, owner)
+    dynamic = {n for n in graph.nodes if n.op == "placeholder"}
+    made.update((n, n.name) for n in dynamic)
+    nodes: list[Node] = []
+    for node in graph.nodes:
+        if node.op != "call_function":
+            continue
+        inputs = node.all_input_nodes
+        if not any(i in dynamic for i in inputs):
+            continue
+        dynamic.add(node)
+        source, index = node, 0
+        if node.target is operator.getitem and isinstance(node.args[0], torch.fx.Node):
+            source = node.args[0]  # one tensor of an operator that returns several
+            index = node.args[1] if isinstance(node.args[1], int) else 0
+        value = node.meta.get("val")
+        if not isinstance(value, torch.Tensor):
+            continue
+        made[node] = node.name
+        args = tuple(_arg(a, made, scalars) for a in source.args)
+        candidate = value.is_floating_point() and value.ndim >= 1
+        nodes.append(Node(node.name, _op(source), args, _scope(source), candidate, output=index))
+    output = next(n for n in graph.nodes if n.op == "output")
+    returned = {n.name for n in pytree.tree_leaves(output.args) if isinstance(n, torch.fx.Node)}
+    return nodes, returned

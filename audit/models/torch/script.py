@@ -1,9 +1,13 @@
-"""TorchScript archives: layers by graph surgery.
+"""TorchScript archives: layers by graph surgery, named by module path.
 
 TorchScript modules have no forward hooks, so the forward graph is inlined
-(every node keeps the module it came from) and, for each submodule, the one
-tensor leaving it is added to the graph's outputs; layers are named by the
-submodule's qualified name (``net.1``), as for eager modules.
+(every node keeps the module it came from) and read as backend-neutral nodes
+(:func:`script_nodes`); the layers are named by
+:func:`audit.models.graph.name_layers` (``net.1``, ``block/gelu``), the value's
+debug name kept as the detail. Tuples and lists that carry tensors across
+module boundaries are seen through, so a module returning ``(out, weights)``
+still has ``out`` as its output. Captured values are added to the outputs of a
+fresh inlined copy of the graph (one function per distinct set, cached).
 """
 
 from __future__ import annotations
@@ -19,11 +23,12 @@ from typing import Any
 import torch
 
 from ...errors import UserError
-from ..base import LayerInfo
+from ..graph import Const, Layer, Node, name_layers, op_name
+from ..patterns import fuse
 from ..tensors import InputShape, input_shapes
-from .common import ACTIVATION_MODULES, TorchModel, float_dtype, input_tensors, leaves, shape_error
+from .common import TorchModel, float_dtype, input_tensors, leaves, shape_error
 
-__all__ = ["SHAPE_FILE", "ScriptModel"]
+__all__ = ["SHAPE_FILE", "ModulePaths", "ScriptModel", "script_nodes"]
 
 #: Extra file of a TorchScript archive where netdim (and the model zoo) record the input shape:
 #: ``{"input_shape": [1, 8, 8]}``, or one per forward argument ``{"input_shape": {"a": [3], ...}}``;
@@ -54,22 +59,152 @@ def _module_path(node: torch._C.Node) -> tuple[tuple[str, str], ...]:
     )
 
 
-def _top_node(node: torch._C.Node, block: torch._C.Block) -> torch._C.Node | None:
-    """The node of ``block`` that contains ``node`` (itself, or a control-flow node)."""
-    while node.owningBlock() != block:
-        owner = node.owningBlock().owningNode()
-        if owner is None:
-            return None
-        node = owner
-    return node
+class ModulePaths:
+    """Full module paths of TorchScript call stacks.
+
+    A call through a ``ModuleList`` or ``ModuleDict`` (``self.fc[0](h)``) records only the
+    called module's own name (``0``): the container is never called. The missing steps
+    are found in the module tree, where exactly one uncalled container holds the name.
+    """
+
+    def __init__(self, module: Any) -> None:
+        self.children: dict[str, dict[str, Any]] = {}
+        self._walk(module, "")
+
+    def _walk(self, module: Any, path: str) -> None:
+        kids = dict(module.named_children())
+        self.children[path] = kids
+        for name, child in kids.items():
+            self._walk(child, f"{path}.{name}" if path else name)
+
+    def __call__(self, stack: Sequence[tuple[str, str]]) -> str:
+        path = ""
+        for inst, _ in stack:
+            kids = self.children.get(path, {})
+            if inst not in kids:
+                holders = [c for c in kids if inst in self.children.get(f"{path}.{c}" if path else c, {})]
+                if len(holders) == 1:
+                    path = f"{path}.{holders[0]}" if path else holders[0]
+            path = f"{path}.{inst}" if path else inst
+        return path
+
+
+_CARRIERS = frozenset({"prim::TupleConstruct", "prim::ListConstruct"})
+_OPENERS = frozenset({"prim::TupleUnpack", "prim::ListUnpack"})
+_PICKERS = frozenset({"prim::TupleIndex", "aten::__getitem__"})
+
+
+def _constant(value: torch._C.Value) -> Const:
+    node = value.node()
+    if node.kind() == "prim::Constant":
+        try:
+            ivalue = value.toIValue()
+        except Exception:  # a constant of a type Python cannot hold
+            return Const()
+        if isinstance(ivalue, bool | int | float):
+            return Const(float(ivalue))
+        if isinstance(ivalue, torch.Tensor) and ivalue.numel() == 1 and not ivalue.is_complex():
+            return Const(float(ivalue.item()))  # a traced scalar constant
+    return Const()
+
+
+def _flat(item: Any) -> list[str]:
+    if isinstance(item, str):
+        return [item]
+    if isinstance(item, list):
+        return [k for sub in item for k in _flat(sub)]
+    return []
+
+
+def script_nodes(
+    graph: torch._C.Graph, paths: ModulePaths | None = None
+) -> tuple[list[Node], set[str], dict[str, torch._C.Value]]:
+    """An inlined forward graph as backend-neutral nodes.
+
+    Parameters
+    ----------
+    graph : torch._C.Graph
+    paths : ModulePaths, optional
+        Completes module paths through uncalled containers.
+
+    Returns
+    -------
+    nodes : list of Node
+        One per tensor made by a top-level node computed from the inputs.
+    returned : set of str
+        Keys of the tensors the forward returns (through tuples too).
+    values : dict of str to Value
+        The graph value of every key.
+    """
+    block = graph.block()
+    inputs = list(graph.inputs())[1:]
+    key: dict[int, Any] = {v.unique(): v.debugName() for v in inputs}  # tensor key, or carried keys
+    values = {v.debugName(): v for v in inputs}
+    dynamic = {v.unique() for v in inputs}
+    nodes: list[Node] = []
+    scope_of: dict[int, str] = {}
+    for node in block.nodes():
+        inner = [v for b in node.blocks() for n in _walk(b) for v in n.inputs()]
+        reads = [*node.inputs(), *inner]
+        if not any(v.unique() in dynamic for v in reads):
+            continue
+        dynamic.update(v.unique() for v in node.outputs())
+        kind = node.kind()
+        if kind in _CARRIERS:
+            key[node.output().unique()] = [key.get(v.unique()) for v in node.inputs()]
+            continue
+        stack = _module_path(node)
+        scope = paths(stack) if paths is not None else ".".join(inst for inst, _ in stack)
+        op = op_name(kind)
+        if kind in _OPENERS or kind in _PICKERS:
+            carried = key.get(node.inputsAt(0).unique())
+            producer = node.inputsAt(0).node()
+            if not isinstance(carried, list) and producer.outputsSize() == 1:
+                # a tuple made where this graph cannot see (a call's return inside control flow):
+                # its tensors are the producer's, made in its scope
+                scope, op = scope_of.get(producer.output().unique(), scope), op_name(producer.kind())
+            if isinstance(carried, list):
+                if kind in _OPENERS:
+                    for i, out in enumerate(node.outputs()):
+                        key[out.unique()] = carried[i] if i < len(carried) else None
+                    continue
+                index = _constant(node.inputsAt(1)).value
+                if index is not None and int(index) < len(carried):
+                    key[node.output().unique()] = carried[int(index)]
+                    continue
+        args = tuple(
+            key[v.unique()] if isinstance(key.get(v.unique()), str) else _constant(v) for v in node.inputs()
+        )
+        extra = tuple(k for v in reads if isinstance(key.get(v.unique()), list) for k in _flat(key[v.unique()]))
+        extra += tuple(key[v.unique()] for v in inner if isinstance(key.get(v.unique()), str))
+        for index, out in enumerate(node.outputs()):
+            scope_of[out.unique()] = scope
+            if not isinstance(out.type(), torch._C.TensorType):
+                continue
+            name = out.debugName()
+            key[out.unique()] = name
+            values[name] = out
+            nodes.append(Node(name, op, args, scope, True, extra, index if node.outputsSize() > 1 else 0))
+    returned = {k for v in graph.outputs() for k in _flat(key.get(v.unique()))}
+    return nodes, returned, values
+
+
+def _walk(block: torch._C.Block) -> list[torch._C.Node]:
+    """Every node of a block, its sub-blocks' nodes included."""
+    found = []
+    for node in block.nodes():
+        found.append(node)
+        for sub in node.blocks():
+            found.extend(_walk(sub))
+    return found
 
 
 class ScriptModel(TorchModel):
-    """A TorchScript archive. Layers are submodules, named by qualified name.
+    """A TorchScript archive. Layers are tensors of the inlined graph, named by module path.
 
     TorchScript modules have no forward hooks, so the forward graph is
-    inlined (every node keeps the module it came from) and, for each
-    submodule, the one tensor leaving it is added to the graph's outputs.
+    inlined (every node keeps the module it came from) and the captured
+    values are added to the graph's outputs.
     """
 
     format = "torchscript"
@@ -87,6 +222,7 @@ class ScriptModel(TorchModel):
                 "damaged or was saved by an incompatible torch version: save it again."
             ) from exc
         self._functions: dict[tuple[str, ...], Any] = {}
+        self._paths = ModulePaths(self.module)
         names = self._arguments(path)
         given = input_shapes(input_shape, names, str(path)) or _recorded_shapes(extra[SHAPE_FILE], names, path)
         dtype = float_dtype(list(self.module.parameters()) + list(self.module.buffers()))
@@ -115,55 +251,23 @@ class ScriptModel(TorchModel):
                 )
         return names
 
-    def _inlined(self) -> tuple[torch._C.Graph, dict[str, tuple[torch._C.Value, str]]]:
-        """A fresh inlined copy of the forward graph and, per submodule, its output value."""
+    def _inlined(self) -> torch._C.Graph:
+        """A fresh inlined copy of the forward graph."""
         graph = self.module.graph.copy()
         torch._C._jit_pass_inline(graph)
         with contextlib.suppress(Exception):  # in-place ops would alter captured values
             torch._C._jit_pass_remove_mutation(graph)
-        block = graph.block()
-        nodes = list(block.nodes())
-        paths = {node: _module_path(node) for node in nodes}
-        leaving: dict[tuple[str, ...], list[torch._C.Value]] = {}
-        kinds: dict[tuple[str, ...], str] = {}
-        returned = {v.unique() for v in graph.outputs()}
-        for node in nodes:
-            path = paths[node]
-            for depth in range(1, len(path) + 1):
-                prefix = tuple(inst for inst, _ in path[:depth])
-                kinds[prefix] = path[depth - 1][1]
-                for value in node.outputs():
-                    if not isinstance(value.type(), torch._C.TensorType):
-                        continue
-                    outside = value.unique() in returned or any(
-                        (top := _top_node(use.user, block)) is None
-                        or tuple(i for i, _ in paths.get(top, ()))[:depth] != prefix
-                        for use in value.uses()
-                    )
-                    if outside:
-                        leaving.setdefault(prefix, []).append(value)
-        found: dict[str, tuple[torch._C.Value, str]] = {}
-        owner: dict[int, str] = {}
-        # deepest module first, so a container never takes the name of its last child's output
-        for prefix in sorted(leaving, key=len, reverse=True):
-            values = {v.unique(): v for v in leaving[prefix]}
-            if len(values) != 1:
-                continue
-            ((uid, value),) = values.items()
-            if uid in owner or uid in returned:
-                continue
-            owner[uid] = ".".join(prefix)
-            found[".".join(prefix)] = (value, kinds[prefix])
-        order = {v.unique(): i for i, node in enumerate(nodes) for v in node.outputs()}
-        found = dict(sorted(found.items(), key=lambda item: order[item[1][0].unique()]))
-        return graph, found
+        with contextlib.suppress(Exception):  # scalar arithmetic (1 / math.sqrt(2)) into constants
+            torch._C._jit_pass_constant_propagation(graph)
+        return graph
 
-    def _function(self, names: tuple[str, ...]) -> Any:
-        key = tuple(sorted(names))
+    def _function(self, keys: tuple[str, ...]) -> Any:
+        key = tuple(sorted(keys))
         if key not in self._functions:
-            graph, found = self._inlined()
+            graph = self._inlined()
+            _, _, values = script_nodes(graph, self._paths)
             for name in key:
-                graph.registerOutput(found[name][0])
+                graph.registerOutput(values[name])
             graph.makeMultiOutputIntoTuple()
             fname = f"netdim_capture_{len(self._functions)}"
             self._functions[key] = (torch._C._create_function_from_graph(fname, graph), key)
@@ -179,24 +283,12 @@ class ScriptModel(TorchModel):
         captured = dict(zip(key, result[1:], strict=True))
         return leaves(result[0]), [captured[name] for name in capture]
 
-    def _discover_layers(self) -> list[LayerInfo]:
-        _, found = self._inlined()
-        names = tuple(found)
-        if not names:
-            return []
-        rows = self._probe_rows()
-        function, key = self._function(names)
-        with torch.inference_mode():
-            result = function(self.module._c, *self._zeros())
-        values = dict(zip(key, result[1:], strict=True))
-        layers = []
-        for name in names:
-            value = values[name]
-            if value.is_floating_point() and value.ndim >= 1 and value.shape[0] == rows:
-                op = found[name][1]
-                layers.append(LayerInfo(name, op, tuple(value.shape[1:]), op in ACTIVATION_MODULES))
-        self._functions.pop(tuple(sorted(names)), None)
-        return layers
+    def _release(self, keys: tuple[str, ...]) -> None:
+        self._functions.pop(tuple(sorted(keys)), None)
+
+    def _candidates(self) -> list[Layer]:
+        nodes, returned, _ = script_nodes(self._inlined(), self._paths)
+        return name_layers(fuse(nodes, returned), returned)
 
     def _infer_shape(self, path: Path) -> tuple[int, ...]:
         graph = self.module.graph.copy()
@@ -205,7 +297,7 @@ class ScriptModel(TorchModel):
         for node in graph.nodes():
             if node.kind() in ("aten::linear", "aten::conv1d", "aten::conv2d", "aten::conv3d",
                                "aten::_convolution"):  # fmt: skip
-                path_names = [inst for inst, _ in _module_path(node)]
+                path_names = self._paths(_module_path(node)).split(".")
                 if node.kind() != "aten::linear" or node.inputsAt(0).unique() != x.unique():
                     break
                 sub = self.module
