@@ -60,7 +60,7 @@ def _open(args: argparse.Namespace, spec: Any, ref: str | None = None) -> Any:
         kwargs["torch_arguments"] = _json_arg(args.torch_args, "--torch-args") or spec.model.get("arguments", {})
     if args.trust_pickle:
         kwargs["trust"] = True
-    shape = _shape_arg(args.input_shape) or (tuple(spec.model["input_shape"]) if "input_shape" in spec.model else None)
+    shape = _shape_arg(args.input_shape) or spec.model.get("input_shape")
     if shape is not None:
         kwargs["input_shape"] = shape
     return open_model(ref or args.model, **kwargs)

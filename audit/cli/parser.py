@@ -48,7 +48,8 @@ def _model_loading(p: argparse.ArgumentParser) -> None:
     g.add_argument(
         "--trust-pickle",
         action="store_true",
-        help="allow loading a whole pickled Torch module (runs code from the file: only for files you trust)",
+        help="allow loading pickled Python objects from a Torch file: a whole module, or a .pt2 program's "
+        "pickled members (runs code from the file: only for files you trust)",
     )
 
 

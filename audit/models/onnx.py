@@ -153,11 +153,11 @@ class OnnxModel:
             if shape is not None and wanted != shape:
                 raise UserError(
                     f"The input shape {wanted} given for '{meta.name}' of '{self.path}' does not match "
-                    f"the model's own input shape {shape}. Leave --input-shape out for this model."
+                    f"the model's own input shape {shape}. Leave `input_shape` out for this model."
                 )
             return wanted
         if shape is None:
-            example = "--input-shape 1,8,8" if count == 1 else f"input_shape={{'{meta.name}': (1, 8, 8), ...}}"
+            example = "`input_shape` 1,8,8" if count == 1 else f"input_shape={{'{meta.name}': (1, 8, 8), ...}}"
             raise UserError(
                 f"The input '{meta.name}' of the ONNX model '{self.path}' has shape {meta.shape} "
                 f"with symbolic non-batch dimensions. Give the shape of one input row, e.g. {example}."

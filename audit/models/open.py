@@ -75,8 +75,8 @@ def open_model(
         func = import_reference(ref)
         if dim is None:
             raise UserError(
-                f"The input dimension of the Python model '{ref}' is unknown: give --dim D "
-                "or an input spec file (--inputs SPEC.toml) that lists its features."
+                f"The input dimension of the Python model '{ref}' is unknown: give `dim` (the "
+                "number of inputs) or an input spec (`inputs`) that lists its features."
             )
         python = PythonModel(func, dim, source=ref)
         _add_notice(python, shadow_notice(ref.partition(":")[0]))

@@ -153,6 +153,6 @@ class PythonModel:
 
     def evaluate(self, x: np.ndarray, capture: Sequence[str] = ()) -> Evaluation:
         if capture:
-            raise UserError("A Python model has no hidden layers to capture; use --layers none.")
+            raise UserError("A Python model has no hidden layers to capture; set `layers` to none.")
         y = self._call(np.ascontiguousarray(x, dtype=np.float64))
         return Evaluation(outputs=y.reshape(len(x), -1))

@@ -75,15 +75,21 @@ class _Signature:
 
     def _layers(self, layers: Sequence[LayerEntry]) -> Table:
         columns = [("layer", "name"), ("op", "text"), ("shape", "text"), ("units", "num"), ("activation", "text")]
+        detail = any(layer.tensor and layer.tensor != layer.name for layer in layers)
+        if detail:
+            columns.append(("tensor in the file", "name"))
         table = self._table(f"Probe-able layers ({len(layers)})", columns)
         for layer in layers:
-            table.add_row(
+            cells = [
                 self._text(layer.name),
                 self._text(layer.op),
                 format_shape(layer.shape),
                 str(layer.units),
                 "yes" if layer.activation else "no",
-            )
+            ]
+            if detail:
+                cells.append(self._text(layer.tensor if layer.tensor != layer.name else ""))
+            table.add_row(*cells)
         return table
 
     def __rich_console__(self, console: Console, options: ConsoleOptions) -> RenderResult:

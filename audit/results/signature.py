@@ -33,19 +33,21 @@ class TensorEntry:
 
 @dataclass(frozen=True)
 class LayerEntry:
-    """One hidden tensor that can be captured."""
+    """One hidden tensor that can be captured: its name in every format, and the format's own tensor."""
 
     name: str
     op: str
     shape: tuple[int, ...]
     activation: bool
+    tensor: str = ""
 
     @property
     def units(self) -> int:
         return int(math.prod(self.shape)) if self.shape else 1
 
     def to_dict(self) -> dict[str, Any]:
-        return {"name": self.name, "op": self.op, "shape": list(self.shape), "activation": self.activation}
+        d = {"name": self.name, "op": self.op, "shape": list(self.shape), "activation": self.activation}
+        return {**d, "tensor": self.tensor} if self.tensor else d
 
 
 @dataclass(frozen=True)

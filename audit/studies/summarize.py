@@ -241,7 +241,9 @@ def model_signature(model: Model) -> ModelSignature:
     def tensor(t: Any) -> TensorEntry:
         return TensorEntry(t.name, tuple(t.shape), t.dtype)
 
-    layers = [LayerEntry(x.name, x.op, tuple(x.shape), x.activation) for x in model.layers()]
+    layers = [
+        LayerEntry(x.name, x.op, tuple(x.shape), x.activation, getattr(x, "tensor", "")) for x in model.layers()
+    ]
     return ModelSignature(
         model.source,
         model.format,

@@ -203,7 +203,7 @@ CASES = {
     ),
     "[model] input_shape as text": (
         lambda t, g: ["audit", str(g["torchscript"]), "--inputs", _spec(t, '[model]\ninput_shape = "3"\n')],
-        "not a list of positive whole numbers",
+        "must be a list of positive whole numbers",
     ),
 }
 

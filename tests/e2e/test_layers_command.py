@@ -41,11 +41,6 @@ def test_the_format_tensor_is_kept_with_every_layer(paths) -> None:
     assert pt2["gelu"] == "gelu" and pt2["fc.0"] == "linear"
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="the layers table (audit/report/signature.py) and LayerEntry (audit/results/signature.py) do not "
-    "show LayerInfo.tensor yet; see the backends report",
-)
 def test_layers_command_shows_the_tensor_detail(paths, capsys) -> None:
     assert main(["layers", str(paths["onnx"])]) == 0
     assert "/gelu/Mul_1_output_0" in capsys.readouterr().out

@@ -185,7 +185,7 @@ def test_symbolic_feature_dims_need_input_shape(tmp_path: Path) -> None:
         [helper.make_tensor_value_info("y", TensorProto.FLOAT, ["N", "F"])],
     )
     path = netbuild.save_onnx(graph, tmp_path / "sym.onnx")
-    with pytest.raises(UserError, match=r"--input-shape"):
+    with pytest.raises(UserError, match=r"`input_shape`"):
         open_model(str(path))
     assert open_model(str(path), input_shape=(4,)).inputs[0].units == 4
 

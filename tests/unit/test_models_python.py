@@ -60,7 +60,7 @@ def test_references() -> None:
         import_reference("math")
     with pytest.raises(UserError, match=r"has no attribute 'sqrtt'.*Did you mean 'sqrt'"):
         import_reference("math:sqrtt")
-    with pytest.raises(UserError, match="--dim D"):
+    with pytest.raises(UserError, match="`dim`"):
         open_model("math:sqrt")
     model = open_model("clifuncs:two_outputs", dim=3)
     assert model.format == "python" and feature_count(model) == 3

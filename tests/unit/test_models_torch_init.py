@@ -35,7 +35,7 @@ def test_input_shape_inference_and_override(tmp_path) -> None:
     paths = netbuild.export_all(net, torch.zeros(2, 1, 8, 8), tmp_path, "cnn")
     for kind in ("torchscript", "state_dict"):
         kwargs = {"torch_class": "netbuild:TinyCNN"} if kind == "state_dict" else {}
-        with pytest.raises(UserError, match=r"--input-shape 1,8,8"):
+        with pytest.raises(UserError, match=r"`input_shape` 8 or 1,8,8"):
             open_model(str(paths[kind]), **kwargs)
         model = open_model(str(paths[kind]), input_shape=(1, 8, 8), **kwargs)
         assert model.inputs[0].shape == (1, 8, 8) and model.inputs[0].units == 64
@@ -43,7 +43,7 @@ def test_input_shape_inference_and_override(tmp_path) -> None:
     assert exported.inputs[0].shape == (1, 8, 8)
     with pytest.raises(UserError, match="does not match"):
         open_model(str(paths["pt2"]), input_shape=(64,))
-    with pytest.raises(UserError, match=r"--input-shape"):
+    with pytest.raises(UserError, match=r"`input_shape`"):
         open_model(str(paths["torchscript"]), input_shape=(5,))  # runs, and fails to
 
 

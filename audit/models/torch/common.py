@@ -78,7 +78,7 @@ def shape_error(path: Path, what: str, names: Sequence[str] = ("x",)) -> UserErr
     if len(names) == 1:
         return UserError(
             f"The input shape of the Torch model '{path}' is unknown: {what}. Give the shape of one "
-            "input row (without the batch axis), e.g. --input-shape 8 or --input-shape 1,8,8."
+            "input row (without the batch axis), e.g. `input_shape` 8 or 1,8,8."
         )
     listed = ", ".join(f"'{n}'" for n in names)
     return UserError(
@@ -300,7 +300,7 @@ class TorchModel:
         return UserError(
             f"The Torch model '{self.path}' failed on a batch of {n} rows of input shape "
             f"{shapes} ({type(exc).__name__}: {first}). If the input shape "
-            "is wrong, give the shape of one input row, e.g. --input-shape 1,8,8."
+            "is wrong, give the shape of one input row, e.g. `input_shape` 1,8,8."
         )
 
     def _run(

@@ -125,7 +125,7 @@ class ExportedModel(TorchModel):
         if wanted is not None and known is not None and wanted != known:
             raise UserError(
                 f"The input shape {wanted} given for '{node.name}' of '{path}' does not match the "
-                f"program's own input shape {known}. Leave --input-shape out for this model."
+                f"program's own input shape {known}. Leave `input_shape` out for this model."
             )
         shape = known if known is not None else wanted
         if shape is None:

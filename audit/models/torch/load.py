@@ -24,7 +24,7 @@ from ..python import import_reference
 
 __all__ = ["check_file", "load_weights", "rebuild", "sniff", "state_dict"]
 
-_TRUST_FLAG = "--trust-pickle"
+_TRUST_FLAG = "`trust`"
 # First bytes of the legacy (pre-zip) torch.save format: a pickled magic number.
 _LEGACY_MAGIC = b"\x80\x02\x8a\x0al\xfc\x9cF\xf9 j\xa8P\x19"
 
@@ -99,7 +99,7 @@ def _refuse_pickle(path: Path) -> UserError:
         f"torch.save(model){seen}. netdim does not load it, because unpickling can run "
         "arbitrary code stored in the file. Safer: save the model as TorchScript "
         "(torch.jit.save), as a torch.export program (.pt2), or save model.state_dict() and give "
-        f"--torch-class package.module:Class. If you trust the file and its source, pass "
+        f"`torch_class` package.module:Class. If you trust the file and its source, pass "
         f"{_TRUST_FLAG} to load it anyway."
     )
 
@@ -175,7 +175,7 @@ def rebuild(
         raise UserError(
             f"'{path}' is a state dict ({len(state)} tensors such as {_short(list(state), 2)}): "
             "it holds weights but not the network. Give the class that builds the network with "
-            "--torch-class package.module:Class (constructor arguments with --torch-args JSON or "
+            "`torch_class` package.module:Class (constructor arguments with `torch_arguments` JSON or "
             "in the [model] table of the input spec), or save the model as TorchScript or a .pt2 "
             "program."
         )
@@ -192,7 +192,7 @@ def rebuild(
         raise UserError(
             f"Building '{torch_class}' with arguments {arguments} failed ({type(exc).__name__}: "
             f"{exc}). Give the constructor arguments the weights were trained with, with "
-            "--torch-args JSON or in the [model] table of the input spec."
+            "`torch_arguments` JSON or in the [model] table of the input spec."
         ) from exc
     expected = module.state_dict()
     missing = [k for k in expected if k not in state]
