@@ -30,16 +30,30 @@ def _json_arg(text: str | None, what: str) -> dict[str, Any]:
     return v
 
 
-def _shape_arg(text: str | None) -> tuple[int, ...] | None:
-    if not text:
-        return None
+def _dims(text: str, item: str) -> tuple[int, ...]:
     try:
-        shape = tuple(int(s) for s in text.split(","))
+        shape = tuple(int(v) for v in text.split(","))
     except ValueError:
-        raise UserError(f"--input-shape must be whole numbers separated by commas, e.g. 1,8,8; got '{text}'.") from None
+        raise UserError(
+            f"--input-shape takes whole numbers separated by commas, e.g. 1,8,8 or NAME=1,8,8; got '{item}'."
+        ) from None
     if not shape or min(shape) < 1:
-        raise UserError(f"--input-shape must be positive whole numbers, got '{text}'.")
+        raise UserError(f"--input-shape takes positive whole numbers, got '{item}'.")
     return shape
+
+
+def _shape_arg(items: list[str] | None) -> tuple[int, ...] | dict[str, tuple[int, ...]] | None:
+    """``--input-shape`` as one shape, or a shape per named input tensor."""
+    if not items:
+        return None
+    named = [i for i in items if "=" in i]
+    if not named:
+        if len(items) > 1:
+            raise UserError("Give one --input-shape per input tensor as NAME=D1,D2 when there are several.")
+        return _dims(items[0], items[0])
+    if len(named) != len(items):
+        raise UserError("Give every --input-shape as NAME=D1,D2 when one of them names its tensor.")
+    return {name.strip(): _dims(dims, item) for item in items for name, dims in [item.split("=", 1)]}
 
 
 def _spec(args: argparse.Namespace) -> Any:

@@ -44,7 +44,13 @@ def _model_loading(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("model loading")
     g.add_argument("--torch-class", metavar="MODULE:CLASS", help="class to rebuild a state-dict file")
     g.add_argument("--torch-args", metavar="JSON", help="constructor keyword arguments for --torch-class, as JSON")
-    g.add_argument("--input-shape", metavar="D1,D2,...", help="non-batch input shape of a Torch file, e.g. 1,8,8")
+    g.add_argument(
+        "--input-shape",
+        metavar="[NAME=]D1,D2,...",
+        action="append",
+        help="non-batch shape of an input tensor, e.g. 1,8,8; with several input tensors one per tensor: "
+        "--input-shape a=16,4 --input-shape b=3",
+    )
     g.add_argument(
         "--trust-pickle",
         action="store_true",

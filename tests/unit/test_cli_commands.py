@@ -23,10 +23,18 @@ def test_json_arguments_must_be_objects():
 
 
 def test_input_shapes_are_positive_whole_numbers():
-    assert _shape_arg("1,8,8") == (1, 8, 8) and _shape_arg(None) is None
+    assert _shape_arg(["1,8,8"]) == (1, 8, 8) and _shape_arg(None) is None
     for bad, needle in (("1,x", "whole numbers separated by commas"), ("0,3", "positive whole numbers")):
         with pytest.raises(UserError, match=needle):
-            _shape_arg(bad)
+            _shape_arg([bad])
+
+
+def test_input_shapes_per_named_tensor():
+    assert _shape_arg(["a=16,4", "b=3"]) == {"a": (16, 4), "b": (3,)}
+    with pytest.raises(UserError, match="NAME=D1,D2 when there are several"):
+        _shape_arg(["3", "4"])
+    with pytest.raises(UserError, match="every --input-shape as NAME=D1,D2"):
+        _shape_arg(["a=3", "4"])
 
 
 def test_the_memory_limit_is_given_in_gib():
