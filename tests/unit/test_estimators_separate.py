@@ -128,3 +128,14 @@ def test_product_nu_within_the_interval_with_plain_monte_carlo():
     reps = [s.finish(job.design.ddof) for s in run(job)["out"]]
     iv = t_interval(np.array([r.total_sum[0] / r.variance[0] for r in reps]))
     assert iv.low <= 5.0 <= iv.high
+
+
+def test_the_workflows_build_the_design_the_estimator_needs():
+    # prepare builds its Design with copies=estimator.copies (d + 1 blocks here); exact: tests/exact.ishigami
+    from audit import audit_function
+
+    r = audit_function(fz.ishigami, LAWS, points=2048, replicates=8, seed=11, estimator="separate")
+    out = r.outputs[0]
+    assert r.design["estimator"] == "separate"
+    assert out.mean_dimension.ci_low <= ishigami()["nu"] <= out.mean_dimension.ci_high
+    assert len(out.total_index) == 3 and out.first_order == []
