@@ -17,9 +17,13 @@ Costlier than the Jansen estimator (2NG against N(G + 2)) and without
 first-order indices, but its terms are uncorrelated under plain Monte Carlo:
 for products of factors with high kurtosis the shared f(A) of the Jansen
 estimator correlates every difference, and the separate pairs can have the
-smaller variance per evaluation. With scrambled Sobol' points each pair is an
-RQMC integrand of its own columns (the point set has d (G + 1) columns, so the
-later inputs use later, less uniform Sobol' coordinates).
+smaller variance per evaluation. Under plain Monte Carlo the pairs of different
+inputs are independent. With scrambled Sobol' points each pair is an RQMC
+integrand of its own columns of one randomized point set of d (G + 1) columns:
+no column is shared, but the pairs are not independent of each other (the
+point set couples its columns), and the later inputs use later, less uniform
+Sobol' coordinates. Intervals do not rely on independence between the pairs:
+they come from independent randomizations.
 
 References
 ----------

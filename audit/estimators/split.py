@@ -143,7 +143,7 @@ class Split:
     def layout(self, block: Any, dtype: Any) -> tuple[np.ndarray, np.ndarray]:
         """Rows A, then A with column j(i) from B, as one (2n, d) array; the context is j(i)."""
         if self.counts is None:
-            self.check(block.start + block.n)
+            self.check(self.points)
         A, B = block.A.astype(dtype, copy=False), block.B.astype(dtype, copy=False)
         n = A.shape[0]
         js = split_inputs(block.start, n, self.counts)

@@ -24,6 +24,12 @@ The variance pools every row (each distributed as f(x)). Ratios are formed per
 randomization and their intervals come from independent randomizations
 (:func:`dimension_moments`).
 
+For many inputs, ``sample`` pairs drawn at random (without replacement, anew
+in each randomization, from a stream of its seed) stand for all P pairs: their
+sum, times P / sample, estimates the sum over all pairs without bias, and the
+interval over randomizations includes the draw of the pairs. Cost
+N (1 + K + sample); the pairs' own estimates are then not reported.
+
 References
 ----------
 .. [1] "Estimating mean dimensionality of analysis of variance
@@ -46,6 +52,9 @@ from .intervals import LEVEL, Interval, t_interval
 from .totals import TotalSums
 
 __all__ = ["Superset", "SupersetRep", "SupersetSums", "dimension_moments"]
+
+#: Spawn key of the stream that draws a randomization's sampled pairs (apart from its points' stream).
+_PAIR_STREAM = 0x7061
 
 
 @dataclass
@@ -70,12 +79,28 @@ class SupersetSums(TotalSums):
         Units, and the K inputs.
     detail : bool
         Keep a sum per input and per pair; otherwise one sum per unit for each.
+    weights : None
+        Unused (the single swaps give one pair per input and design point).
+    pair_index : ndarray of int, shape (P, 2), optional
+        The measured pairs (positions among the K inputs); default all pairs.
+    scale : float
+        Factor from the measured pairs' sum to the sum over all pairs (1 without sampling).
     """
 
-    def __init__(self, k: int, g: int, detail: bool = True, weights: np.ndarray | None = None) -> None:
+    def __init__(
+        self,
+        k: int,
+        g: int,
+        detail: bool = True,
+        weights: np.ndarray | None = None,
+        pair_index: np.ndarray | None = None,
+        scale: float = 1.0,
+    ) -> None:
         super().__init__(k, g, detail, weights)
-        self.pair_index = np.array(list(combinations(range(self.g), 2)), dtype=np.intp).reshape(-1, 2)
-        self.p = len(self.pair_index)
+        if pair_index is None:
+            pair_index = np.array(list(combinations(range(self.g), 2)), dtype=np.intp).reshape(-1, 2)
+        self.pair_index = np.asarray(pair_index, dtype=np.intp).reshape(-1, 2)
+        self.p, self.scale = len(self.pair_index), float(scale)
         if detail:
             self.pair = np.zeros((self.p, self.k))
         else:
@@ -96,6 +121,8 @@ class SupersetSums(TotalSums):
             self.pair_sum += np.einsum("pnk,pnk->k", second, second)
 
     def merge(self, other: SupersetSums) -> None:
+        if not np.array_equal(other.pair_index, self.pair_index) or other.scale != self.scale:
+            raise ValueError("cannot merge sums of different pairs.")
         super().merge(other)
         if self.detail:
             self.pair += other.pair
@@ -104,6 +131,7 @@ class SupersetSums(TotalSums):
 
     def state(self) -> dict[str, np.ndarray]:
         s = super().state()
+        s.update(pair_index=self.pair_index, scale=np.array([self.scale]))
         if self.detail:
             s["pair"] = self.pair
         else:
@@ -113,6 +141,8 @@ class SupersetSums(TotalSums):
     @classmethod
     def from_state(cls, s: dict[str, np.ndarray]) -> SupersetSums:
         out = super().from_state(s)
+        out.pair_index, out.scale = np.array(s["pair_index"]).reshape(-1, 2), float(s["scale"][0])
+        out.p = len(out.pair_index)
         for name in ("pair", "pair_sum"):
             if name in s:
                 setattr(out, name, np.array(s[name]))
@@ -126,7 +156,7 @@ class SupersetSums(TotalSums):
             pair_sum = pairs.sum(axis=0)
         else:
             pairs, pair_sum = None, self.pair_sum / (4 * self.rows)
-        m2 = r.total_sum + 2 * pair_sum
+        m2 = r.total_sum + 2 * self.scale * pair_sum
         return SupersetRep(r.mean, r.variance, r.total, None, r.total_sum, pairs, self.pair_index.copy(), m2)
 
 
@@ -144,8 +174,9 @@ def dimension_moments(reps: Sequence[SupersetRep], level: float = LEVEL) -> dict
     -------
     dict of str to Interval
         ``"nu"`` (``sum tau_j / sigma^2``), ``"second_moment"`` (``M2 / sigma^2``),
-        ``"spread"`` (``M2 / sigma^2 - nu^2``, the variance of |u|) and, with detail,
-        ``"pairs"`` (``Upsilon^2_{jk} / sigma^2``, shape (P, k)); each formed per
+        ``"spread"`` (``M2 / sigma^2 - nu^2``, the variance of |u|) and, with detail and
+        the same pairs in every randomization, ``"pairs"`` (``Upsilon^2_{jk} / sigma^2``,
+        shape (P, k)); each formed per
         randomization, then a Student-t interval (:func:`~audit.estimators.intervals.t_interval`).
     """
     var = np.array([r.variance for r in reps])
@@ -156,7 +187,8 @@ def dimension_moments(reps: Sequence[SupersetRep], level: float = LEVEL) -> dict
         "second_moment": t_interval(m2, level),
         "spread": t_interval(m2 - nu**2, level),
     }
-    if reps[0].pairs is not None:
+    same = all(np.array_equal(r.pair_index, reps[0].pair_index) for r in reps)
+    if reps[0].pairs is not None and same:
         out["pairs"] = t_interval(np.array([r.pairs for r in reps]) / var[:, None, :], level)
     return out
 
@@ -170,6 +202,9 @@ class Superset:
         Number of inputs.
     inputs : sequence of int, optional
         The K inputs (default all d); every pair among them is measured.
+    sample : int, optional
+        Measure this many pairs, drawn anew in each randomization, instead of all
+        (see the module docstring).
 
     Notes
     -----
@@ -217,7 +252,7 @@ class Superset:
             inputs.append(int(g[0]))
         return cls(d, inputs)
 
-    def __init__(self, d: int, inputs: Sequence[int] | None = None) -> None:
+    def __init__(self, d: int, inputs: Sequence[int] | None = None, sample: int | None = None) -> None:
         self.d = int(d)
         self.inputs = np.arange(self.d) if inputs is None else np.asarray(list(inputs), dtype=np.intp)
         if len(np.unique(self.inputs)) != len(self.inputs) or len(self.inputs) < 1:
@@ -226,14 +261,29 @@ class Superset:
             raise ValueError(f"inputs must lie in 0..{self.d - 1}.")
         self.g = len(self.inputs)
         self.pair_index = np.array(list(combinations(range(self.g), 2)), dtype=np.intp).reshape(-1, 2)
+        total = len(self.pair_index)
+        if sample is not None and not 1 <= int(sample) <= total:
+            raise ValueError(f"sample must be between 1 and the {total} pairs of {self.g} inputs, got {sample}.")
+        self.sample = None if sample is None or int(sample) == total else int(sample)
 
     @property
     def pairs(self) -> list[tuple[int, int]]:
-        """The measured pairs, as input indices, in the order of the estimates."""
+        """All pairs among the K inputs, as input indices, in the order of the estimates."""
         return [(int(self.inputs[a]), int(self.inputs[b])) for a, b in self.pair_index]
 
+    def measured(self, rep_seed: Any) -> np.ndarray:
+        """Positions (P, 2) among the K inputs of the pairs measured in the randomization of ``rep_seed``."""
+        if self.sample is None:
+            return self.pair_index
+        if isinstance(rep_seed, np.random.SeedSequence):
+            seq = np.random.SeedSequence(rep_seed.entropy, spawn_key=(*rep_seed.spawn_key, _PAIR_STREAM))
+        else:
+            seq = np.random.SeedSequence(int(rep_seed), spawn_key=(_PAIR_STREAM,))
+        chosen = np.sort(np.random.default_rng(seq).choice(len(self.pair_index), self.sample, replace=False))
+        return self.pair_index[chosen]
+
     def rows_per_point(self) -> int:
-        return 1 + self.g + len(self.pair_index)
+        return 1 + self.g + (len(self.pair_index) if self.sample is None else self.sample)
 
     def check(self, points: int) -> None:
         return None
@@ -245,18 +295,22 @@ class Superset:
         m = self.rows_per_point()
         mask = np.zeros((m, d), dtype=bool)
         mask[1 + np.arange(self.g), self.inputs] = True
-        rows = 1 + self.g + np.arange(len(self.pair_index))
-        mask[rows, self.inputs[self.pair_index[:, 0]]] = True
-        mask[rows, self.inputs[self.pair_index[:, 1]]] = True
+        pairs = self.measured(block.rep_seed)
+        rows = 1 + self.g + np.arange(len(pairs))
+        mask[rows, self.inputs[pairs[:, 0]]] = True
+        mask[rows, self.inputs[pairs[:, 1]]] = True
         X = np.where(mask[:, None, :], B[None], A[None])
         return X.reshape(m * n, d), None
 
     def sums(self, units: int, detail: bool, block: Any = None) -> SupersetSums:
-        return SupersetSums(units, self.g, detail)
+        if self.sample is None:
+            return SupersetSums(units, self.g, detail)
+        scale = len(self.pair_index) / self.sample
+        return SupersetSums(units, self.g, detail, pair_index=self.measured(block.rep_seed), scale=scale)
 
     def restore(self, state: dict[str, np.ndarray]) -> SupersetSums:
         return SupersetSums.from_state(state)
 
     def state_size(self, units: int, detail: bool) -> int:
-        p = len(self.pair_index)
-        return units * ((self.g + p if detail else 2) + 2) + self.g
+        p = self.rows_per_point() - 1 - self.g
+        return units * ((self.g + p if detail else 2) + 2) + self.g + 2 * p + 1

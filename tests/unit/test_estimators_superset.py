@@ -140,3 +140,29 @@ def test_inputs_outside_a_pure_pair_term_get_nothing():
         assert np.all(np.abs(r.pairs[1:, 2]) <= ROUNDING * scale)
         assert np.all(np.abs(r.total[2:, 2]) <= ROUNDING * scale)
         assert r.pairs[0, 2] > 0
+
+
+def test_sampled_pairs_estimate_the_second_moment():
+    # 5 of the 15 pairs, drawn anew per randomization: sum over pairs x 15/5 is unbiased for the sum over all
+    # pairs, and the interval over randomizations holds the draw too. 2 comparisons: each at 1 - 0.05/2.
+    _, _, nu, m2 = _exact()
+    est = Superset(D, TOP, sample=5)
+    assert est.rows_per_point() == 1 + 6 + 5
+    design = Design(LAWS, 1024, 20, seed=7)
+    job = Job("test", _evaluator, design, est, [Group("out", 3, True)])
+    sums = run(job, block=256)["out"]
+    reps = [s.finish(design.ddof) for s in sums]
+    assert len({r.pair_index.tobytes() for r in reps}) > 1  # different randomizations, different pairs
+    np.testing.assert_array_equal(reps[3].pair_index, est.measured(design.rep_seed(3)))
+    m = dimension_moments(reps, level=1 - 0.05 / 2)
+    assert "pairs" not in m
+    for key, exact in (("second_moment", m2), ("spread", m2 - nu**2)):
+        assert m[key].low[0] <= exact <= m[key].high[0], (key, m[key].estimate[0], exact)
+    # state round trip and block invariance with sampled pairs
+    restored = est.restore(sums[0].state())
+    _same(sums[0].finish(0), restored.finish(0))
+    whole = run_task(job, Task(0, 0, 1024))["out"]
+    _same(whole.finish(0), sums[0].finish(0))
+    other = next(s for s, r in zip(sums, reps, strict=True) if not np.array_equal(r.pair_index, reps[0].pair_index))
+    with pytest.raises(ValueError, match="different pairs"):
+        sums[0].merge(other)

@@ -119,5 +119,5 @@ def test_split_estimator_keeps_the_rqmc_gain():
 
     qmc = nu_replicates("split", f, laws, 8192, 40, 3, "sobol").var(ddof=1)
     mc = nu_replicates("split", f, laws, 8192, 40, 3, "mc").var(ddof=1)
-    print(f"split estimator, Phi ridge d = 8, N = 8192: variance of nu, Monte Carlo / scrambled Sobol' = {mc / qmc:.2f}")
+    print(f"split estimator, Phi ridge d = 8, N = 8192: var(nu) Monte Carlo / scrambled Sobol' = {mc / qmc:.2f}")
     assert mc >= 2 * qmc
