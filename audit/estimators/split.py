@@ -45,6 +45,23 @@ __all__ = ["Split", "SplitSums", "split_counts", "split_inputs"]
 def split_counts(points: int, d: int) -> np.ndarray:
     """Rows n_j of each input's run (see the module docstring); they add up to ``points``.
 
+    Parameters
+    ----------
+    points : int
+        N per randomization (at least d).
+    d : int
+        Number of inputs.
+
+    Returns
+    -------
+    ndarray of int64, shape (d,)
+        Powers of two, the larger first, when N is a power of two; else balanced.
+
+    Raises
+    ------
+    ValueError
+        When there are fewer points than inputs.
+
     Examples
     --------
     >>> from audit.estimators.split import split_counts
@@ -65,7 +82,20 @@ def split_counts(points: int, d: int) -> np.ndarray:
 
 
 def split_inputs(start: int, n: int, counts: np.ndarray) -> np.ndarray:
-    """The input j of each global row ``start .. start + n - 1``."""
+    """The input j of each global row ``start .. start + n - 1``.
+
+    Parameters
+    ----------
+    start, n : int
+        First global row and number of rows.
+    counts : ndarray of int
+        The runs' lengths (:func:`split_counts`).
+
+    Returns
+    -------
+    ndarray of intp, shape (n,)
+        Depends on the global row alone, not on how rows are split into blocks.
+    """
     ends = np.cumsum(counts)
     return np.searchsorted(ends, np.arange(start, start + n), side="right").astype(np.intp)
 
