@@ -1,8 +1,12 @@
 """Estimators: streaming, mergeable sums from which indices and the mean dimension follow.
 
 ``ESTIMATORS`` is the registry of the estimators a user can choose (each one
-module: :mod:`~audit.estimators.jansen`, :mod:`~audit.estimators.fast`); the
-workflows also use two internal ones, the freezing error
+module: :mod:`~audit.estimators.jansen`, :mod:`~audit.estimators.fast`,
+:mod:`~audit.estimators.stairs` (winding stairs), :mod:`~audit.estimators.separate`
+(separate pairs), :mod:`~audit.estimators.split` (2N evaluations, RQMC gain kept)
+and :mod:`~audit.estimators.superset` (pairs' superset importance)); the
+internal :mod:`~audit.estimators.totals` holds the sums the total-index-only
+estimators share. The workflows also use two internal ones, the freezing error
 (:mod:`~audit.estimators.freeze`) and prefix means for the RQMC gain
 (:mod:`~audit.estimators.prefix`). :mod:`~audit.estimators.intervals` builds
 every confidence interval. The protocol is in :mod:`~audit.estimators.base`.
@@ -19,6 +23,10 @@ from .inert import inert_rule, is_inert, machine_eps, unreliable
 from .intervals import LEVEL, Interval, t_interval
 from .jansen import Jansen
 from .prefix import PrefixMeans
+from .separate import SeparatePairs
+from .split import Split, split_counts
+from .stairs import WindingStairs
+from .superset import Superset, SupersetRep, dimension_moments
 
 __all__ = [
     "ESTIMATORS",
@@ -31,19 +39,33 @@ __all__ = [
     "Moments",
     "PrefixMeans",
     "RepEstimates",
+    "SeparatePairs",
+    "Split",
     "Sums",
+    "Superset",
+    "SupersetRep",
+    "WindingStairs",
+    "dimension_moments",
     "fast_assignment",
     "fast_counts",
     "inert_rule",
     "is_inert",
     "machine_eps",
     "make_estimator",
+    "split_counts",
     "t_interval",
     "unreliable",
 ]
 
 #: Estimators a user can choose, by name (each class has ``label``, ``help`` and ``build``).
-ESTIMATORS: dict[str, type] = {"jansen": Jansen, "fast": Fast}
+ESTIMATORS: dict[str, type] = {
+    "jansen": Jansen,
+    "fast": Fast,
+    "stairs": WindingStairs,
+    "separate": SeparatePairs,
+    "split": Split,
+    "superset": Superset,
+}
 
 
 def make_estimator(

@@ -313,8 +313,9 @@ def prepare(
         if name not in {x.name for x in chosen}:
             raise UserError(f"`unit_detail` names layer '{name}', which is not captured; add it to `layers`.")
     root = options.seed if seed is None else seed
-    dsg = Design(laws, options.points, options.replicates, root, options.sampler)  # type: ignore[arg-type]
     estimator = make_estimator(options.estimator, d=d, points=options.points)
+    copies = int(getattr(estimator, "copies", 2))  # blocks of d uniform columns the estimator needs per point
+    dsg = Design(laws, options.points, options.replicates, root, options.sampler, copies=copies)  # type: ignore[arg-type]
     estimator.check(options.points)
     groups = [engine.Group(OUTPUTS, len(out_names), True)]
     groups += [engine.Group("layer:" + x.name, x.units, x.name in unit_detail) for x in chosen]
