@@ -9,8 +9,8 @@ repeated exactly). Everything random is derived from it here:
   objects, which seed the engines of the RQMC gain measurement of ``advise``
   (the form netdim 0.1 used there; kept so that saved reports reproduce);
 * :func:`child_seed` -- an int for a phase of a workflow (a pilot, each
-  pre-integrated audit, the gain, the freezing check; tags ``PILOT``,
-  ``CANDIDATE``, ``GAIN``, ``FREEZE``), so that the phases use independent
+  pre-integrated audit, the gain, the freezing check, the pairs of an
+  audit; tags ``PILOT``, ``CANDIDATE``, ``GAIN``, ``FREEZE``, ``PAIRS``), so that the phases use independent
   points: ``SeedSequence([seed, *tags])``;
 * :func:`independent_seed` -- the second model's seed when a comparison is run
   on independent points rather than the same ones.
@@ -32,6 +32,7 @@ __all__ = [
     "CANDIDATE",
     "FREEZE",
     "GAIN",
+    "PAIRS",
     "PILOT",
     "RandomizationSeeds",
     "child_seed",
@@ -42,8 +43,8 @@ __all__ = [
     "resolve_seed",
 ]
 
-#: Tags of the phases of ``advise`` (see :func:`child_seed`).
-PILOT, CANDIDATE, GAIN, FREEZE = 1, 2, 3, 4
+#: Tags of the phases of ``advise`` and of the pairs of an audit (see :func:`child_seed`).
+PILOT, CANDIDATE, GAIN, FREEZE, PAIRS = 1, 2, 3, 4, 5
 
 
 def resolve_seed(seed: int | np.random.Generator | None) -> int:

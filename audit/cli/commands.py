@@ -145,7 +145,7 @@ def cmd_audit(args: argparse.Namespace) -> int:
         outputs=_outputs(args),
     )
     with progress(args, setup.evaluations) as bar:
-        result = execute(setup, _run(args, bar))
+        result = execute(setup, _run(args, bar), pairs=args.pairs)
     _finish(result, args)
     return EXIT_OK
 

@@ -55,6 +55,7 @@ FLAGS = {
     "trust": "--trust-pickle",
     "output_map": "--output-map",
     "outputs": "--outputs",
+    "pairs": "--pairs",
     "top_k": "--top-k",
     "top": "--top",
     "nodes": "--nodes",

@@ -9,10 +9,13 @@ from ..version import __version__
 __all__ = ["build_parser"]
 
 SAMPLER_HELP = "'sobol' (scrambled Sobol' points, default) or 'mc' (plain Monte Carlo)"
-ESTIMATOR_HELP = (
-    "'jansen' (every total and first-order index, N(d+2) evaluations; default) or "
-    "'fast' (the mean dimension alone, 2N whatever d is)"
-)
+
+
+def _estimator_help() -> str:
+    """One line per registered estimator, from the registry itself."""
+    from ..estimators import ESTIMATORS
+
+    return "; ".join(f"'{name}': {cls.help}" for name, cls in ESTIMATORS.items()) + " (default jansen)"
 
 
 def _positive_int(text: str) -> int:
@@ -73,7 +76,7 @@ def _design(p: argparse.ArgumentParser) -> None:
     g.add_argument("--replicates", type=int, default=8, help="independent randomizations R (default 8)")
     g.add_argument("--seed", type=_seed, help="seed for the randomizations (default: fresh, recorded in the report)")
     g.add_argument("--sampler", default="sobol", help=SAMPLER_HELP)
-    g.add_argument("--estimator", default="jansen", help=ESTIMATOR_HELP)
+    g.add_argument("--estimator", default="jansen", help=_estimator_help())
 
 
 def _running(p: argparse.ArgumentParser) -> None:
@@ -136,6 +139,16 @@ def _audit(sub: argparse._SubParsersAction) -> None:
         action="append",
         default=[],
         help="also rank inputs for every unit of this layer (costs d sums per unit)",
+    )
+    a.add_argument(
+        "--pairs",
+        type=int,
+        nargs="?",
+        const=8,
+        default=0,
+        metavar="K",
+        help="also measure which inputs interact: every pair among the K leading inputs (K = 8 when not given; "
+        "N(1 + K + K(K-1)/2) more evaluations)",
     )
     _running(a)
     _model_loading(a)

@@ -60,11 +60,11 @@ __all__ = [
 #: Estimators a user can choose, by name (each class has ``label``, ``help`` and ``build``).
 ESTIMATORS: dict[str, type] = {
     "jansen": Jansen,
-    "fast": Fast,
+    "fast": Split,
     "stairs": WindingStairs,
     "separate": SeparatePairs,
-    "split": Split,
     "superset": Superset,
+    "hashed": Fast,
 }
 
 

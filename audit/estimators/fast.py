@@ -159,9 +159,12 @@ class Fast:
         N per randomization (each coordinate gets about N / d rows).
     """
 
-    name = "fast"
-    label = "one-coordinate estimator (mean dimension only)"
-    help = "the mean dimension alone, 2N evaluations per randomization whatever d is"
+    name = "hashed"
+    label = "hashed one-coordinate estimator (mean dimension; no gain from scrambled points: Monte Carlo rate)"
+    help = (
+        "netdim 0.1's fast estimator, kept so its reports reproduce: 2N evaluations, but the hashed order "
+        "loses the RQMC gain (use fast)"
+    )
     copies = 2
     first_order = False
 

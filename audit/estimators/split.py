@@ -1,4 +1,4 @@
-"""The split estimator of the mean dimension: 2N evaluations whatever d is, with the RQMC gain kept.
+"""The fast estimator of the mean dimension (registered as ``fast``): 2N evaluations whatever d is, RQMC gain kept.
 
 The N design points (A, B) of a randomization are split among the d inputs in
 consecutive runs: input j gets the rows ``[o_j, o_j + n_j)`` and there its rows
@@ -138,8 +138,8 @@ class Split:
     True
     """
 
-    name = "split"
-    label = "split estimator (mean dimension; points split among the inputs in runs)"
+    name = "fast"
+    label = "fast estimator (mean dimension; the points split among the inputs in runs of scrambled nets)"
     help = (
         "the mean dimension and a total index per input, 2N evaluations per randomization whatever d is; "
         "each input's differences average over a scrambled net of their own, so the RQMC gain is kept"
@@ -164,7 +164,7 @@ class Split:
     def check(self, points: int) -> None:
         if points < self.d:
             raise UserError(
-                f"The split estimator needs at least as many points as inputs ({self.d}); "
+                f"The fast estimator needs at least as many points as inputs ({self.d}); "
                 f"got {points}. Raise `points`."
             )
         if points != self.points:

@@ -45,7 +45,7 @@ _LISTED_LAWS = 3
 _SAMPLERS = {"sobol": "scrambled Sobol' points (RQMC)", "mc": "plain Monte Carlo"}
 _ESTIMATORS = {
     "jansen": "Jansen estimator (total and first-order indices)",
-    "fast": "one-coordinate estimator (mean dimension only)",
+    "fast": "one-coordinate estimator (mean dimension only)",  # reports saved before the label was recorded
 }
 
 
@@ -129,7 +129,9 @@ def describe_design(design: Mapping[str, Any]) -> list[Field]:
         parts.append(glue(f"R = {fmt_count(r)} randomization{'' if r == 1 else 's'}"))
     if "sampler" in design:
         parts.append(_SAMPLERS.get(str(design["sampler"]), str(design["sampler"])))
-    if "estimator" in design:
+    if design.get("estimator_label"):
+        parts.append(str(design["estimator_label"]))
+    elif "estimator" in design:
         parts.append(_ESTIMATORS.get(str(design["estimator"]), str(design["estimator"])))
     if "paired" in design:
         parts.append("same points for both (paired)" if design["paired"] else "independent points")

@@ -18,7 +18,7 @@ from .advice import (
     RqmcGain,
     VarianceIdentity,
 )
-from .audit import AuditResult, LayerResult, OutputResult, UnitResult
+from .audit import AuditResult, LayerResult, OutputResult, PairEstimate, UnitResult
 from .base import SCHEMA, Estimate, FeatureEstimate, set_renderer
 from .comparison import ComparisonResult, GateCheck, LayerChange, OutputChange
 from .signature import LayerEntry, ModelSignature, TensorEntry
@@ -43,6 +43,7 @@ __all__ = [
     "OutputAdvice",
     "OutputChange",
     "OutputResult",
+    "PairEstimate",
     "RqmcGain",
     "TensorEntry",
     "UnitResult",

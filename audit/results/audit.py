@@ -8,7 +8,24 @@ from typing import Any
 
 from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dict, _opt_estimate
 
-__all__ = ["AuditResult", "LayerResult", "OutputResult", "UnitResult"]
+__all__ = ["AuditResult", "LayerResult", "OutputResult", "PairEstimate", "UnitResult"]
+
+
+@dataclass(frozen=True)
+class PairEstimate:
+    """Superset importance of a pair of inputs, Σ_{u ⊇ {j, k}} σ²_u / σ², with its interval."""
+
+    first: str
+    second: str
+    value: Estimate
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"inputs": [self.first, self.second], **self.value.to_dict()}
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> PairEstimate:
+        a, b = d["inputs"]
+        return cls(str(a), str(b), Estimate.from_dict(d))
 
 
 @dataclass(frozen=True)
@@ -36,6 +53,11 @@ class OutputResult:
     relation : str
         When the output is an exact affine function of earlier outputs, that function
         (``"= 1 − probabilities[0]"``); "" otherwise.
+    pairs : list of PairEstimate
+        Superset importance of the pairs measured (when asked for), strongest first.
+    dimension_spread : Estimate or None
+        Variance of the dimension |u| (|u| drawn with probability σ²_u / σ²), from the
+        pairs of every input; when only K inputs were paired, that of |u ∩ K|.
     """
 
     name: str
@@ -47,6 +69,8 @@ class OutputResult:
     inert: bool = False
     unreliable: str = ""
     relation: str = ""
+    pairs: list[PairEstimate] = field(default_factory=list)
+    dimension_spread: Estimate | None = None
 
     @property
     def additive_share(self) -> float:
@@ -68,6 +92,8 @@ class OutputResult:
             "first_order": [f.to_dict() for f in self.first_order],
             **({"unreliable": self.unreliable} if self.unreliable else {}),
             **({"relation": self.relation} if self.relation else {}),
+            **({"pairs": [p.to_dict() for p in self.pairs]} if self.pairs else {}),
+            **({"dimension_spread": self.dimension_spread.to_dict()} if self.dimension_spread else {}),
         }
 
     @classmethod
@@ -82,6 +108,8 @@ class OutputResult:
             inert=bool(d.get("inert", False)),
             unreliable=str(d.get("unreliable", "")),
             relation=str(d.get("relation", "")),
+            pairs=[PairEstimate.from_dict(x) for x in d.get("pairs", [])],
+            dimension_spread=_opt_estimate(d.get("dimension_spread")),
         )
 
 

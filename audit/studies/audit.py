@@ -14,11 +14,12 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import UserError
+from ..errors import UserError, check_int
 from ..inputs import InputSpec, Law
 from ..models.python import PythonModel
 from ..results import AuditResult
 from .options import RunOptions, split_options
+from .pairs import with_pairs
 from .session import Session
 from .setup import OUTPUTS, Setup, check_time, inputs_spec, prepare, resolve_model
 from .summarize import GroupStats, design_info, inputs_info, layer_result, model_info, output_results
@@ -26,7 +27,7 @@ from .summarize import GroupStats, design_info, inputs_info, layer_result, model
 __all__ = ["audit_function", "audit_model", "execute", "function_model"]
 
 
-def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
+def execute(setup: Setup, run: RunOptions | None = None, *, pairs: int = 0) -> AuditResult:
     """Run a prepared audit and build its result.
 
     Parameters
@@ -35,29 +36,40 @@ def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
         From :func:`~audit.studies.setup.prepare`.
     run : RunOptions, optional
         Progress, checkpoint, cluster (see :class:`~audit.studies.options.RunOptions`).
+    pairs : int
+        Also measure the superset importance of every pair among this many leading
+        inputs (0: none; see :mod:`audit.studies.pairs`).
 
     Returns
     -------
     AuditResult
     """
     run = run or RunOptions()
+    pairs = check_int(pairs, "pairs", 0)
     if run.block:
         setup.block = run.block
     check_time(setup.job(), setup.evaluations, run.time_budget, setup.block)
     setup.find_relations()
     t0 = time.perf_counter()
+    ddof = setup.design.ddof
+    paired: dict = {}
     with Session(run) as session:
         sums = session.run(setup.job(), block=setup.block)
+        stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
+        outputs = output_results(stats, setup.output_names, setup.names, setup.redundant)
+        if pairs >= 2 and setup.design.d >= 2 and stats.total is not None:
+            outputs, paired = with_pairs(setup, outputs, pairs, session)
     seconds = time.perf_counter() - t0
-    ddof = setup.design.ddof
-    stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
-    outputs = output_results(stats, setup.output_names, setup.names, setup.redundant)
     layers = [
         layer_result(x, GroupStats.of(sums["layer:" + x.name], ddof, setup.eps("layer:" + x.name)), setup.names)
         for x in setup.layers
     ]
     notices = [*setup.notices, *session.notices]
-    return AuditResult(model_info(setup), inputs_info(setup), design_info(setup, seconds), outputs, layers, notices)
+    design = design_info(setup, seconds)
+    if paired:
+        design["pairs"] = paired
+        design["evaluations"] += paired["evaluations"]
+    return AuditResult(model_info(setup), inputs_info(setup), design, outputs, layers, notices)
 
 
 def audit_model(
@@ -67,6 +79,7 @@ def audit_model(
     layers: str | Sequence[str] = "activations",
     unit_detail: Sequence[str] = (),
     outputs: Sequence[str] | None = None,
+    pairs: int = 0,
     **options: Any,
 ) -> AuditResult:
     """Audit a model: variance, mean dimension and Sobol' indices of every output and hidden unit.
@@ -83,6 +96,10 @@ def audit_model(
         Layers whose units also get per-input total indices.
     outputs : list of str, optional
         Output units or output tensors to measure (default: the spec's ``[outputs] keep``, else all).
+    pairs : int
+        Also measure which inputs interact: the superset importance of every pair among
+        this many leading inputs (0: none), at N(1 + K + K(K − 1)/2) more evaluations per
+        randomization, and the spread of the dimension distribution.
     **options
         Design options ``points``, ``replicates``, ``seed``, ``sampler``, ``estimator``
         (:class:`~audit.studies.options.DesignOptions`) and run options ``progress``,
@@ -116,7 +133,7 @@ def audit_model(
         memory_limit=run.memory_limit,
         outputs=outputs,
     )
-    return execute(setup, run)
+    return execute(setup, run, pairs=pairs)
 
 
 def function_model(

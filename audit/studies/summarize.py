@@ -204,6 +204,7 @@ def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
         "seed": setup.design.seed,
         "sampler": setup.design.sampler,
         "estimator": setup.estimator.name,
+        "estimator_label": setup.estimator.label,
         "evaluations": setup.evaluations,
         "block": setup.block,
         "interval": f"Student-t over {setup.design.replicates} independent randomizations, {LEVEL:.0%}",

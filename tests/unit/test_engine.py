@@ -126,7 +126,7 @@ def test_non_finite_values_of_a_layer_name_the_layer_and_default_feature_names()
 
 def test_many_inputs_are_shortened_in_the_example():
     design = Design([Law("normal")] * 20, 8, 1, seed=1)
-    job = checks.job("fast", design, [Group("y", 1)], lambda x: {"y": np.log(x[:, :1])})
+    job = checks.job("hashed", design, [Group("y", 1)], lambda x: {"y": np.log(x[:, :1])})
     with pytest.raises(NonFiniteError) as e, np.errstate(invalid="ignore", divide="ignore"):
         run_task(job, Task(0, 0, 8))
     assert "x11=" in e.value.message and "x12=" not in e.value.message and " ...)" in e.value.message

@@ -21,7 +21,7 @@ LAWS = checks.LAWS
 pytestmark = pytest.mark.filterwarnings(checks.ANY_BLOCK)
 
 
-@pytest.mark.parametrize("estimator", ["fast"])
+@pytest.mark.parametrize("estimator", ["hashed"])
 @pytest.mark.parametrize("detail", [True, False])
 def test_merge_of_halves_equals_whole(estimator, detail):
     design = Design(LAWS, 1024, 1, seed=3)
@@ -43,26 +43,26 @@ def test_merge_of_halves_equals_whole(estimator, detail):
 
 @pytest.mark.parametrize("detail", [True, False])
 def test_merge_of_blocks_of_another_size_equals_whole(detail):
-    job = checks.job("fast", Design(LAWS, 1024, 1, seed=3), [Group("out", 3, detail)])
+    job = checks.job("hashed", Design(LAWS, 1024, 1, seed=3), [Group("out", 3, detail)])
     checks.assert_merge_of_halves_equals_whole(job, block=100)
 
 
 @pytest.mark.parametrize("detail", [True, False])
 def test_merging_in_any_order_gives_the_same_sums(detail):
-    job = checks.job("fast", Design(LAWS, 512, 1, seed=5), [Group("out", 3, detail)])
+    job = checks.job("hashed", Design(LAWS, 512, 1, seed=5), [Group("out", 3, detail)])
     checks.assert_merging_is_order_free(job, block=48, seed=2)
 
 
 @pytest.mark.parametrize("detail", [True, False])
 def test_state_round_trip(detail):
-    job = checks.job("fast", Design(LAWS, 256, 1, seed=6), [Group("out", 3, detail)])
+    job = checks.job("hashed", Design(LAWS, 256, 1, seed=6), [Group("out", 3, detail)])
     checks.assert_state_round_trip(job, block=64)
 
 
 @pytest.mark.parametrize("detail", [True, False])
 def test_block_size_invariance_through_engine_run(detail):
     # the coordinate of a row depends on its global index only, so any split gives the same sums
-    job = checks.job("fast", Design(LAWS, 512, 3, seed=7), [Group("out", 3, detail)])
+    job = checks.job("hashed", Design(LAWS, 512, 3, seed=7), [Group("out", 3, detail)])
     checks.assert_block_size_invariance(job, [1, 5, 64, 512])
 
 
@@ -71,7 +71,7 @@ def test_fast_estimator_agrees_with_jansen():
     # (a single comparison; about 1 % two-sided under normality — common practice, no source)
     kw = dict(points=2048, replicates=10, seed=8)
     full = audit_function(fz.g_function, "uniform", dim=8, **kw).outputs[0].mean_dimension
-    fast = audit_function(fz.g_function, "uniform", dim=8, estimator="fast", **kw).outputs[0].mean_dimension
+    fast = audit_function(fz.g_function, "uniform", dim=8, estimator="hashed", **kw).outputs[0].mean_dimension
     se = np.hypot(full.std_error, fast.std_error)
     assert abs(full.estimate - fast.estimate) <= 3 * se
 
@@ -85,7 +85,7 @@ def test_fast_estimator_costs_2n_whatever_d():
             return {"y": x.sum(axis=1, keepdims=True)}
 
         design = Design([Law("normal")] * d, 256, 8, seed=1)
-        accs = run(checks.job("fast", design, [Group("y", 1)], f), block=64)
+        accs = run(checks.job("hashed", design, [Group("y", 1)], f), block=64)
         assert sum(calls) == 2 * 256 * 8
         nu = [a.finish(0).total_sum[0] / a.finish(0).variance[0] for a in accs["y"]]
         _, lo, hi, _ = t_interval(np.array(nu))
@@ -115,7 +115,7 @@ def test_layout_resamples_one_coordinate_per_row():
 
 def test_sums_without_detail_give_the_same_mean_dimension():
     design = Design(LAWS, 256, 1, seed=8)
-    job = checks.job("fast", design, [Group("out", 3, True)])
+    job = checks.job("hashed", design, [Group("out", 3, True)])
     full = run_task(job, Task(0, 0, 256))["out"].finish(0)
     job.groups = [Group("out", 3, False)]
     short = run_task(job, Task(0, 0, 256))["out"].finish(0)
@@ -134,7 +134,7 @@ def test_the_fast_estimator_refuses_what_it_cannot_do():
     with pytest.raises(UserError, match="at least as many points as inputs"):
         Fast(8, 4).check(4)
     with pytest.raises(UserError, match="single inputs only"):
-        make_estimator("fast", d=3, points=8, groups=[[0, 1], [2]])
+        make_estimator("hashed", d=3, points=8, groups=[[0, 1], [2]])
     with pytest.raises(ValueError, match="needs weights"):
         FastSums(1, 3, detail=False)
     with pytest.raises(ValueError, match="different shapes"):
@@ -153,13 +153,13 @@ def _nu(sums: list, ddof: int) -> np.ndarray:
 def test_additive_function_has_mean_dimension_one(detail):
     a = np.array([1.0, -2.0, 0.5, 3.0])
     design = Design([Law("normal")] * 4, 512, 10, seed=23)
-    job = checks.job("fast", design, [Group("y", 1, detail)], lambda x: {"y": (x @ a)[:, None]})
+    job = checks.job("hashed", design, [Group("y", 1, detail)], lambda x: {"y": (x @ a)[:, None]})
     est = t_interval(_nu(run(job)["y"], design.ddof))
     assert est.low <= 1.0 <= est.high, est
 
 
 def test_product_of_centred_factors_has_mean_dimension_k():
     design = Design([Law("uniform")] * 3, 1024, 10, seed=24)
-    job = checks.job("fast", design, [Group("y", 1)], lambda x: {"y": np.prod(x - 0.5, axis=1)[:, None]})
+    job = checks.job("hashed", design, [Group("y", 1)], lambda x: {"y": np.prod(x - 0.5, axis=1)[:, None]})
     est = t_interval(_nu(run(job)["y"], design.ddof))
     assert est.low <= 3.0 <= est.high, est

@@ -3,21 +3,22 @@
 import pytest
 
 from audit.errors import UserError
-from audit.estimators import ESTIMATORS, Fast, Jansen, make_estimator
+from audit.estimators import ESTIMATORS, Fast, Jansen, Split, make_estimator
 
 
 def test_registry_holds_the_estimators_a_user_can_choose():
-    assert list(ESTIMATORS) == ["jansen", "fast"]
+    assert list(ESTIMATORS) == ["jansen", "fast", "stairs", "separate", "superset", "hashed"]
     for name, cls in ESTIMATORS.items():
-        assert cls.name == name and cls.label and cls.help and cls.copies == 2
-    assert Jansen.first_order and not Fast.first_order
+        assert cls.name == name and cls.label and cls.help
+        assert make_estimator(name, d=4, points=64).copies >= 2  # A and B at least
+    assert Jansen.first_order and not Fast.first_order and ESTIMATORS["hashed"] is Fast
 
 
 def test_make_estimator_builds_each_with_its_cost():
     jansen = make_estimator("jansen", d=6)
     assert isinstance(jansen, Jansen) and jansen.rows_per_point() == 8  # N(d + 2)
     fast = make_estimator("fast", d=6, points=64)
-    assert isinstance(fast, Fast) and fast.rows_per_point() == 2 and fast.points == 64  # 2N whatever d is
+    assert isinstance(fast, Split) and fast.rows_per_point() == 2 and fast.points == 64  # 2N whatever d is
     grouped = make_estimator("jansen", d=6, groups=[[0, 1, 2], [3, 4, 5]])
     assert grouped.rows_per_point() == 4
 

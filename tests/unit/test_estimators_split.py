@@ -28,7 +28,7 @@ def _evaluator(x):
 
 
 def _job(points, replicates, seed, detail=True, evaluator=_evaluator, laws=LAWS, sampler="sobol"):
-    est = make_estimator("split", d=len(laws), points=points)
+    est = make_estimator("fast", d=len(laws), points=points)
     design = Design(laws, points, replicates, seed, sampler, copies=est.copies)
     return Job("test", evaluator, design, est, [Group("out", 3, detail)])
 
@@ -70,7 +70,7 @@ def test_other_point_counts_are_balanced_and_the_assignment_ignores_blocks():
 def test_rows_change_the_input_of_their_run():
     design = Design([Law("normal")] * 5, 64, 1, seed=1)
     block = design.block(0, 16, 32)
-    est = make_estimator("split", d=5, points=64)
+    est = make_estimator("fast", d=5, points=64)
     X, js = est.layout(block, np.float64)
     np.testing.assert_array_equal(js, split_inputs(16, 32, split_counts(64, 5)))
     np.testing.assert_array_equal(X[:32], block.A)
@@ -91,9 +91,9 @@ def test_costs_2n_whatever_d_and_refuses_too_few_points():
         run(job, block=64)
         assert sum(calls) == 2 * 256 * 4
     with pytest.raises(UserError, match="at least as many points"):
-        make_estimator("split", d=8, points=4).check(4)
+        make_estimator("fast", d=8, points=4).check(4)
     with pytest.raises(ValueError, match="built for"):
-        make_estimator("split", d=8, points=64).check(128)
+        make_estimator("fast", d=8, points=64).check(128)
 
 
 @pytest.mark.parametrize("detail", [True, False])

@@ -116,7 +116,40 @@ def inputs_section(output: OutputResult, threshold: float = DEFAULT_THRESHOLD) -
         blocks.append(Table(tuple(columns), tuple(rows)))
     if folded:
         blocks.append(Note(f"… {folded} more below {fmt_setting(threshold)}"))
+    blocks += pairs_blocks(output, threshold)
     return Section(title, tuple(blocks))
+
+
+#: Pairs listed per output, strongest first.
+MAX_PAIRS = 6
+
+
+def pairs_blocks(output: OutputResult, threshold: float = DEFAULT_THRESHOLD) -> list[Block]:
+    """Which inputs interact: the strongest pairs' superset importance, and the spread of the dimension."""
+    if not output.pairs:
+        return []
+    shown = [p for p in output.pairs if p.value.estimate >= threshold][:MAX_PAIRS]
+    blocks: list[Block] = []
+    if shown:
+        columns = (Column("pair", "name"), Column("superset importance"), Column("95 % interval"), Column("", "bar"))
+        rows = tuple(
+            (f"{p.first} × {p.second}", fmt(p.value.estimate), fmt_interval(p.value.ci_low, p.value.ci_high),
+             Bar(p.value.estimate))
+            for p in shown
+        )  # fmt: skip
+        blocks.append(Paragraph("Strongest pairs (share of the variance in terms holding both inputs):"))
+        blocks.append(Table(columns, rows))
+    else:
+        blocks.append(Note(f"No pair of the leading inputs holds {fmt_setting(threshold)} of the variance."))
+    spread = output.dimension_spread
+    if spread is not None:
+        blocks.append(
+            Paragraph(
+                f"Spread of the dimension (variance of |u| over the variance's terms): {fmt(spread.estimate)} "
+                f"{fmt_interval(spread.ci_low, spread.ci_high)}; 0 means every term has the same order."
+            )
+        )
+    return blocks
 
 
 def layers_table(result: AuditResult) -> Table:
