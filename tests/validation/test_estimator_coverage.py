@@ -1,4 +1,4 @@
-"""Every registered estimator's interval for nu covers the exact value, and the fast (split) estimator keeps the RQMC gain.
+"""Every registered estimator's interval for nu covers the exact value; the fast estimator keeps the RQMC gain.
 
 Cases (exact nu from the cited formulas):
 
