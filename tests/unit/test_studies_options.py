@@ -39,7 +39,8 @@ def test_points_are_rounded_up_for_scrambled_sobol_points_with_a_notice():
         ({"seed": -1}, "`seed` must be a whole number ≥ 0 or a numpy Generator, got -1."),
         ({"seed": 1.5}, "`seed` must be a whole number ≥ 0"),
         ({"sampler": "halton"}, "Unknown `sampler` 'halton'; valid choices: sobol, mc."),
-        ({"estimator": "jansn"}, "valid choices: jansen, fast, stairs, separate, superset, hashed. Did you mean"),
+        ({"estimator": "jansn"}, "valid choices: jansen, fast, stairs, separate, superset, hashed."
+                                 " Did you mean 'jansen'?"),
     ],
 )
 def test_design_options_refuse_and_name_the_setting(kw, needle):
