@@ -81,12 +81,23 @@ def _open(args: argparse.Namespace, spec: Any, ref: str | None = None) -> Any:
 
 
 def _design(args: argparse.Namespace) -> Any:
-    from ..studies.options import DesignOptions, resume_seed
+    from ..studies.options import DesignOptions
 
-    seed = resume_seed(args.seed, getattr(args, "checkpoint", None))
-    return DesignOptions(
-        points=args.points, replicates=args.replicates, seed=seed, sampler=args.sampler, estimator=args.estimator
-    )
+    return DesignOptions(**_design_given(args))
+
+
+def _design_given(args: argparse.Namespace) -> dict[str, Any]:
+    """The design options given on the command line (the others take their defaults)."""
+    from ..studies.options import resume_seed
+
+    given = {
+        "points": args.points,
+        "replicates": args.replicates,
+        "sampler": args.sampler,
+        "estimator": args.estimator,
+        "seed": resume_seed(args.seed, getattr(args, "checkpoint", None)),
+    }
+    return {k: v for k, v in given.items() if v is not None}
 
 
 def _run_options(args: argparse.Namespace, advance: Any) -> dict[str, Any]:
@@ -150,33 +161,69 @@ def cmd_audit(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-def cmd_compare(args: argparse.Namespace) -> int:
-    from ..studies import Gates, compare_models
+#: Gates a comparison judges unless told otherwise.
+GATES_ON_BY_DEFAULT = (
+    "mean_dimension", "total_index", "first_order", "ranking", "top_k_kept", "layer_mean_dimension", "variance"
+)
 
-    spec = _spec(args)
+
+def _gates(args: argparse.Namespace) -> Any:
+    from ..studies.gates import Gates, load_gates
+
+    gates = Gates()
+    if args.no_default_gates:
+        gates = Gates(**dict.fromkeys(GATES_ON_BY_DEFAULT))
+    if args.gates:
+        gates = load_gates(args.gates, gates)
+    flags = {
+        "mean_dimension": args.gate_mean_dimension,
+        "dimension_rise": args.gate_dimension_rise,
+        "total_index": args.gate_total_index,
+        "first_order": args.gate_first_order,
+        "ranking": args.gate_ranking,
+        "top_k_kept": args.gate_top_k_kept,
+        "layer_mean_dimension": args.gate_layer_mean_dimension,
+        "variance": args.gate_variance,
+        "matter": args.gate_matter,
+        "top_k": args.top_k,
+    }
+    flags = {k: v for k, v in flags.items() if v is not None}
+    return Gates(**{**gates.settings(), **flags}) if flags else gates
+
+
+def cmd_compare(args: argparse.Namespace) -> int:
+    from ..studies import compare_models
+    from ..studies.compare import load_baseline
+
+    baseline = load_baseline(args.old)
+    spec = None if baseline is not None and not (args.inputs or args.law) else _spec(args)
     check_report_target(args.json, [args.old, args.new, getattr(args, "inputs", None), args.checkpoint])
-    old, new = _open(args, spec, args.old), _open(args, spec, args.new)
-    gates = Gates(args.max_dimension_rise, args.min_rank_agreement, args.max_index_shift)
-    design = _design(args)
+    old = baseline if baseline is not None else _open(args, spec, args.old)
+    new = _open(args, spec if spec is not None else _spec(args), args.new)
+    gates = _gates(args)
+    given = _design_given(args)
+    design = baseline.design if baseline is not None else given
     from ..estimators import make_estimator
     from ..models.base import feature_count
 
-    per = make_estimator(design.estimator, d=feature_count(old), points=design.points).rows_per_point()
-    total = 2 * design.points * design.replicates * per
+    estimator, points = design.get("estimator", "jansen"), int(design.get("points", 1024))
+    per = make_estimator(estimator, d=feature_count(new), points=points).rows_per_point()
+    sides = 1 if baseline is not None else 2
+    total = sides * points * int(design.get("replicates", 8)) * per
     with progress(args, total) as bar:
         # the paired run reports each row once for both models
-        advance = bar.advance if args.independent else (lambda n, phase: bar.advance(2 * n, phase))
+        paired = not args.independent and baseline is None
+        advance = (lambda n, phase: bar.advance(2 * n, phase)) if paired else bar.advance
         result = compare_models(
             old,
             new,
-            spec,
+            spec if spec is not None or baseline is None else None,
             layers=args.layers,
             output_map=args.output_map,
             gates=gates,
-            top_k=args.top_k,
             paired=not args.independent,
             outputs=_outputs(args),
-            **{k: getattr(design, k) for k in ("points", "replicates", "seed", "sampler", "estimator")},
+            **given,
             **_run_options(args, advance),
         )
     _finish(result, args)

@@ -72,11 +72,11 @@ def _inputs(p: argparse.ArgumentParser) -> None:
 
 def _design(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("design")
-    g.add_argument("--points", type=int, default=1024, help="points N per randomization, a power of two (default 1024)")
-    g.add_argument("--replicates", type=int, default=8, help="independent randomizations R (default 8)")
+    g.add_argument("--points", type=int, help="points N per randomization, a power of two (default 1024)")
+    g.add_argument("--replicates", type=int, help="independent randomizations R (default 8)")
     g.add_argument("--seed", type=_seed, help="seed for the randomizations (default: fresh, recorded in the report)")
-    g.add_argument("--sampler", default="sobol", help=SAMPLER_HELP)
-    g.add_argument("--estimator", default="jansen", help=_estimator_help())
+    g.add_argument("--sampler", help=SAMPLER_HELP)
+    g.add_argument("--estimator", help=_estimator_help())
 
 
 def _running(p: argparse.ArgumentParser) -> None:
@@ -158,7 +158,11 @@ def _audit(sub: argparse._SubParsersAction) -> None:
 
 def _compare(sub: argparse._SubParsersAction) -> None:
     c = sub.add_parser("compare", help="compare two model versions on the same points, with pipeline gates")
-    c.add_argument("old", metavar="OLD", help="the current model (file or package.module:function)")
+    c.add_argument(
+        "old",
+        metavar="OLD",
+        help="the current model (file or package.module:function), or its saved audit report (.json)",
+    )
     c.add_argument("new", metavar="NEW", help="the candidate model (file or package.module:function)")
     _inputs(c)
     _outputs(c)
@@ -166,31 +170,29 @@ def _compare(sub: argparse._SubParsersAction) -> None:
     g = c.add_argument_group("what to compare")
     g.add_argument("--layers", default="activations", help="hidden layers to compare (same name and size in both)")
     g.add_argument("--output-map", metavar="OLD=NEW,...", help="pair outputs by name or index when they differ")
-    g.add_argument("--top-k", type=_positive_int, default=3, help="size of the leading-input sets compared (3)")
     g.add_argument(
         "--independent",
         action="store_true",
         help="use independent points for the two sides (wider intervals; for checking the pairing)",
     )
-    gates = c.add_argument_group("gates (exit code 3 when one fails)")
-    gates.add_argument(
-        "--max-dimension-rise",
-        type=float,
-        metavar="X",
-        help="fail when any output's ν rises by more than X (judged on the interval's lower end)",
+    gates = c.add_argument_group(
+        "gates (exit code 3 when one fails; a change counts only when its interval lies wholly beyond the tolerance)"
     )
-    gates.add_argument(
-        "--min-rank-agreement",
-        type=float,
-        metavar="T",
-        help="fail when the Kendall τ of any output's total-index ranking falls below T",
-    )
-    gates.add_argument(
-        "--max-index-shift",
-        type=float,
-        metavar="S",
-        help="fail when any input's total index moves by more than S (interval end nearest 0)",
-    )
+    gates.add_argument("--gates", metavar="FILE.toml", help="tolerances from a [gates] table (see the README)")
+    gates.add_argument("--no-default-gates", action="store_true", help="start from no gate instead of the defaults")
+    for flag, dest, text in (
+        ("--max-dimension-change", "mean_dimension", "largest change of any output's ν (default 0.05)"),
+        ("--max-dimension-rise", "dimension_rise", "largest rise of any output's ν (default off)"),
+        ("--max-index-shift", "total_index", "largest change of any input's total index (default 0.05)"),
+        ("--max-first-order-shift", "first_order", "largest change of any input's first-order index (default 0.05)"),
+        ("--min-rank-agreement", "ranking", "least rank agreement of the inputs that matter (default 0.9)"),
+        ("--min-top-k-kept", "top_k_kept", "least share of the old top-k not clearly out of the new (default 1)"),
+        ("--max-layer-dimension-change", "layer_mean_dimension", "largest change of a layer's weighted ν (0.1)"),
+        ("--max-variance-change", "variance", "largest relative change of an output's variance (default 0.25)"),
+        ("--matter-floor", "matter", "inputs whose total index reaches this in either model are ranked (0.01)"),
+    ):
+        gates.add_argument(flag, dest=f"gate_{dest}", type=float, metavar="X", help=text)
+    gates.add_argument("--top-k", type=_positive_int, help="size of the leading-input sets compared (default 3)")
     _running(c)
     _model_loading(c)
     _output(c, all_outputs=False)

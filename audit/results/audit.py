@@ -203,6 +203,10 @@ class AuditResult(Displayable):
     layers : list of LayerResult
     notices : list of str
         Things the user should know about the run (rounded N, ...).
+    replicates : dict
+        The per-randomization values the intervals came from (JSON-ready arrays), so
+        that a later comparison can pair a new model with this audit on the same points
+        (see :mod:`audit.studies.replicates`).
     """
 
     model: dict[str, Any]
@@ -211,9 +215,9 @@ class AuditResult(Displayable):
     outputs: list[OutputResult]
     layers: list[LayerResult] = field(default_factory=list)
     notices: list[str] = field(default_factory=list)
+    replicates: dict[str, Any] = field(default_factory=dict, repr=False)
 
     kind = "audit"
-
 
     def output(self, name: str) -> OutputResult:
         for o in self.outputs:
@@ -232,6 +236,7 @@ class AuditResult(Displayable):
             "outputs": [o.to_dict() for o in self.outputs],
             "layers": [layer.to_dict() for layer in self.layers],
             "notices": list(self.notices),
+            **({"replicates": self.replicates} if self.replicates else {}),
         }
 
     @classmethod
@@ -247,6 +252,7 @@ class AuditResult(Displayable):
             outputs=[OutputResult.from_dict(o) for o in d["outputs"]],
             layers=[LayerResult.from_dict(x) for x in d.get("layers", [])],
             notices=list(d.get("notices", [])),
+            replicates=dict(d.get("replicates", {})),
         )
 
 

@@ -28,11 +28,20 @@ class OutputChange:
     total_index_change : list of FeatureEstimate
         Change of each input's normalised total index (paired intervals), input order.
     moved : list of str
-        Inputs whose total index changed significantly (interval excludes 0), largest first.
+        Inputs whose total index changed beyond the tolerance (interval wholly beyond it), largest first.
     kendall_tau : float
-        Rank agreement of the total indices (``scipy.stats.kendalltau``).
+        Kendall's tau-b of the total indices of the inputs that matter (``scipy.stats.kendalltau``).
     top_k, top_k_overlap : int, float
-        Size of the leading sets compared and the share they have in common.
+        Size of the leading sets compared and the share of the old set not clearly out of the new one.
+    rank_agreement : Estimate or None
+        Interval-aware share of pairs of inputs that matter kept in order
+        (:func:`audit.studies.ranking.rank_agreement`), with its interval.
+    ranked_inputs, swapped : int
+        Inputs that matter, and pairs both models separate in opposite orders.
+    first_order_change : list of FeatureEstimate
+        Change of each input's normalised first-order index (paired intervals), input order.
+    variance_change : Estimate or None
+        Relative change of the output's variance, Var(new) / Var(old) − 1 (paired interval).
     """
 
     name: str
@@ -44,6 +53,11 @@ class OutputChange:
     kendall_tau: float
     top_k: int
     top_k_overlap: float
+    rank_agreement: Estimate | None = None
+    ranked_inputs: int = 0
+    swapped: int = 0
+    first_order_change: list[FeatureEstimate] = field(default_factory=list)
+    variance_change: Estimate | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -57,7 +71,12 @@ class OutputChange:
                 "kendall_tau": _num(self.kendall_tau),
                 "top_k": self.top_k,
                 "top_k_overlap": _num(self.top_k_overlap),
+                "agreement": _opt_dict(self.rank_agreement),
+                "inputs": self.ranked_inputs,
+                "swapped": self.swapped,
             },
+            "first_order_change": [f.to_dict() for f in self.first_order_change],
+            "variance_change": _opt_dict(self.variance_change),
         }
 
     @classmethod
@@ -73,6 +92,11 @@ class OutputChange:
             kendall_tau=_unnum(ra.get("kendall_tau")),
             top_k=int(ra.get("top_k", 0)),
             top_k_overlap=_unnum(ra.get("top_k_overlap")),
+            rank_agreement=_opt_estimate(ra.get("agreement")),
+            ranked_inputs=int(ra.get("inputs", 0)),
+            swapped=int(ra.get("swapped", 0)),
+            first_order_change=[FeatureEstimate.from_dict(x) for x in d.get("first_order_change", [])],
+            variance_change=_opt_estimate(d.get("variance_change")),
         )
 
 

@@ -20,6 +20,7 @@ from ..models.python import PythonModel
 from ..results import AuditResult
 from .options import RunOptions, split_options
 from .pairs import with_pairs
+from .replicates import to_json
 from .session import Session
 from .setup import OUTPUTS, Setup, check_time, inputs_spec, prepare, resolve_model
 from .summarize import GroupStats, design_info, inputs_info, layer_result, model_info, output_results
@@ -60,16 +61,17 @@ def execute(setup: Setup, run: RunOptions | None = None, *, pairs: int = 0) -> A
         if pairs >= 2 and setup.design.d >= 2 and stats.total is not None:
             outputs, paired = with_pairs(setup, outputs, pairs, session)
     seconds = time.perf_counter() - t0
-    layers = [
-        layer_result(x, GroupStats.of(sums["layer:" + x.name], ddof, setup.eps("layer:" + x.name)), setup.names)
-        for x in setup.layers
-    ]
+    layer_stats = {
+        x.name: GroupStats.of(sums["layer:" + x.name], ddof, setup.eps("layer:" + x.name)) for x in setup.layers
+    }
+    layers = [layer_result(x, layer_stats[x.name], setup.names) for x in setup.layers]
     notices = [*setup.notices, *session.notices]
     design = design_info(setup, seconds)
     if paired:
         design["pairs"] = paired
         design["evaluations"] += paired["evaluations"]
-    return AuditResult(model_info(setup), inputs_info(setup), design, outputs, layers, notices)
+    values = to_json(stats, layer_stats)
+    return AuditResult(model_info(setup), inputs_info(setup), design, outputs, layers, notices, values)
 
 
 def audit_model(

@@ -77,6 +77,21 @@ class GroupStats:
         inert = is_inert(mean.mean(axis=0), var.mean(axis=0), eps)
         return cls(mean, var, total, first, total_sum, inert, eps)
 
+    @classmethod
+    def from_arrays(
+        cls,
+        mean: np.ndarray,
+        var: np.ndarray,
+        total: np.ndarray | None,
+        first: np.ndarray | None,
+        total_sum: np.ndarray,
+        eps: np.ndarray | None = None,
+    ) -> GroupStats:
+        """Per-randomization arrays kept elsewhere (a saved report), with the inert test redone."""
+        eps = np.broadcast_to(np.asarray(2.0**-23 if eps is None else eps, dtype=np.float64), mean.shape[1:]).copy()
+        inert = is_inert(mean.mean(axis=0), var.mean(axis=0), eps)
+        return cls(mean, var, total, first, total_sum, inert, eps)
+
     def why_unreliable(self, k: int, nu: Estimate, totals: list[Estimate], d: int) -> str:
         """Why unit ``k``'s ν or a total index cannot be trusted ("" when they can)."""
         mean, var, eps = float(self.mean[:, k].mean()), float(self.var[:, k].mean()), float(self.eps[k])

@@ -80,11 +80,16 @@ def test_version_prints_the_one_version(capsys):
 
 def test_defaults():
     a = _parse("audit", "m")
-    assert (a.points, a.replicates, a.seed, a.sampler, a.estimator) == (1024, 8, None, "sobol", "jansen")
+    # design options not given are left to DesignOptions (so a baseline's design can be told from a choice)
+    assert (a.points, a.replicates, a.seed, a.sampler, a.estimator) == (None, None, None, None, None)
+    from audit.cli.commands import _design
+
+    d0 = _design(a)
+    assert (d0.points, d0.replicates, d0.sampler, d0.estimator) == (1024, 8, "sobol", "jansen")
     assert (a.layers, a.unit_detail, a.checkpoint_every, a.format, a.json) == ("activations", [], 30.0, "text", None)
     assert _parse("audit", "m", "--unit-detail", "a", "--unit-detail", "b,c").unit_detail == ["a", "b,c"]
     c = _parse("compare", "a", "b")
-    assert (c.top_k, c.independent, c.max_dimension_rise, c.output_map) == (3, False, None, None)
+    assert (c.top_k, c.independent, c.gate_dimension_rise, c.output_map, c.gates) == (None, False, None, None, None)
     ad = _parse("advise", "m")
     assert (ad.top, ad.nodes, ad.tolerance, ad.freeze_threshold, ad.freeze_budget, ad.gain_points) == (
         3, 32, 1e-3, 1e-3, 0.01, None
@@ -101,13 +106,14 @@ def _subparsers() -> dict[str, argparse.ArgumentParser]:
 #: The functions each subcommand runs (its command and the helpers that read ``args``).
 READERS = {
     "audit": [commands.cmd_audit, commands._spec, commands._open, commands._design, commands._run_options,
-              commands._memory_limit, commands._outputs, commands._finish, output.print_result, output.save_report],
+              commands._memory_limit, commands._outputs, commands._finish, output.print_result, output.save_report,
+              commands._design_given],
     "compare": [commands.cmd_compare, commands._spec, commands._open, commands._design, commands._run_options,
                 commands._memory_limit, commands._outputs, commands._finish, output.print_result,
-                output.save_report],
+                output.save_report, commands._design_given, commands._gates],
     "advise": [commands.cmd_advise, commands._spec, commands._open, commands._design, commands._run,
                commands._run_options, commands._memory_limit, commands._outputs, commands._finish,
-               output.print_result, output.save_report],
+               output.print_result, output.save_report, commands._design_given],
     "layers": [commands.cmd_layers, commands._spec, commands._open],
     "show": [commands.cmd_show, output.print_result],
     "demo": [commands.cmd_demo, output.print_result, output.save_report],

@@ -40,7 +40,8 @@ def test_sections_in_order_with_the_models_the_run_and_the_note():
 def test_outputs_table_has_both_nus_the_change_and_rank_agreement():
     result = make_comparison()
     table = outputs_table(result)
-    assert [c.header for c in table.columns] == ["output", "ν old", "ν new", "change", "95 %", "Kendall τ", "top-k"]
+    assert [c.header for c in table.columns] == ["output", "ν old", "ν new", "change", "95 %", "rank agreement",
+                                                 "top-k kept"]
     o = result.outputs[0]
     change, half = fmt_change(o.mean_dimension_change)
     assert table.rows[0] == (o.name, fmt(o.old.mean_dimension.estimate), fmt(o.new.mean_dimension.estimate),
@@ -66,4 +67,4 @@ def test_layers_and_gates_with_their_details_or_why_they_are_missing():
     assert [f.label for f in details.rows] == ["max_dimension_rise", "min_rank_agreement"]
     bare = comparison_report(make_comparison(gates=False, layers=False))
     assert bare.sections[3].blocks == (Note("No hidden layer has the same name and unit count in both models."),)
-    assert "No gates were set" in bare.sections[4].blocks[0].text
+    assert "No gates are on" in bare.sections[4].blocks[0].text

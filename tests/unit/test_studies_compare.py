@@ -30,13 +30,14 @@ def test_model_against_itself_changes_nothing_and_passes():
         points=256,
         replicates=8,
         seed=1,
-        gates=Gates(max_dimension_rise=0.0, min_rank_agreement=1.0, max_index_shift=0.0),
+        gates=Gates(dimension_rise=0.0, mean_dimension=0.0, total_index=0.0, first_order=0.0, ranking=1.0),
     )
     o = r.outputs[0]
     e = o.mean_dimension_change
     assert (e.estimate, e.ci_low, e.ci_high) == (0.0, 0.0, 0.0)
     assert all(c.value.estimate == 0.0 for c in o.total_index_change)
-    assert o.moved == [] and o.kendall_tau == pytest.approx(1.0)
+    assert o.moved == [] and o.kendall_tau == pytest.approx(1.0) and o.rank_agreement.estimate == 1.0
+    assert o.swapped == 0 and o.top_k_overlap == 1.0 and o.variance_change.estimate == 0.0
     assert r.passed
 
 
@@ -91,7 +92,7 @@ def test_a_constant_shift_changes_nothing_on_the_same_points():
 def test_a_constant_shift_moves_no_input():
     r = compare_models(
         _m(clifuncs.additive6_plus_product), _m(_shifted), "normal", points=256, replicates=8, seed=4,
-        gates=Gates(max_index_shift=0.0),
+        gates=Gates(total_index=0.0),
     )  # fmt: skip
     assert r.outputs[0].moved == [] and r.passed
 
@@ -143,14 +144,21 @@ def test_layers_are_compared_when_both_models_have_them_with_the_same_size():
 
 
 def test_gates_are_judged_on_the_result():
-    gates = Gates(max_dimension_rise=0.1, min_rank_agreement=0.5, max_index_shift=0.01)
+    gates = Gates(dimension_rise=0.1, ranking=0.5, total_index=0.01)
     r = compare_models(_m(clifuncs.additive6), _m(clifuncs.additive6_plus_product), "normal", points=256,
                        replicates=8, seed=5, gates=gates)  # fmt: skip
-    assert [g.name for g in r.gates] == ["max_dimension_rise", "min_rank_agreement", "max_index_shift"]
-    rise = r.gates[0]
-    assert rise.value == r.outputs[0].mean_dimension_change.ci_low and rise.passed == (rise.value <= 0.1)
+    assert [g.name for g in r.gates] == [
+        "mean_dimension", "dimension_rise", "total_index", "first_order", "ranking", "top_k_kept",
+        "layer_mean_dimension", "variance",
+    ]  # fmt: skip
+    rise = r.gates[1]
+    e = r.outputs[0].mean_dimension_change
+    assert rise.passed == (not e.ci_low > 0.1)  # a rise counts when even the interval's lower end exceeds 0.1
     assert r.passed == all(g.passed for g in r.gates)
-    assert compare_models(_m(clifuncs.additive6), _m(clifuncs.additive6), "normal", points=64, seed=5).gates == []
+    off = Gates(**dict.fromkeys(("mean_dimension", "total_index", "first_order", "ranking", "top_k_kept",
+                                 "layer_mean_dimension", "variance")))  # fmt: skip
+    assert compare_models(_m(clifuncs.additive6), _m(clifuncs.additive6), "normal", points=64, seed=5,
+                          gates=off).gates == []  # fmt: skip
 
 
 def test_design_options_are_checked_for_both_sides():

@@ -1,89 +1,80 @@
-"""Pipeline gates of a comparison (audit.studies.gates): limits, rank agreement, output maps.
+"""Pipeline gates of a comparison (audit.studies.gates): tolerances, the one rule, gate files, output maps.
 
-References: Kendall's τ is scipy.stats.kendalltau; a limit judged on the end of a paired
-interval nearest zero is common practice, no source.
+The rule under test: a change counts only when its interval lies wholly beyond the tolerance
+(it excludes 0 and exceeds the minimum size even at its end nearest 0); agreements fail only when
+their interval lies wholly below the limit. Judging a limit on the end of a paired interval
+nearest zero is common practice, no source.
 """
 
 import math
 
 import pytest
-from scipy import stats
 
 from audit.errors import UserError
-from audit.results import Estimate, FeatureEstimate, OutputChange, OutputResult
+from audit.results import Estimate
 from audit.studies import Gates, parse_output_map
-from audit.studies.gates import judge, rank_agreement
-
-E = Estimate(1.0, 0.9, 1.1, 0.05)
+from audit.studies.gates import DEFAULTS, beyond, check_change, check_least, load_gates
 
 
 def _iv(lo, hi):
     return Estimate((lo + hi) / 2, lo, hi, (hi - lo) / 4)
 
 
-def _output(totals, inert=False):
-    feats = [FeatureEstimate(f"x{j}", _iv(t, t)) for j, t in enumerate(totals)]
-    return OutputResult("y", E, E, None if inert else E, [] if inert else feats, inert=inert)
+def test_defaults_are_on_and_stated():
+    d = DEFAULTS.settings()
+    assert d["mean_dimension"] == 0.05 and d["total_index"] == 0.05 and d["ranking"] == 0.9
+    assert d["dimension_rise"] is None and d["matter"] == 0.01 and d["top_k"] == 3
 
 
-def _change(name, dnu, shifts, tau):
-    feats = [FeatureEstimate(f"x{j}", _iv(*s)) for j, s in enumerate(shifts)]
-    return OutputChange(name, _output([0.5, 0.3]), _output([0.5, 0.3]), dnu, feats, [], tau, 2, 1.0)
+@pytest.mark.parametrize("kw,needle", [({"ranking": 1.5}, "`ranking`"), ({"mean_dimension": -1}, "`mean_dimension`"),
+                                       ({"top_k": 0}, "`top_k`"), ({"variance": "x"}, "`variance`")])  # fmt: skip
+def test_gate_values_are_checked(kw, needle):
+    with pytest.raises(UserError, match=needle):
+        Gates(**kw)
 
 
-OUTPUTS = [
-    _change("u", _iv(0.02, 0.3), [(-0.01, 0.02), (0.05, 0.2)], 0.8),
-    _change("v", _iv(-0.1, 0.05), [(-0.3, -0.1), (-0.02, 0.01)], 0.4),
-    _change("w", None, [], math.nan),  # an inert output: nothing to judge
-]
+def test_beyond_is_zero_unless_the_whole_interval_is_past_the_tolerance():
+    assert beyond(0.02, 0.3, 0.05) == 0.0  # contains values within the tolerance
+    assert beyond(0.07, 0.3, 0.05) == pytest.approx(0.02)
+    assert beyond(-0.3, -0.08, 0.05) == pytest.approx(0.03)
+    assert beyond(-0.01, 0.01, 0.0) == 0.0 and beyond(math.nan, 1.0, 0.0) == 0.0
 
 
-def test_no_gate_set_means_no_check():
-    assert judge(OUTPUTS, Gates()) == []
+def test_a_change_fails_only_beyond_the_tolerance_even_at_its_near_end():
+    changes = [("u", _iv(0.02, 0.3)), ("v", _iv(-0.3, -0.1))]
+    check = check_change("mean_dimension", 0.05, changes, "outputs' ν", 0.0)
+    assert not check.passed and "v" in check.detail.split("near end:")[1] and "u" not in check.detail.split(":")[-1]
+    assert check.value == pytest.approx(0.3)
+    assert check_change("mean_dimension", 0.1, changes, "outputs' ν", 0.0).passed
+    assert check_change("x", None, changes, "y", 0.0) is None  # off
+    # a rise-only gate ignores falls
+    assert check_change("dimension_rise", 0.05, changes, "ν", 0.0, rise_only=True).passed
+    # rounding: a tolerance of 0 still ignores changes within the rounding floor
+    tiny = [("x2", _iv(-2e-8, -1e-8))]
+    assert check_change("total_index", 0.0, tiny, "indices", 7.6e-6).passed
+    assert not check_change("total_index", 0.0, tiny, "indices", 0.0).passed
 
 
-def test_the_dimension_rise_is_judged_on_the_largest_lower_end():
-    (check,) = judge(OUTPUTS, Gates(max_dimension_rise=0.05))
-    assert check.name == "max_dimension_rise" and check.value == 0.02 and check.passed
-    assert check.detail == "largest lower end of a ν change: 0.02 (u)"
-    assert not judge(OUTPUTS, Gates(max_dimension_rise=0.01))[0].passed
-    (none,) = judge([OUTPUTS[2]], Gates(max_dimension_rise=0.0))
-    assert none.passed and none.value == -math.inf and none.detail == "no comparable outputs"
+def test_agreements_fail_only_when_wholly_below_the_limit():
+    values = [("u", _iv(0.85, 0.95)), ("v", _iv(0.6, 0.8))]
+    check = check_least("ranking", 0.9, values, "rankings")
+    assert not check.passed and check.value == pytest.approx(0.7) and "v" in check.detail
+    assert check_least("ranking", 0.8, values, "rankings").passed
 
 
-def test_the_rank_agreement_is_judged_on_the_lowest_tau():
-    (check,) = judge(OUTPUTS, Gates(min_rank_agreement=0.5))
-    assert check.value == 0.4 and not check.passed and "(v)" in check.detail
-    assert judge(OUTPUTS, Gates(min_rank_agreement=0.4))[0].passed
-    (none,) = judge([OUTPUTS[2]], Gates(min_rank_agreement=0.0))
-    assert not none.passed and none.detail == "no rankings"  # nothing ranked cannot pass a ranking gate
-
-
-def test_an_index_shift_is_its_interval_end_nearest_zero():
-    (check,) = judge(OUTPUTS, Gates(max_index_shift=0.06))
-    # u: x0 contains 0 (shift 0), x1 is (0.05, 0.2): 0.05; v: x0 is (-0.3, -0.1): 0.1; v x1 contains 0
-    assert check.value == pytest.approx(0.1) and not check.passed and "(x0 in v)" in check.detail
-    assert judge(OUTPUTS, Gates(max_index_shift=0.1))[0].passed
-    (zero,) = judge([OUTPUTS[2]], Gates(max_index_shift=0.0))
-    assert zero.value == 0.0 and zero.passed
-
-
-def test_all_three_gates_in_order():
-    checks = judge(OUTPUTS, Gates(1.0, 0.0, 1.0))
-    assert [c.name for c in checks] == ["max_dimension_rise", "min_rank_agreement", "max_index_shift"]
-    assert all(c.passed for c in checks)
-
-
-def test_rank_agreement_is_kendalls_tau_and_the_top_k_overlap():
-    a, b = _output([0.5, 0.3, 0.1, 0.05]), _output([0.3, 0.5, 0.05, 0.1])
-    tau, overlap, k = rank_agreement(a, b, top_k=2)
-    assert tau == pytest.approx(stats.kendalltau([0.5, 0.3, 0.1, 0.05], [0.3, 0.5, 0.05, 0.1]).statistic)
-    assert (overlap, k) == (1.0, 2)  # the same two leading inputs, in another order
-    assert rank_agreement(a, b, top_k=3)[1] == pytest.approx(2 / 3)
-    assert rank_agreement(a, a, top_k=9) == (1.0, 1.0, 4)  # k is capped at the number of inputs
-    assert rank_agreement(_output([0.5]), _output([0.7]), 3) == (1.0, 1.0, 1)
-    tau, overlap, k = rank_agreement(a, _output([], inert=True), 3)
-    assert math.isnan(tau) and math.isnan(overlap) and k == 0
+def test_gate_files(tmp_path):
+    f = tmp_path / "gates.toml"
+    f.write_text("[gates]\nmean_dimension = 0.1\ntotal_index = false\ntop_k = 5\n")
+    g = load_gates(f)
+    assert g.mean_dimension == 0.1 and g.total_index is None and g.top_k == 5 and g.ranking == 0.9
+    f.write_text("[gates]\nmean_dimensoin = 0.1\n")
+    with pytest.raises(UserError, match="Did you mean 'mean_dimension'"):
+        load_gates(f)
+    f.write_text("[other]\nx = 1\n")
+    with pytest.raises(UserError, match="one \\[gates\\] table"):
+        load_gates(f)
+    with pytest.raises(UserError, match="does not exist"):
+        load_gates(tmp_path / "none.toml")
 
 
 def test_output_maps_take_names_or_indices():

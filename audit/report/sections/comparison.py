@@ -11,7 +11,7 @@ from __future__ import annotations
 from ...results import ComparisonResult, Estimate, OutputResult
 from ..describe import describe_comparison_run
 from ..document import Block, Cell, CellValue, Column, Field, Fields, Heading, Note, Report, Section, Table
-from ..findings.comparison import MARK, change_note, excludes_zero
+from ..findings.comparison import MARK, change_note, counts, excludes_zero, tolerance
 from ..text import fmt, fmt_count
 
 __all__ = [
@@ -35,12 +35,16 @@ COMPARISON_TITLES = {
 MAX_MOVED = 10
 
 
-def fmt_change(e: Estimate | None) -> tuple[str, str]:
-    """``("-0.00115 *", "± 0.0070")``: the signed change, marked when its interval excludes 0, and the half-width."""
+def fmt_change(e: Estimate | None, tol: float | None = None) -> tuple[str, str]:
+    """``("-0.00115 *", "± 0.0070")``: the signed change, marked when it counts, and the half-width.
+
+    With ``tol`` a change counts when its interval lies wholly beyond ``±tol``; without, when it excludes 0.
+    """
     if e is None:
         return "inert", ""
     sign = "+" if e.estimate >= 0 else ""
-    mark = f" {MARK}" if excludes_zero(e) else ""
+    marked = excludes_zero(e) if tol is None else counts(e, tol)
+    mark = f" {MARK}" if marked else ""
     return f"{sign}{fmt(e.estimate, 3)}{mark}", f"± {fmt((e.ci_high - e.ci_low) / 2, 2)}"
 
 
@@ -48,22 +52,28 @@ def _nu(o: OutputResult) -> str:
     return "inert" if o.mean_dimension is None else fmt(o.mean_dimension.estimate)
 
 
+def _gated(result: ComparisonResult) -> bool:
+    return bool(result.design.get("gates"))
+
+
 def outputs_table(result: ComparisonResult) -> Table:
-    """Per output: ν of each model, the change and its half-width, Kendall τ and top-k overlap."""
+    """Per output: ν of each model, the change and its half-width, rank agreement and the leading set kept."""
     columns = (
         Column("output", "name"),
         Column("ν old"),
         Column("ν new"),
         Column("change", tone="strong"),
         Column("95 %"),
-        Column("Kendall τ"),
-        Column("top-k"),
+        Column("rank agreement"),
+        Column("top-k kept"),
     )
+    tol = tolerance(result, "mean_dimension") if _gated(result) else None
     rows = []
     for o in result.outputs:
-        change, half = fmt_change(o.mean_dimension_change)
-        overlap = "" if o.top_k == 0 else f"{round(o.top_k_overlap * o.top_k)}/{o.top_k}"
-        rows.append((o.name, _nu(o.old), _nu(o.new), change, half, fmt(o.kendall_tau, 3), overlap))
+        change, half = fmt_change(o.mean_dimension_change, tol)
+        kept = "" if o.top_k == 0 else f"{round(o.top_k_overlap * o.top_k)}/{o.top_k}"
+        agreement = o.rank_agreement.estimate if o.rank_agreement is not None else o.kendall_tau
+        rows.append((o.name, _nu(o.old), _nu(o.new), change, half, fmt(agreement, 3), kept))
     return Table(columns, tuple(rows))
 
 
@@ -79,13 +89,18 @@ def moved_blocks(result: ComparisonResult) -> list[Block]:
         new = {f.feature: f.value.estimate for f in o.new.total_index}
         rows: list[tuple[CellValue, ...]] = []
         for name in o.moved[:MAX_MOVED]:
-            change, half = fmt_change(by[name].value)
+            change, half = fmt_change(by[name].value, tolerance(result, "total_index") if _gated(result) else None)
             rows.append((name, fmt(old.get(name), 3), fmt(new.get(name), 3), change, half))
         blocks += [Heading(o.name), Table(columns, tuple(rows))]
         if len(o.moved) > MAX_MOVED:
             blocks.append(Note(f"… {len(o.moved) - MAX_MOVED} more moved"))
     if not blocks:
-        blocks.append(Note("No input's total index changed significantly (every interval contains 0)."))
+        if _gated(result):
+            tol = tolerance(result, "total_index")
+            note = f"No input's total index changed beyond ±{tol:.3g} (no interval lies wholly beyond it)."
+            blocks.append(Note(note))
+        else:
+            blocks.append(Note("No input's total index changed significantly (every interval contains 0)."))
     return blocks
 
 
@@ -102,8 +117,9 @@ def layers_blocks(result: ComparisonResult) -> list[Block]:
         Column("95 %"),
     )
     rows = []
+    tol = tolerance(result, "layer_mean_dimension") if _gated(result) else None
     for x in result.layers:
-        change, half = fmt_change(x.nu_weighted_change)
+        change, half = fmt_change(x.nu_weighted_change, tol)
         old, new = fmt(x.old.get("nu_weighted")), fmt(x.new.get("nu_weighted"))
         rows.append((x.name, fmt_count(x.units), old, new, change, half))
     return [Table(columns, tuple(rows))]
@@ -111,8 +127,9 @@ def layers_blocks(result: ComparisonResult) -> list[Block]:
 
 def gates_blocks(result: ComparisonResult) -> list[Block]:
     """The gates: limit, value and verdict, then what each one judged."""
+    settings = result.design.get("gates") or {}
     if not result.gates:
-        return [Note("No gates were set (see --max-dimension-rise, --min-rank-agreement, --max-index-shift).")]
+        return [Note("No gates are on: the comparison reports the changes and never fails.")]
     columns = (Column("gate", "name"), Column("limit"), Column("value"), Column("result", "text"))
     rows = tuple(
         (g.name, fmt(g.limit), fmt(g.value), Cell("pass") if g.passed else Cell("FAIL", "alert")) for g in result.gates
@@ -121,6 +138,16 @@ def gates_blocks(result: ComparisonResult) -> list[Block]:
     details = tuple(Field(g.name, g.detail) for g in result.gates if g.detail)
     if details:
         blocks.append(Fields(details))
+    if settings:
+        numbers = {k: v for k, v in settings.items() if isinstance(v, int | float) and not isinstance(v, bool)}
+        used = ", ".join(f"{k} {v:g}" for k, v in numbers.items())
+        blocks.append(
+            Note(
+                f"Tolerances used: {used}. A gate fails only when a change's interval lies wholly beyond its "
+                "tolerance (or an agreement's wholly below its limit); the defaults are netdim's, a gate file "
+                "or flags change them."
+            )
+        )
     return blocks
 
 
