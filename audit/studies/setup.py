@@ -67,10 +67,36 @@ def inputs_spec(inputs: InputSpec | str | Path | Sequence[Law] | None) -> InputS
     return InputSpec(laws=laws, source="laws given in Python")
 
 
+def _in_memory(model: Any, spec: InputSpec) -> Model | None:
+    """A ``torch.nn.Module`` or an ``onnx.ModelProto`` given in Python, opened like a file of its kind."""
+    kind = type(model).__module__.split(".")[0]
+    shape = spec.model.get("input_shape")
+    if kind == "torch" or (hasattr(model, "named_modules") and hasattr(model, "state_dict")):
+        import torch
+
+        if isinstance(model, torch.nn.Module):
+            from ..models.torch.module import ModuleModel
+
+            return ModuleModel(model, Path(f"<{type(model).__name__} in memory>"), "torch-module", input_shape=shape)
+    if kind == "onnx" and type(model).__name__ == "ModelProto":
+        import tempfile
+
+        from ..models.open import open_model
+
+        folder = tempfile.TemporaryDirectory(prefix="netdim-onnx-")
+        path = Path(folder.name) / f"{model.graph.name or 'model'}.onnx"
+        path.write_bytes(model.SerializeToString())
+        opened = open_model(str(path), input_shape=shape)
+        opened._folder = folder  # the file lives as long as the model
+        return opened
+    return None
+
+
 def resolve_model(model: Any, spec: InputSpec, **open_options: Any) -> Model:
-    """An opened model: ``model`` itself, or the file / reference it names, opened with the spec's [model] table."""
+    """An opened model: ``model`` itself, a ``torch.nn.Module`` or ``onnx.ModelProto`` given in Python, or the
+    file / reference it names, opened with the spec's [model] table."""
     if not isinstance(model, str | Path):
-        return model
+        return _in_memory(model, spec) or model
     from ..models.open import open_model
 
     options = {"dim": spec.dim}
