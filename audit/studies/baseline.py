@@ -16,7 +16,7 @@ from ..results import AuditResult
 from .options import DesignOptions
 from .setup import inputs_spec
 
-__all__ = ["baseline_design", "baseline_spec"]
+__all__ = ["baseline_design", "baseline_spec", "with_output_names"]
 
 _DESIGN_KEYS = ("points", "replicates", "seed", "sampler", "estimator")
 
@@ -50,9 +50,10 @@ def baseline_spec(report: AuditResult, inputs: Any) -> InputSpec:
     laws = [law_from_dict(i, f"the baseline's input '{i['name']}': ") for i in report.inputs]
     units = [str(i.get("unit", "")) for i in report.inputs]
     output_units = report.model.get("output_units")
+    output_names = None  # set by the comparison when the new model has as many outputs (see with_output_names)
     spec = InputSpec(
-        names=names, laws=laws, units=units, output_units=output_units, source="the baseline report",
-        title=str(report.model.get("title", "")),
+        names=names, laws=laws, units=units, outputs=output_names, output_units=output_units,
+        source="the baseline report", title=str(report.model.get("title", "")),
     )  # fmt: skip
     if inputs is None:
         return spec
@@ -70,6 +71,16 @@ def baseline_spec(report: AuditResult, inputs: Any) -> InputSpec:
             "compare under the baseline's laws (leave `inputs` out), or audit the released model again."
         )
     return InputSpec(
-        names=names, laws=laws, units=units, outputs=asked.outputs, output_units=asked.output_units or output_units,
+        names=names, laws=laws, units=units, outputs=asked.outputs or output_names,
+        output_units=asked.output_units or output_units,
         model=asked.model, source=asked.source, title=asked.title or spec.title,
     )  # fmt: skip
+
+
+def with_output_names(spec: InputSpec, report: AuditResult, units: int) -> InputSpec:
+    """The spec naming the new model's outputs as the baseline's, when it has as many and none are named."""
+    if spec.outputs is not None or units != len(report.outputs):
+        return spec
+    from dataclasses import replace
+
+    return replace(spec, outputs=[o.name for o in report.outputs])

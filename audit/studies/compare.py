@@ -28,7 +28,7 @@ from ..inputs import InputSpec, Law
 from ..models.base import LayerInfo
 from ..results import AuditResult, ComparisonResult, result_from_dict
 from ..seeds import independent_seed
-from .baseline import baseline_design, baseline_spec
+from .baseline import baseline_design, baseline_spec, with_output_names
 from .changes import Side, compare_sides, side_layers
 from .evaluators import PairedEvaluator
 from .gates import ROUNDINGS, Gates, parse_output_map
@@ -240,6 +240,7 @@ def _against_baseline(
     spec = baseline_spec(baseline, inputs)
     _, run = split_options(options)
     new = resolve_model(new, spec)
+    spec = with_output_names(spec, baseline, sum(t.units for t in new.outputs))
     theirs = {x.name: x for x in new.layers()} if not (isinstance(layers, str) and layers == "none") else {}
     kept = [x for x in baseline.layers if x.name in theirs and theirs[x.name].units == len(x.units)]
     if not (isinstance(layers, str) and layers in ("activations", "all", "none")):
