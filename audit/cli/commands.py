@@ -57,11 +57,12 @@ def _shape_arg(items: list[str] | None) -> tuple[int, ...] | dict[str, tuple[int
 
 
 def _spec(args: argparse.Namespace) -> Any:
-    from ..inputs import load_spec, uniform_spec
+    from ..inputs import assumed_spec, load_spec, uniform_spec
 
     if getattr(args, "inputs", None):
         return load_spec(args.inputs)
-    return uniform_spec(getattr(args, "law", None) or "normal")
+    law = getattr(args, "law", None)
+    return uniform_spec(law) if law else assumed_spec()
 
 
 def _open(args: argparse.Namespace, spec: Any, ref: str | None = None) -> Any:
@@ -85,7 +86,12 @@ def _design(args: argparse.Namespace) -> Any:
 
     seed = resume_seed(args.seed, getattr(args, "checkpoint", None))
     return DesignOptions(
-        points=args.points, replicates=args.replicates, seed=seed, sampler=args.sampler, estimator=args.estimator
+        points=args.points,
+        replicates=args.replicates,
+        seed=seed,
+        sampler=args.sampler,
+        estimator=args.estimator,
+        view=getattr(args, "view", None),
     )
 
 
@@ -176,7 +182,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
             top_k=args.top_k,
             paired=not args.independent,
             outputs=_outputs(args),
-            **{k: getattr(design, k) for k in ("points", "replicates", "seed", "sampler", "estimator")},
+            **{k: getattr(design, k) for k in ("points", "replicates", "seed", "sampler", "estimator", "view")},
             **_run_options(args, advance),
         )
     _finish(result, args)

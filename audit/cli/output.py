@@ -62,6 +62,7 @@ FLAGS = {
     "freeze_threshold": "--freeze-threshold",
     "freeze_budget": "--freeze-budget",
     "gain_points": "--gain-points",
+    "view": "--view",
 }
 
 

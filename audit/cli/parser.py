@@ -76,6 +76,15 @@ def _design(p: argparse.ArgumentParser) -> None:
     g.add_argument("--estimator", default="jansen", help=ESTIMATOR_HELP)
 
 
+def _views(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--view",
+        choices=("inputs", "groups", "both"),
+        help="indices per input, per group of inputs (the spec's [groups]), or both on the same points "
+        "(default: groups when the spec declares them)",
+    )
+
+
 def _running(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("running")
     g.add_argument("--checkpoint", metavar="PATH", help="save finished work there and resume from it")
@@ -126,6 +135,7 @@ def _audit(sub: argparse._SubParsersAction) -> None:
     _inputs(a)
     _outputs(a)
     _design(a)
+    _views(a)
     g = a.add_argument_group("hidden layers")
     g.add_argument(
         "--layers", default="activations", help="hidden layers: activations (default), all, none, or NAME,NAME"
@@ -150,6 +160,7 @@ def _compare(sub: argparse._SubParsersAction) -> None:
     _inputs(c)
     _outputs(c)
     _design(c)
+    _views(c)
     g = c.add_argument_group("what to compare")
     g.add_argument("--layers", default="activations", help="hidden layers to compare (same name and size in both)")
     g.add_argument("--output-map", metavar="OLD=NEW,...", help="pair outputs by name or index when they differ")

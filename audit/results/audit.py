@@ -175,6 +175,12 @@ class AuditResult(Displayable):
     layers : list of LayerResult
     notices : list of str
         Things the user should know about the run (rounded N, ...).
+    groups : list of dict
+        In a grouped run (``design["view"] == "groups"``): each group's ``name`` and
+        its ``inputs``; the indices and ν are then those of the groups, and their
+        ``feature`` names are group names. Empty for a run over single inputs.
+    by_group : AuditResult or None
+        The grouped view of a run that asked for both views (on the same points).
     """
 
     model: dict[str, Any]
@@ -183,8 +189,15 @@ class AuditResult(Displayable):
     outputs: list[OutputResult]
     layers: list[LayerResult] = field(default_factory=list)
     notices: list[str] = field(default_factory=list)
+    groups: list[dict[str, Any]] = field(default_factory=list)
+    by_group: AuditResult | None = None
 
     kind = "audit"
+
+    @property
+    def grouped(self) -> bool:
+        """True when the indices of this result are those of groups of inputs."""
+        return bool(self.groups)
 
 
     def output(self, name: str) -> OutputResult:
@@ -204,6 +217,8 @@ class AuditResult(Displayable):
             "outputs": [o.to_dict() for o in self.outputs],
             "layers": [layer.to_dict() for layer in self.layers],
             "notices": list(self.notices),
+            **({"groups": [dict(g) for g in self.groups]} if self.groups else {}),
+            **({"by_group": self.by_group.to_dict()} if self.by_group is not None else {}),
         }
 
     @classmethod
@@ -219,6 +234,8 @@ class AuditResult(Displayable):
             outputs=[OutputResult.from_dict(o) for o in d["outputs"]],
             layers=[LayerResult.from_dict(x) for x in d.get("layers", [])],
             notices=list(d.get("notices", [])),
+            groups=[dict(g) for g in d.get("groups", [])],
+            by_group=cls.from_dict(d["by_group"]) if d.get("by_group") else None,
         )
 
 

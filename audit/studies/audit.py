@@ -21,7 +21,7 @@ from ..results import AuditResult
 from .options import RunOptions, split_options
 from .session import Session
 from .setup import OUTPUTS, Setup, check_time, inputs_spec, prepare, resolve_model
-from .summarize import GroupStats, design_info, inputs_info, layer_result, model_info, output_results
+from .summarize import GroupStats, design_info, groups_info, inputs_info, layer_result, model_info, output_results
 
 __all__ = ["audit_function", "audit_model", "execute", "function_model"]
 
@@ -43,12 +43,28 @@ def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
     run = run or RunOptions()
     if run.block:
         setup.block = run.block
+        if setup.companion is not None:
+            setup.companion.block = run.block
     check_time(setup.job(), setup.evaluations, run.time_budget, setup.block)
     setup.find_relations()
     t0 = time.perf_counter()
     with Session(run) as session:
         sums = session.run(setup.job(), block=setup.block)
-    seconds = time.perf_counter() - t0
+        seconds = time.perf_counter() - t0
+        grouped = None
+        if setup.companion is not None:
+            companion = setup.companion
+            companion.redundant = setup.redundant
+            t1 = time.perf_counter()
+            extra = session.run(companion.job("audit by group"), block=companion.block)
+            grouped = _result(companion, extra, time.perf_counter() - t1, [])
+    return _result(setup, sums, seconds, [*setup.notices, *session.notices], grouped)
+
+
+def _result(
+    setup: Setup, sums: dict[str, Any], seconds: float, notices: list[str], grouped: AuditResult | None = None
+) -> AuditResult:
+    """The :class:`AuditResult` of a setup's finished job."""
     ddof = setup.design.ddof
     stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
     outputs = output_results(stats, setup.output_names, setup.names, setup.redundant)
@@ -56,8 +72,16 @@ def execute(setup: Setup, run: RunOptions | None = None) -> AuditResult:
         layer_result(x, GroupStats.of(sums["layer:" + x.name], ddof, setup.eps("layer:" + x.name)), setup.names)
         for x in setup.layers
     ]
-    notices = [*setup.notices, *session.notices]
-    return AuditResult(model_info(setup), inputs_info(setup), design_info(setup, seconds), outputs, layers, notices)
+    return AuditResult(
+        model_info(setup),
+        inputs_info(setup),
+        design_info(setup, seconds),
+        outputs,
+        layers,
+        notices,
+        groups=groups_info(setup),
+        by_group=grouped,
+    )
 
 
 def audit_model(

@@ -108,6 +108,8 @@ def compare_models(
     ComparisonResult
     """
     design, run = split_options(options)
+    if design.view == "both":
+        raise UserError("A comparison measures one view at a time: set `view` to inputs or groups, not both.")
     spec = inputs_spec(inputs)
     old, new = resolve_model(old, spec), resolve_model(new, spec)
     pairs = _common_layers(old, new, layers)
@@ -141,7 +143,7 @@ def compare_models(
             so.design,
             so.estimator,
             groups,
-            so.names,
+            so.column_names,
             so.dtype if so.dtype == sn.dtype else np.float64,
             identity={"old": so.identity, "new": sn.identity},
         )

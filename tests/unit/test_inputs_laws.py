@@ -26,6 +26,18 @@ def laws(draw):
     hi = lo + draw(positive)
     if kind == "uniform":
         return Law(kind, {"low": lo, "high": hi})
+    if kind == "truncated_normal":
+        return Law(kind, {"mean": lo + draw(st.floats(-1, 2)) * (hi - lo), "sd": hi - lo, "low": lo, "high": hi})
+    if kind == "log_uniform":
+        return Law(kind, {"low": draw(positive), "high": draw(positive) + 1e3 + 1e-3})
+    if kind == "discrete":
+        values = draw(st.lists(finite, min_size=1, max_size=8, unique=True))
+        return Law(kind, {"values": values})
+    if kind == "empirical":
+        q = sorted(draw(st.lists(finite, min_size=2, max_size=30)))
+        if q[0] == q[-1]:
+            q[-1] = q[0] + 1
+        return Law(kind, {"quantiles": q})
     return Law(kind, {"low": lo, "mode": lo + draw(st.floats(0, 1)) * (hi - lo), "high": hi})
 
 
@@ -36,7 +48,7 @@ def test_inverse_cdf_monotone_and_inside_support(law, us):
     x = law.ppf(u)
     assert np.all(np.isfinite(x))
     assert np.all(np.diff(x) >= -1e-9 * (1 + np.abs(x[:-1])))
-    lo, hi = law.dist.support()
+    lo, hi = law.support()
     assert np.all(x >= lo - 1e-9 * (1 + abs(lo))) and np.all(x <= hi + 1e-9 * (1 + abs(hi)))
 
 
