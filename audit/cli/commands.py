@@ -9,6 +9,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import UserError
+from .fromdata import cmd_inputs_from_data
 from .output import check_report_target, console, print_result, progress, save_report
 
 __all__ = ["COMMANDS", "EXIT_GATE", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE"]
@@ -305,4 +306,5 @@ COMMANDS = {
     "layers": cmd_layers,
     "show": cmd_show,
     "demo": cmd_demo,
+    "inputs-from-data": cmd_inputs_from_data,
 }

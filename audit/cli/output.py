@@ -63,6 +63,13 @@ FLAGS = {
     "freeze_budget": "--freeze-budget",
     "gain_points": "--gain-points",
     "view": "--view",
+    "out": "--out",
+    "drop": "--drop",
+    "fit": "--fit",
+    "alpha": "--alpha",
+    "max_levels": "--max-levels",
+    "dependence": "--dependence",
+    "knots": "--knots",
 }
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 from ..version import __version__
+from . import fromdata
 
 __all__ = ["build_parser"]
 
@@ -246,6 +247,7 @@ def build_parser() -> argparse.ArgumentParser:
     _audit(sub)
     _compare(sub)
     _advise(sub)
+    fromdata.add_parser(sub)
 
     lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
     lay.add_argument("model", metavar="MODEL")

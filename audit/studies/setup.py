@@ -371,8 +371,9 @@ def prepare(
 
 #: How to give the real laws, after :data:`~audit.inputs.spec.ASSUMED_NOTICE`.
 ASSUMED_ADVICE = (
-    ": no input spec and no law was given, and the indices and ν change with the law. Give the real laws with "
-    "`inputs` SPEC.toml (`netdim inputs-from-data TABLE` writes one from a table of training inputs) or `law` uniform."
+    ": no input spec and no law was given, and the indices and ν change with the law. Give the real laws in an "
+    "input spec (--inputs SPEC.toml, inputs= in Python; netdim inputs-from-data TABLE writes one from a table of "
+    "training inputs), or --law uniform."
 )
 
 
