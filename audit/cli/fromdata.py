@@ -44,6 +44,13 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
         "--dependence", type=float, default=0.7, help="warn about pairs with |Spearman rank correlation| above (0.7)"
     )
     p.add_argument("--group-dependent", action="store_true", help="write the suggested groups of dependent inputs")
+    p.add_argument(
+        "--group",
+        metavar="NAME=INPUT,...",
+        action="append",
+        default=[],
+        help="write this group of inputs into the spec's [groups] (repeat for several)",
+    )
     p.add_argument("--knots", type=int, default=1025, help="most knots of an empirical law (1025)")
     p.add_argument("--seed", type=int, default=0, help="seed of the goodness-of-fit bootstrap (0)")
     p.add_argument("--debug", action="store_true", help="show tracebacks of errors")
@@ -52,6 +59,16 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 def _names(text: str | None) -> tuple[str, ...]:
     return tuple(n.strip() for n in text.split(",") if n.strip()) if text else ()
+
+
+def _groups(items: list[str]) -> tuple[tuple[str, tuple[str, ...]], ...]:
+    out = []
+    for item in items:
+        name, _, members = item.partition("=")
+        if not name.strip() or not _names(members):
+            raise UserError(f"--group takes NAME=INPUT,INPUT,..., e.g. --group weather=t,w; got '{item}'.")
+        out.append((name.strip(), _names(members)))
+    return tuple(out)
 
 
 def _write(path: Path, text: str, force: bool) -> None:
@@ -126,6 +143,7 @@ def cmd_inputs_from_data(args: argparse.Namespace) -> int:
         dependence=dependence,
         knots=knots,
         group_dependent=args.group_dependent,
+        groups=_groups(args.group),
         seed=args.seed,
     )
     _write(out, made.text, args.force)

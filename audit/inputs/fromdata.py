@@ -40,7 +40,7 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import UserError, check_choice
+from ..errors import UserError, check_choice, suggest
 from .laws import Law
 from .tables import Table
 from .tomlwrite import TomlWriter
@@ -254,6 +254,7 @@ def spec_from_table(
     dependence: float = 0.7,
     knots: int = 1025,
     group_dependent: bool = False,
+    groups: tuple[tuple[str, tuple[str, ...]], ...] = (),
     seed: int = 0,
 ) -> DataSpec:
     """An input spec for the columns of ``table`` (see the module docstring).
@@ -275,6 +276,9 @@ def spec_from_table(
         Most knots of an empirical law.
     group_dependent : bool
         Write the suggested groups as the spec's ``[groups]`` (else as comments).
+    groups : tuple of (name, input names)
+        Groups to write into the spec's ``[groups]`` (with ``group_dependent``, the
+        suggested groups that share no input with these are added).
     seed : int
         Seed of the goodness-of-fit bootstrap.
 
@@ -327,13 +331,19 @@ def spec_from_table(
             inputs[name] = np.searchsorted(np.array(summary.law.params["labels"]), values).astype(np.float64)
         else:
             inputs[name] = values
+    for gname, members in groups:
+        for m in members:
+            if m not in inputs:
+                raise UserError(
+                    f"The group '{gname}' names '{m}', which is not an input of the table." + suggest(m, inputs)
+                )
     pairs = _dependent(table, inputs, dependence)
-    groups = _components(pairs, list(inputs))
+    suggested = _components(pairs, list(inputs))
     warnings = []
     if pairs:
         listed = ", ".join(f"{p.first}–{p.second} (ρ = {p.rho:+.2f})" for p in pairs[:8])
         more = f" and {len(pairs) - 8} more" if len(pairs) > 8 else ""
-        sets = "; ".join("{" + ", ".join(g) + "}" for g in groups)
+        sets = "; ".join("{" + ", ".join(g) + "}" for g in suggested)
         warnings.append(
             f"{len(pairs)} pair{'s' if len(pairs) != 1 else ''} of inputs are strongly dependent (Spearman |ρ| > "
             f"{dependence:g}): {listed}{more}. Sobol' indices assume independent inputs and the design samples each "
@@ -341,8 +351,12 @@ def spec_from_table(
             f"({'written as [groups]' if group_dependent else 'commented out at the end of the spec'}), so that each "
             "set gets one index whatever the dependence within it."
         )
-    text = _write(table, columns, one_hot, pairs, groups, dependence, group_dependent)
-    return DataSpec(table.source, table.rows, columns, one_hot, pairs, groups, dependence, text, warnings)
+    chosen = [(n, list(m)) for n, m in groups]
+    if group_dependent:
+        used = {m for _, ms in chosen for m in ms}
+        chosen += [(f"dependent_{i + 1}", g) for i, g in enumerate(suggested) if not used & set(g)]
+    text = _write(table, columns, one_hot, pairs, suggested, chosen, dependence)
+    return DataSpec(table.source, table.rows, columns, one_hot, pairs, suggested, dependence, text, warnings)
 
 
 def _write(
@@ -350,9 +364,9 @@ def _write(
     columns: list[ColumnSummary],
     one_hot: list[tuple[str, list[str], list[float]]],
     pairs: list[DependentPair],
-    groups: list[list[str]],
+    suggested: list[list[str]],
+    chosen: list[tuple[str, list[str]]],
     dependence: float,
-    group_dependent: bool,
 ) -> str:
     w = TomlWriter()
     w.comment(f"netdim input spec made from {table.source} ({table.rows} rows) by `netdim inputs-from-data`.")
@@ -381,17 +395,23 @@ def _write(
         w.key("name", name)
         w.key("columns", cols)
         w.key("probabilities", [p / sum(probs) for p in probs])
-    if groups:
+    if pairs:
         w.blank()
         w.comment(f"Strongly dependent inputs (Spearman |rho| > {dependence:g}):")
         for p in pairs:
             w.comment(f"  {p.first} and {p.second}: rho = {p.rho:+.3f}")
-        prefix = "" if group_dependent else "# "
-        if not group_dependent:
-            w.comment("Uncomment to measure each set as one group (netdim audit --view groups or both):")
-        w.lines.append(f"{prefix}[groups]")
-        for i, g in enumerate(groups):
-            w.lines.append(f"{prefix}[[groups.group]]")
-            w.key("name", f"dependent_{i + 1}", prefix)
-            w.key("inputs", g, prefix)
+    if chosen:
+        w.blank()
+        w.table("groups")
+        for name, members in chosen:
+            w.array_table("groups.group")
+            w.key("name", name)
+            w.key("inputs", members)
+    elif suggested:
+        w.comment("Uncomment to measure each set as one group (netdim audit --view groups or both):")
+        w.lines.append("# [groups]")
+        for i, g in enumerate(suggested):
+            w.lines.append("# [[groups.group]]")
+            w.key("name", f"dependent_{i + 1}", "# ")
+            w.key("inputs", g, "# ")
     return w.text()
