@@ -28,6 +28,7 @@ from ..inputs.spec import ASSUMED_NOTICE, assumed_spec
 from ..inputs.variables import Variables
 from ..models.base import LayerInfo, Model, feature_count, row_dtype
 from .evaluators import ModelEvaluator
+from .integers import integer_laws
 from .options import DesignOptions
 from .outputs import find_redundant, select_outputs
 from .views import View, group_view, input_view, resolve_view
@@ -321,7 +322,8 @@ def prepare(
         notices.insert(0, ASSUMED_NOTICE + ASSUMED_ADVICE)
     d = feature_count(model)
     python = getattr(model, "format", "") == "python"
-    variables = spec.variables(d, None if python else model.feature_names())
+    variables, integers = integer_laws(model, spec.variables(d, None if python else model.feature_names()))
+    notices += [integers] if integers else []
     out_names = model.output_names()
     if spec.outputs is not None:
         if len(spec.outputs) != len(out_names):
