@@ -134,6 +134,7 @@ class Job:
             "copies": d.copies,
             "d": d.d,
             "laws": [law.to_dict() for law in d.laws],
+            **({"columns": [list(span) for span in d.spans]} if d.spans is not None else {}),
             "estimator": est.name,
             "estimator_settings": est.settings() if hasattr(est, "settings") else {},
             "rows_per_point": est.rows_per_point(),
@@ -239,7 +240,7 @@ def _check_inputs(job: Job, block: Any) -> None:
     cols = np.flatnonzero(~np.isfinite(block.X).all(axis=0)) % job.design.d
     labels = job.feature_names or [f"x{j}" for j in range(job.design.d)]
     names = ", ".join(dict.fromkeys(labels[j] for j in cols[:5]))
-    laws = ", ".join(dict.fromkeys(job.design.laws[j].describe() for j in cols[:5]))
+    laws = ", ".join(dict.fromkeys(job.design.laws[job.design.input_of(j)].describe() for j in cols[:5]))
     raise UserError(
         f"The input law of {names} ({laws}) gives infinite values at the edge of its range: its "
         "inverse CDF overflows in floating point. This is not the model's doing: narrow the law "

@@ -65,3 +65,9 @@ def exits(x):
     import sys
 
     sys.exit(3)
+
+
+def soil_and_weather(x):
+    """(t + w) · level[soil] with soil one-hot in columns 2..4: a function of a category and two measures."""
+    level = np.array([1.0, 2.0, 4.0])
+    return (x[:, 0] + x[:, 1]) * level[np.argmax(x[:, 2:5], axis=1)]

@@ -9,6 +9,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import UserError
+from .fromdata import cmd_inputs_from_data
 from .output import check_report_target, console, print_result, progress, save_report
 
 __all__ = ["COMMANDS", "EXIT_GATE", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE"]
@@ -57,11 +58,12 @@ def _shape_arg(items: list[str] | None) -> tuple[int, ...] | dict[str, tuple[int
 
 
 def _spec(args: argparse.Namespace) -> Any:
-    from ..inputs import load_spec, uniform_spec
+    from ..inputs import assumed_spec, load_spec, uniform_spec
 
     if getattr(args, "inputs", None):
         return load_spec(args.inputs)
-    return uniform_spec(getattr(args, "law", None) or "normal")
+    law = getattr(args, "law", None)
+    return uniform_spec(law) if law else assumed_spec()
 
 
 def _open(args: argparse.Namespace, spec: Any, ref: str | None = None) -> Any:
@@ -95,6 +97,7 @@ def _design_given(args: argparse.Namespace) -> dict[str, Any]:
         "replicates": args.replicates,
         "sampler": args.sampler,
         "estimator": args.estimator,
+        "view": getattr(args, "view", None),
         "seed": resume_seed(args.seed, getattr(args, "checkpoint", None)),
     }
     return {k: v for k, v in given.items() if v is not None}
@@ -346,4 +349,5 @@ COMMANDS = {
     "layers": cmd_layers,
     "show": cmd_show,
     "demo": cmd_demo,
+    "inputs-from-data": cmd_inputs_from_data,
 }

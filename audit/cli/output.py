@@ -72,6 +72,14 @@ FLAGS = {
     "freeze_threshold": "--freeze-threshold",
     "freeze_budget": "--freeze-budget",
     "gain_points": "--gain-points",
+    "view": "--view",
+    "out": "--out",
+    "drop": "--drop",
+    "fit": "--fit",
+    "alpha": "--alpha",
+    "max_levels": "--max-levels",
+    "dependence": "--dependence",
+    "knots": "--knots",
 }
 
 

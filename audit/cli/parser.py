@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 from ..version import __version__
+from . import fromdata
 
 __all__ = ["build_parser"]
 
@@ -79,6 +80,15 @@ def _design(p: argparse.ArgumentParser) -> None:
     g.add_argument("--estimator", help=_estimator_help())
 
 
+def _views(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--view",
+        choices=("inputs", "groups", "both"),
+        help="indices per input, per group of inputs (the spec's [groups]), or both on the same points "
+        "(default: groups when the spec declares them)",
+    )
+
+
 def _running(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("running")
     g.add_argument("--checkpoint", metavar="PATH", help="save finished work there and resume from it")
@@ -129,6 +139,7 @@ def _audit(sub: argparse._SubParsersAction) -> None:
     _inputs(a)
     _outputs(a)
     _design(a)
+    _views(a)
     g = a.add_argument_group("hidden layers")
     g.add_argument(
         "--layers", default="activations", help="hidden layers: activations (default), all, none, or NAME,NAME"
@@ -167,6 +178,7 @@ def _compare(sub: argparse._SubParsersAction) -> None:
     _inputs(c)
     _outputs(c)
     _design(c)
+    _views(c)
     g = c.add_argument_group("what to compare")
     g.add_argument("--layers", default="activations", help="hidden layers to compare (same name and size in both)")
     g.add_argument("--output-map", metavar="OLD=NEW,...", help="pair outputs by name or index when they differ")
@@ -250,6 +262,7 @@ def build_parser() -> argparse.ArgumentParser:
     _audit(sub)
     _compare(sub)
     _advise(sub)
+    fromdata.add_parser(sub)
 
     lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
     lay.add_argument("model", metavar="MODEL")

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from .design import EPS, SAMPLERS, Block, Design, map_to_laws, round_points
+from .design import EPS, SAMPLERS, Block, Design, map_to_laws, map_variables, round_points
 from .points import POINT_SETS, MonteCarlo, PointSet, ScrambledSobol, make_point_set
 
 __all__ = [
@@ -16,5 +16,6 @@ __all__ = [
     "ScrambledSobol",
     "make_point_set",
     "map_to_laws",
+    "map_variables",
     "round_points",
 ]

@@ -13,6 +13,15 @@ other machines, with identical results. Memory is bounded by the block size.
 Every workflow maps uniforms through :func:`map_to_laws`, the one place that
 clips them away from 0 and 1.
 
+Inputs and model columns: by default every input is one model column. A design
+given ``columns`` (the model columns of each input, :class:`audit.inputs.variables.Variables`)
+draws one uniform per input and writes d model columns: an input of one column
+gets its law's value there; an input of k columns is a one-hot block whose law
+is discrete on the codes 0..k−1, and gets a 1 in the column of the drawn code
+and 0 in the others (:func:`map_variables`). So rows are always valid one-hot
+vectors, and ``A_B^{(j)}`` rows that take a block's columns from B take a whole
+category. Without ``columns`` nothing changes: the same uniforms, the same numbers.
+
 References
 ----------
 .. [1] The pick-freeze layout (A, B, A_B^{(j)}): "Variance based sensitivity
@@ -31,7 +40,7 @@ from ..inputs.laws import Law
 from ..seeds import randomization_seeds
 from .points import POINT_SETS, PointSet, Seed, make_point_set
 
-__all__ = ["EPS", "SAMPLERS", "Block", "Design", "map_to_laws", "round_points"]
+__all__ = ["EPS", "SAMPLERS", "Block", "Design", "map_to_laws", "map_variables", "round_points"]
 
 #: Valid point sets (``sampler`` values).
 SAMPLERS = tuple(POINT_SETS)
@@ -99,6 +108,70 @@ def map_to_laws(u: np.ndarray, laws: Sequence[Law], groups: list[tuple[Law, np.n
     return x
 
 
+def _check_spans(laws: Sequence[Law], spans: Sequence[tuple[int, ...]]) -> int:
+    """The number of model columns of ``spans``; every column written once, one-hot laws on 0..k−1."""
+    if len(spans) != len(laws):
+        raise ValueError(f"{len(spans)} column spans given for {len(laws)} inputs.")
+    cols = sorted(c for span in spans for c in span)
+    if cols != list(range(len(cols))):
+        raise ValueError("the inputs' columns must cover 0..d−1, each column once.")
+    for law, span in zip(laws, spans, strict=True):
+        if len(span) > 1 and (not law.discrete or law.params["values"] != tuple(float(v) for v in range(len(span)))):
+            raise ValueError(f"a one-hot input of {len(span)} columns needs a discrete law on 0..{len(span) - 1}.")
+    return len(cols)
+
+
+def map_variables(
+    u: np.ndarray,
+    laws: Sequence[Law],
+    spans: Sequence[tuple[int, ...]],
+    d: int,
+    groups: list[tuple[Law, np.ndarray]] | None = None,
+) -> np.ndarray:
+    """Map uniforms of the inputs to model columns: ``c`` blocks of ``len(laws)`` uniforms to c blocks of d columns.
+
+    Parameters
+    ----------
+    u : ndarray, shape (n, c V)
+        One uniform per input (V = ``len(laws)``) per block.
+    laws : sequence of Law
+        The V input laws.
+    spans : sequence of tuple of int
+        The model columns of each input: one column, or the k columns of a one-hot block.
+    d : int
+        Model columns.
+    groups : list, optional
+        Precomputed column groups of equal laws.
+
+    Returns
+    -------
+    ndarray, shape (n, c d)
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from audit.design import map_variables
+    >>> from audit.inputs import Law
+    >>> colour = Law("discrete", {"values": [0, 1, 2]})
+    >>> map_variables(np.array([[0.5, 0.9]]), [Law("uniform"), colour], [(0,), (1, 2, 3)], 4)
+    array([[0.5, 0. , 0. , 1. ]])
+    """
+    v = len(laws)
+    values = map_to_laws(u, laws, groups)
+    copies = values.shape[1] // v
+    n = values.shape[0]
+    x = np.zeros((n, copies * d))
+    rows = np.arange(n)
+    for i, span in enumerate(spans):
+        for k in range(copies):
+            value = values[:, k * v + i]
+            if len(span) == 1:
+                x[:, k * d + span[0]] = value
+            else:
+                x[rows, k * d + np.asarray(span)[value.astype(np.intp)]] = 1.0
+    return x
+
+
 @dataclass
 class Block:
     """Rows ``[start, start + n)`` of randomization ``rep``, mapped through the laws.
@@ -145,6 +218,10 @@ class Design:
         estimators that need A only.
     seeds : sequence of int or SeedSequence, optional
         The per-randomization seeds themselves (default from ``seed`` as above).
+    columns : sequence of tuple of int, optional
+        The model columns of each input (default: input j is column j). Inputs
+        of several columns are one-hot blocks (:func:`map_variables`); ``d`` is
+        then the number of model columns and ``inputs`` the number of laws.
 
     Examples
     --------
@@ -165,6 +242,7 @@ class Design:
         *,
         copies: int = 2,
         seeds: Sequence[Seed] | None = None,
+        columns: Sequence[Sequence[int]] | None = None,
     ) -> None:
         if sampler not in POINT_SETS:
             raise ValueError(f"unknown sampler {sampler!r}; valid choices: {', '.join(POINT_SETS)}.")
@@ -177,9 +255,14 @@ class Design:
         if copies < 1:
             raise ValueError(f"copies must be at least 1, got {copies}.")
         self.laws = list(laws)
-        self.d = len(self.laws)
-        if self.d < 1:
+        self.inputs = len(self.laws)
+        if self.inputs < 1:
             raise ValueError("a design needs at least one input.")
+        spans = None if columns is None else [tuple(int(c) for c in span) for span in columns]
+        if spans is not None and all(span == (j,) for j, span in enumerate(spans)) and len(spans) == self.inputs:
+            spans = None
+        self.spans: list[tuple[int, ...]] | None = spans
+        self.d = self.inputs if spans is None else _check_spans(self.laws, spans)
         self.points = int(points)
         self.replicates = int(replicates)
         self.seed = int(seed)
@@ -188,7 +271,7 @@ class Design:
         self.rep_seeds: Sequence[Seed] = list(seeds) if seeds is not None else randomization_seeds(seed, replicates)
         if len(self.rep_seeds) != self.replicates:
             raise ValueError(f"{len(self.rep_seeds)} seeds given for {self.replicates} randomizations.")
-        self.points_set: PointSet = make_point_set(sampler, self.copies * self.d, self.rep_seeds)
+        self.points_set: PointSet = make_point_set(sampler, self.copies * self.inputs, self.rep_seeds)
         self._groups = _law_groups(self.laws)
 
     @property
@@ -205,17 +288,25 @@ class Design:
         """The seed of randomization ``rep``."""
         return self.rep_seeds[rep]
 
+    def input_of(self, column: int) -> int:
+        """The input that writes model column ``column``."""
+        if self.spans is None:
+            return column
+        return next(i for i, span in enumerate(self.spans) if column in span)
+
     def uniforms(self, rep: int, start: int, n: int) -> np.ndarray:
-        """Rows ``[start, start + n)`` of the uniform points of randomization ``rep``, shape (n, copies·d)."""
+        """Rows ``[start, start + n)`` of the uniform points of randomization ``rep``, shape (n, copies·inputs)."""
         if start < 0 or n < 1 or start + n > self.points:
             raise ValueError(f"rows [{start}, {start + n}) are outside [0, {self.points}).")
         return self.points_set.uniforms(rep, start, n)
 
     def block(self, rep: int, start: int, n: int) -> Block:
         """Rows ``[start, start + n)`` of randomization ``rep``, mapped through the laws."""
-        x = map_to_laws(self.uniforms(rep, start, n), self.laws, self._groups)
+        x = self.map(self.uniforms(rep, start, n))
         return Block(rep, start, x, self.d, self.rep_seeds[rep])
 
     def map(self, u: np.ndarray) -> np.ndarray:
-        """Map uniform points (n, c·d) through the laws (see :func:`map_to_laws`)."""
-        return map_to_laws(u, self.laws, self._groups)
+        """Map uniform points (n, c·inputs) through the laws to model columns (see :func:`map_variables`)."""
+        if self.spans is None:
+            return map_to_laws(u, self.laws, self._groups)
+        return map_variables(u, self.laws, self.spans, self.d, self._groups)

@@ -18,6 +18,23 @@ The input spec is a TOML file of netdim's own design::
     high = 30.0
     unit = "°C"
 
+    [[inputs.feature]]
+    name = "window_opening"
+    law = "empirical"                   # the quantile function of data:
+    file = "train.csv"                  #   a column of a table (path relative to the spec)
+    column = "window_opening"           #   or inline: quantiles = [...] (levels = [...])
+
+    [[inputs.one_hot]]                  # k model columns holding one category, one-hot
+    name = "soil"
+    columns = ["soil_clay", "soil_loam", "soil_sand"]
+    probabilities = [0.2, 0.5, 0.3]     # optional (default equal)
+
+    [groups]                            # optional: indices of groups of inputs
+    by = "list"                         # or "patch" (patch = "2x2"), "step", "channel"
+    [[groups.group]]
+    name = "weather"
+    inputs = ["outside_temperature", "solar_radiation"]
+
     [outputs]
     names = ["inside_temperature", "inside_humidity"]
     units = ["°C", "%"]
@@ -28,7 +45,14 @@ The input spec is a TOML file of netdim's own design::
     arguments = { hidden = 32 }
 
 Laws and their parameters: ``normal`` (mean, sd), ``uniform`` (low, high),
-``lognormal`` (log_mean, log_sd), ``triangular`` (low, mode, high).
+``lognormal`` (log_mean, log_sd), ``triangular`` (low, mode, high),
+``truncated_normal`` (mean, sd, low, high), ``log_uniform`` (low, high),
+``discrete`` (values, probabilities, labels), ``empirical`` (quantiles, levels;
+or file and column). See :mod:`audit.inputs.laws`; one-hot inputs in
+:mod:`audit.inputs.variables`, groups in :mod:`audit.inputs.groups`.
+
+A spec without any law (no spec at all, in the workflows) takes every input as
+N(0, 1); :data:`ASSUMED_NOTICE` is the notice that says so.
 """
 
 from __future__ import annotations
@@ -38,14 +62,21 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from ..errors import UserError, suggest
-from .laws import LAWS, Law
+import numpy as np
 
-__all__ = ["InputSpec", "load_spec", "parse_spec", "uniform_spec"]
+from ..errors import UserError, suggest
+from .groups import GroupSpec, parse_groups
+from .laws import LAWS, VECTOR_PARAMETERS, Law
+from .variables import OneHot, Variables, build_variables, parse_one_hot
+
+__all__ = ["ASSUMED_NOTICE", "InputSpec", "assumed_spec", "load_spec", "parse_spec", "uniform_spec"]
 
 _FEATURE_META = ("name", "unit", "note")
-_INPUT_KEYS = ("law", "count", "names", "feature")
-_TOP_KEYS = ("title", "inputs", "outputs", "model")
+_DATA_KEYS = ("file", "column")
+_INPUT_KEYS = ("law", "count", "names", "feature", "one_hot")
+_TOP_KEYS = ("title", "inputs", "outputs", "model", "groups")
+#: The first words of the notice of a run whose input laws were assumed, not given.
+ASSUMED_NOTICE = "Every input was taken as N(0, 1)"
 _OUTPUT_KEYS = ("names", "units", "keep")
 _MODEL_KEYS = ("class", "arguments", "input_shape")
 
@@ -76,6 +107,12 @@ class InputSpec:
         The ``[model]`` table (``class``, ``arguments``, ``input_shape``).
     source : str
         File the spec came from, or a description.
+    one_hot : list of OneHot
+        Blocks of model columns that hold one category each (``[[inputs.one_hot]]``).
+    groups : GroupSpec or None
+        How inputs are grouped (``[groups]``), when the spec says.
+    assumed : bool
+        True when no spec and no law was given: every input N(0, 1) by default.
     """
 
     names: list[str] | None = None
@@ -89,6 +126,9 @@ class InputSpec:
     model: dict[str, Any] = field(default_factory=dict)
     source: str = ""
     title: str = ""
+    one_hot: list[OneHot] = field(default_factory=list)
+    groups: GroupSpec | None = None
+    assumed: bool = False
 
     @property
     def dim(self) -> int | None:
@@ -130,6 +170,22 @@ class InputSpec:
         laws = self.laws or [self.default] * d
         return list(names), list(laws)
 
+    def variables(self, d: int | None, default_names: list[str] | None = None) -> Variables:
+        """The inputs of a model with ``d`` columns: names, laws and model columns of each.
+
+        Every column is one input, except the columns of a one-hot block, which are
+        one categorical input together (:func:`audit.inputs.variables.build_variables`).
+        """
+        names, laws = self.resolve(d, default_names)
+        units = list(self.units) if self.units else [""] * len(names)
+        where = f"The input spec {self.source}" if self.source else "The input spec"
+        return build_variables(names, laws, units, self.one_hot, where)
+
+
+def assumed_spec() -> InputSpec:
+    """The spec of a run given no spec and no law: every input N(0, 1), marked as assumed."""
+    return InputSpec(default=Law("normal"), source="", assumed=True)
+
 
 def uniform_spec(law: str = "normal") -> InputSpec:
     """The spec of ``--law normal|uniform``: every input N(0, 1) or U[0, 1]."""
@@ -150,7 +206,42 @@ def _unknown_keys(table: dict[str, Any], valid: tuple[str, ...], where: str) -> 
             )
 
 
-def _feature_law(entry: dict[str, Any], default: Law | None, where: str) -> Law | None:
+def _check_types(params: dict[str, Any], where: str) -> None:
+    for k, v in params.items():
+        if k in VECTOR_PARAMETERS:
+            ok = isinstance(v, list) and all(isinstance(x, int | float) and not isinstance(x, bool) for x in v)
+            if not ok:
+                raise UserError(f"{where}: `{k}` must be a list of numbers, e.g. {k} = [0, 1, 2].")
+        elif k == "labels":
+            if not isinstance(v, list) or not all(isinstance(x, str) and x for x in v):
+                raise UserError(f'{where}: `labels` must be a list of names, e.g. labels = ["clay", "loam"].')
+        elif k == "source":
+            if not isinstance(v, str):
+                raise UserError(f"{where}: `source` must be text.")
+        elif isinstance(v, bool) or not isinstance(v, (int, float)):
+            raise UserError(f"{where}: `{k}` must be a number, got {v!r}.")
+
+
+def _data_quantiles(entry: dict[str, Any], folder: Path, where: str) -> dict[str, Any]:
+    """``quantiles`` (the sorted column) and ``source`` of an empirical law given by ``file`` and ``column``."""
+    from .tables import read_column
+
+    if "file" not in entry or "column" not in entry:
+        raise UserError(f"{where}: an empirical law from data needs both `file` and `column`.")
+    if "quantiles" in entry or "levels" in entry:
+        raise UserError(f"{where}: give an empirical law either by `file` and `column` or by `quantiles`, not both.")
+    file, column = entry["file"], entry["column"]
+    if not isinstance(file, str) or not file:
+        raise UserError(f"{where}: `file` must be the path of a table (CSV, .npy, .npz, .parquet).")
+    path = Path(file) if Path(file).is_absolute() else folder / file
+    try:
+        values = read_column(path, column)
+    except UserError as exc:
+        raise UserError(f"{where}: {exc}") from exc
+    return {"quantiles": np.sort(values).tolist(), "source": f"{file}:{column}"}
+
+
+def _feature_law(entry: dict[str, Any], default: Law | None, where: str, folder: Path | None = None) -> Law | None:
     law_keys = {k for k in entry if k not in _FEATURE_META}
     if not law_keys:
         return default
@@ -161,12 +252,13 @@ def _feature_law(entry: dict[str, Any], default: Law | None, where: str) -> Law 
         kind = default.kind
     if not isinstance(kind, str) or kind not in LAWS:
         raise UserError(f"{where}: unknown law {kind!r}; valid laws: {', '.join(LAWS)}." + suggest(str(kind), LAWS))
-    valid = (*_FEATURE_META, "law", *LAWS[kind][0])
+    extra = _DATA_KEYS if kind == "empirical" else ()
+    valid = (*_FEATURE_META, "law", *LAWS[kind][0], *extra)
     _unknown_keys(entry, valid, where)
     params = {k: entry[k] for k in LAWS[kind][0] if k in entry}
-    for k, v in params.items():
-        if isinstance(v, bool) or not isinstance(v, (int, float)):
-            raise UserError(f"{where}: `{k}` must be a number, got {v!r}.")
+    _check_types(params, where)
+    if any(k in entry for k in _DATA_KEYS):
+        params.update(_data_quantiles(entry, folder or Path.cwd(), where))
     if default is not None and kind == default.kind:
         params = {**default.params, **params}
     try:
@@ -198,12 +290,13 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
     if not isinstance(inputs, dict):
         raise UserError(f"{where}: [inputs] must be a table.")
     all_params = {p for names, _ in LAWS.values() for p in names}
-    _unknown_keys(inputs, (*_INPUT_KEYS, *sorted(all_params)), f"{where}, [inputs]")
+    _unknown_keys(inputs, (*_INPUT_KEYS, *sorted(all_params), *_DATA_KEYS), f"{where}, [inputs]")
+    folder = Path(source).parent if source and Path(source).is_file() else Path.cwd()
 
-    default_entry = {k: v for k, v in inputs.items() if k not in ("count", "names", "feature")}
+    default_entry = {k: v for k, v in inputs.items() if k not in ("count", "names", "feature", "one_hot")}
     if default_entry and "law" not in default_entry:
         raise UserError(f"{where}, [inputs]: law parameters are given but no `law`.")
-    default = _feature_law(default_entry, None, f"{where}, [inputs]") or Law("normal")
+    default = _feature_law(default_entry, None, f"{where}, [inputs]", folder) or Law("normal")
 
     count = inputs.get("count")
     if count is not None and (isinstance(count, bool) or not isinstance(count, int) or count < 1):
@@ -239,7 +332,7 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
                     "listed. Without `names`, list every feature (or add `names` to override some)."
                 )
             names = [e["name"] for e in entries]
-            laws = [_feature_law(e, default, f"{where}, feature '{e['name']}'") for e in entries]
+            laws = [_feature_law(e, default, f"{where}, feature '{e['name']}'", folder) for e in entries]
             units = [str(e.get("unit", "")) for e in entries]
         else:
             laws = [default] * len(names)
@@ -248,7 +341,7 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
                 if e["name"] not in names:
                     raise UserError(f"{where}: feature '{e['name']}' is not in `names`." + suggest(e["name"], names))
                 k = names.index(e["name"])
-                laws[k] = _feature_law(e, default, f"{where}, feature '{e['name']}'")
+                laws[k] = _feature_law(e, default, f"{where}, feature '{e['name']}'", folder)
                 units[k] = str(e.get("unit", ""))
 
     outputs = data.get("outputs", {})
@@ -274,6 +367,10 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
     if "arguments" in model and not isinstance(model["arguments"], dict):
         raise UserError(f"{where}, [model]: `arguments` must be a table, e.g. arguments = {{ hidden = 32 }}.")
 
+    one_hot = parse_one_hot(inputs.get("one_hot", []), where)
+    groups = data.get("groups")
+    group_spec = None if groups is None else parse_groups(groups, f"{where}, [groups]")
+
     return InputSpec(
         names=names,
         laws=laws,
@@ -286,6 +383,8 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
         model=dict(model),
         source=source,
         title=str(data.get("title", "")),
+        one_hot=one_hot,
+        groups=group_spec,
     )
 
 

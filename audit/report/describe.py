@@ -22,6 +22,7 @@ from .text import finite, fmt, fmt_count, fmt_duration, fmt_interval, fmt_settin
 __all__ = [
     "describe_comparison_run",
     "describe_design",
+    "describe_groups",
     "describe_inputs",
     "describe_law",
     "describe_model",
@@ -37,8 +38,13 @@ _LAW_PARAMETERS = {
     "uniform": ("low", "high"),
     "lognormal": ("log_mean", "log_sd"),
     "triangular": ("low", "mode", "high"),
+    "truncated_normal": ("mean", "sd", "low", "high"),
+    "log_uniform": ("low", "high"),
 }
-_NOT_PARAMETERS = {"name", "law", "unit", "note"}
+_NOT_PARAMETERS = {"name", "law", "unit", "note", "one_hot"}
+_LISTED_VALUES = 6
+#: The notice of a run whose laws were assumed starts so (:data:`audit.inputs.spec.ASSUMED_NOTICE`).
+ASSUMED = "Every input was taken as N(0, 1)"
 _LISTED_INPUTS = 8
 _LISTED_LAWS = 3
 
@@ -49,8 +55,31 @@ _ESTIMATORS = {
 }
 
 
+def _special_law(entry: Mapping[str, Any]) -> str | None:
+    """Discrete and empirical laws, and one-hot inputs, in a few words."""
+    law = entry.get("law")
+    if law == "discrete":
+        names = [str(x) for x in entry.get("labels") or []] or [fmt_setting(v) for v in entry.get("values", [])]
+        text = (
+            f"discrete({', '.join(names)})"
+            if len(names) <= _LISTED_VALUES
+            else (f"discrete({len(names)} values, {names[0]}..{names[-1]})" if names else "discrete")
+        )
+        cols = entry.get("one_hot")
+        return f"one-hot over {len(cols)} columns, {text}" if cols else text
+    if law == "empirical":
+        where = f"{entry['source']}, " if entry.get("source") else ""
+        span = f"{fmt_setting(entry.get('low'))} to {fmt_setting(entry.get('high'))}"
+        return f"empirical({where}{entry.get('knots', '?')} knots, {span})"
+    return None
+
+
 def describe_law(entry: Mapping[str, Any]) -> str:
-    """One input's law: ``uniform(0, 16) W/m²``, ``triangular(0, 0.2, 1)``."""
+    """One input's law: ``uniform(0, 16) W/m²``, ``triangular(0, 0.2, 1)``, ``empirical(178 knots, 11 to 14.8)``."""
+    special = _special_law(entry)
+    if special is not None:
+        unit = entry.get("unit")
+        return f"{special} {unit}" if unit else special
     law = str(entry.get("law", "?"))
     keys = _LAW_PARAMETERS.get(law) or tuple(k for k in entry if k not in _NOT_PARAMETERS)
     params = ", ".join(fmt_setting(entry[k]) for k in keys if k in entry)
@@ -171,9 +200,40 @@ def describe_run(result: Any) -> list[Field]:
         (in the ``"warning"`` tone).
     """
     rows = [Field("model", describe_model(result.model)), _inputs_field(result.inputs)]
+    rows += _assumed(result.notices)
+    groups = getattr(result, "groups", None) or []
+    if groups:
+        rows.append(_groups_field(groups))
     rows += describe_design(result.design or {})
-    rows += [Field("notice", str(n), tone="warning") for n in result.notices]
+    rows += [Field("notice", str(n), tone="warning") for n in result.notices if not str(n).startswith(ASSUMED)]
     return rows
+
+
+def _assumed(notices: Sequence[Any]) -> list[Field]:
+    """The notice that the laws were assumed, shown right under the inputs (the report's first lines)."""
+    return [Field("notice", str(n), tone="alert") for n in notices if str(n).startswith(ASSUMED)]
+
+
+def _groups_field(groups: Sequence[Mapping[str, Any]]) -> Field:
+    """``16 groups of 4 inputs; indices and ν count groups`` and, for a few groups, their members."""
+    sizes = sorted({len(g.get("inputs", [])) for g in groups})
+    size = (
+        f"of {sizes[0]} input{'s' if sizes[0] != 1 else ''}"
+        if len(sizes) == 1
+        else f"of {sizes[0]} to {sizes[-1]} inputs"
+    )
+    first = f"{len(groups)} groups {size}: every index is a group's, ν counts groups (1 ≤ ν ≤ {len(groups)})"
+    rest = ()
+    if len(groups) <= _LISTED_INPUTS:
+        rest = tuple(f"{g.get('name')}: {', '.join(map(str, g.get('inputs', [])))}" for g in groups)
+    return Field("groups", first, rest)
+
+
+def describe_groups(result: Any) -> list[Field]:
+    """The header rows of a grouped view: its groups and its own run."""
+    rows = [_groups_field(result.groups)] if result.groups else []
+    run = describe_design({k: v for k, v in (result.design or {}).items() if k in ("evaluations", "seconds")})
+    return rows + run
 
 
 def describe_comparison_run(result: Any) -> list[Field]:
@@ -183,8 +243,9 @@ def describe_comparison_run(result: Any) -> list[Field]:
         Field("new", describe_model(result.new_model)),
         _inputs_field(result.inputs),
     ]
+    rows += _assumed(result.notices)
     rows += describe_design(result.design or {})
-    rows += [Field("notice", str(n), tone="warning") for n in result.notices]
+    rows += [Field("notice", str(n), tone="warning") for n in result.notices if not str(n).startswith(ASSUMED)]
     return rows
 
 

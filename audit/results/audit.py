@@ -207,6 +207,12 @@ class AuditResult(Displayable):
         The per-randomization values the intervals came from (JSON-ready arrays), so
         that a later comparison can pair a new model with this audit on the same points
         (see :mod:`audit.studies.replicates`).
+    groups : list of dict
+        In a grouped run (``design["view"] == "groups"``): each group's ``name`` and
+        its ``inputs``; the indices and ν are then those of the groups, and their
+        ``feature`` names are group names. Empty for a run over single inputs.
+    by_group : AuditResult or None
+        The grouped view of a run that asked for both views (on the same points).
     """
 
     model: dict[str, Any]
@@ -216,8 +222,16 @@ class AuditResult(Displayable):
     layers: list[LayerResult] = field(default_factory=list)
     notices: list[str] = field(default_factory=list)
     replicates: dict[str, Any] = field(default_factory=dict, repr=False)
+    groups: list[dict[str, Any]] = field(default_factory=list)
+    by_group: AuditResult | None = None
 
     kind = "audit"
+
+    @property
+    def grouped(self) -> bool:
+        """True when the indices of this result are those of groups of inputs."""
+        return bool(self.groups)
+
 
     def output(self, name: str) -> OutputResult:
         for o in self.outputs:
@@ -237,6 +251,8 @@ class AuditResult(Displayable):
             "layers": [layer.to_dict() for layer in self.layers],
             "notices": list(self.notices),
             **({"replicates": self.replicates} if self.replicates else {}),
+            **({"groups": [dict(g) for g in self.groups]} if self.groups else {}),
+            **({"by_group": self.by_group.to_dict()} if self.by_group is not None else {}),
         }
 
     @classmethod
@@ -253,6 +269,8 @@ class AuditResult(Displayable):
             layers=[LayerResult.from_dict(x) for x in d.get("layers", [])],
             notices=list(d.get("notices", [])),
             replicates=dict(d.get("replicates", {})),
+            groups=[dict(g) for g in d.get("groups", [])],
+            by_group=cls.from_dict(d["by_group"]) if d.get("by_group") else None,
         )
 
 

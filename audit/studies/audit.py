@@ -23,7 +23,7 @@ from .pairs import with_pairs
 from .replicates import to_json
 from .session import Session
 from .setup import OUTPUTS, Setup, check_time, inputs_spec, prepare, resolve_model
-from .summarize import GroupStats, design_info, inputs_info, layer_result, model_info, output_results
+from .summarize import GroupStats, design_info, groups_info, inputs_info, layer_result, model_info, output_results
 
 __all__ = ["audit_function", "audit_model", "execute", "function_model"]
 
@@ -49,6 +49,8 @@ def execute(setup: Setup, run: RunOptions | None = None, *, pairs: int = 0) -> A
     pairs = check_int(pairs, "pairs", 0)
     if run.block:
         setup.block = run.block
+        if setup.companion is not None:
+            setup.companion.block = run.block
     check_time(setup.job(), setup.evaluations, run.time_budget, setup.block)
     setup.find_relations()
     t0 = time.perf_counter()
@@ -58,20 +60,56 @@ def execute(setup: Setup, run: RunOptions | None = None, *, pairs: int = 0) -> A
         sums = session.run(setup.job(), block=setup.block)
         stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
         outputs = output_results(stats, setup.output_names, setup.names, setup.redundant)
-        if pairs >= 2 and setup.design.d >= 2 and stats.total is not None:
+        if pairs >= 2 and setup.design.d >= 2 and stats.total is not None and _plain(setup):
             outputs, paired = with_pairs(setup, outputs, pairs, session)
-    seconds = time.perf_counter() - t0
+        seconds = time.perf_counter() - t0
+        grouped = None
+        if setup.companion is not None:
+            companion = setup.companion
+            companion.redundant = setup.redundant
+            t1 = time.perf_counter()
+            extra = session.run(companion.job("audit by group"), block=companion.block)
+            grouped = _result(companion, extra, time.perf_counter() - t1, [])
+    result = _result(setup, sums, seconds, [*setup.notices, *session.notices], grouped, outputs)
+    if paired:
+        result.design["pairs"] = paired
+        result.design["evaluations"] += paired["evaluations"]
+    return result
+
+
+def _plain(setup: Setup) -> bool:
+    """One model column per input, indices per input: what pairs of inputs need."""
+    return setup.design.spans is None and (setup.view is None or setup.view.columns is None)
+
+
+def _result(
+    setup: Setup,
+    sums: dict[str, Any],
+    seconds: float,
+    notices: list[str],
+    grouped: AuditResult | None = None,
+    outputs: list | None = None,
+) -> AuditResult:
+    """The :class:`AuditResult` of a setup's finished job (``outputs`` when already made)."""
+    ddof = setup.design.ddof
+    stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
+    if outputs is None:
+        outputs = output_results(stats, setup.output_names, setup.names, setup.redundant)
     layer_stats = {
         x.name: GroupStats.of(sums["layer:" + x.name], ddof, setup.eps("layer:" + x.name)) for x in setup.layers
     }
     layers = [layer_result(x, layer_stats[x.name], setup.names) for x in setup.layers]
-    notices = [*setup.notices, *session.notices]
-    design = design_info(setup, seconds)
-    if paired:
-        design["pairs"] = paired
-        design["evaluations"] += paired["evaluations"]
-    values = to_json(stats, layer_stats)
-    return AuditResult(model_info(setup), inputs_info(setup), design, outputs, layers, notices, values)
+    return AuditResult(
+        model_info(setup),
+        inputs_info(setup),
+        design_info(setup, seconds),
+        outputs,
+        layers,
+        notices,
+        to_json(stats, layer_stats),
+        groups=groups_info(setup),
+        by_group=grouped,
+    )
 
 
 def audit_model(

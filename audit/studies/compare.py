@@ -147,6 +147,8 @@ def compare_models(
             raise UserError("A comparison against a saved baseline pairs the points; `paired` must stay true.")
         return _against_baseline(baseline, new, inputs, layers, output_map, gates, outputs, options)
     design, run = split_options(options)
+    if design.view == "both":
+        raise UserError("A comparison measures one view at a time: set `view` to inputs or groups, not both.")
     spec = inputs_spec(inputs)
     old, new = resolve_model(old, spec), resolve_model(new, spec)
     pairs = _common_layers(old, new, layers)
@@ -171,7 +173,7 @@ def compare_models(
             so.design,
             so.estimator,
             groups,
-            so.names,
+            so.column_names,
             so.dtype if so.dtype == sn.dtype else np.float64,
             identity={"old": so.identity, "new": sn.identity},
         )

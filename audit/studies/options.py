@@ -21,6 +21,7 @@ from ..design import SAMPLERS, round_points
 from ..errors import UserError, check_choice, check_int, check_number, suggest
 from ..estimators import ESTIMATORS
 from ..seeds import resolve_seed
+from .views import VIEWS
 
 __all__ = ["DESIGN_OPTIONS", "RUN_OPTIONS", "DesignOptions", "RunOptions", "resume_seed", "split_options"]
 
@@ -43,6 +44,9 @@ class DesignOptions:
         Scrambled Sobol' points (randomized quasi-Monte Carlo) or plain Monte Carlo.
     estimator : {"jansen", "fast"}
         See :data:`audit.estimators.ESTIMATORS`.
+    view : {"inputs", "groups", "both"} or None
+        Indices per input, per group of inputs (the spec's ``[groups]``), or both
+        (:mod:`audit.studies.views`); default groups when the spec declares them.
 
     Attributes
     ----------
@@ -55,11 +59,14 @@ class DesignOptions:
     seed: int | np.random.Generator | None = None
     sampler: str = "sobol"
     estimator: str = "jansen"
+    view: str | None = None
     notices: list[str] = field(default_factory=list, compare=False)
 
     def __post_init__(self) -> None:
         check_choice(self.sampler, "sampler", SAMPLERS)
         check_choice(self.estimator, "estimator", tuple(ESTIMATORS))
+        if self.view is not None:
+            check_choice(self.view, "view", VIEWS)
         points = check_int(self.points, "points", 1, why="(a power of two is best)")
         replicates = check_int(self.replicates, "replicates", 1)
         if replicates < 2:

@@ -24,10 +24,14 @@ from ..errors import UserError, suggest
 from ..estimators import machine_eps, make_estimator
 from ..estimators.base import Estimator
 from ..inputs import InputSpec, Law, uniform_spec
+from ..inputs.spec import ASSUMED_NOTICE, assumed_spec
+from ..inputs.variables import Variables
 from ..models.base import LayerInfo, Model, feature_count, row_dtype
 from .evaluators import ModelEvaluator
+from .integers import integer_laws
 from .options import DesignOptions
 from .outputs import find_redundant, select_outputs
+from .views import View, group_view, input_view, resolve_view
 
 __all__ = [
     "LAYER_CHOICES",
@@ -54,7 +58,7 @@ def inputs_spec(inputs: InputSpec | str | Path | Sequence[Law] | None) -> InputS
     from ..inputs import load_spec
 
     if inputs is None:
-        return uniform_spec("normal")
+        return assumed_spec()
     if isinstance(inputs, InputSpec):
         return inputs
     if isinstance(inputs, Path) or (isinstance(inputs, str) and inputs.endswith(".toml")):
@@ -182,15 +186,30 @@ class Setup:
     identity: dict[str, Any] = field(default_factory=dict)
     keep: np.ndarray | None = None
     redundant: dict[str, str] = field(default_factory=dict)
+    variables: Variables | None = None
+    view: View | None = None
+    companion: Setup | None = None
+
+    @property
+    def column_names(self) -> list[str]:
+        """Names of the model columns (the inputs' names when every input is one column)."""
+        return list(self.variables.column_names) if self.variables is not None else list(self.names)
+
+    @property
+    def evaluations(self) -> int:
+        """Model evaluations of the whole run: this job's, and the grouped view's job in a "both" run."""
+        own = self.job_evaluations
+        return own + (self.companion.job_evaluations if self.companion is not None else 0)
+
+    @property
+    def job_evaluations(self) -> int:
+        """Model evaluations of this setup's own job."""
+        return self.design.points * self.design.replicates * self.estimator.rows_per_point()
 
     @property
     def dtype(self) -> type:
         """Row type for the evaluator: float32 for networks stored in float32."""
         return row_dtype(self.model)
-
-    @property
-    def evaluations(self) -> int:
-        return self.design.points * self.design.replicates * self.estimator.rows_per_point()
 
     def evaluator(self) -> ModelEvaluator:
         return ModelEvaluator(self.model, [x.name for x in self.layers], self.keep)
@@ -222,7 +241,7 @@ class Setup:
             self.design,
             self.estimator,
             self.groups,
-            self.names,
+            self.column_names,
             self.dtype,
             identity=self.identity,
         )
@@ -289,6 +308,7 @@ def prepare(
     memory_limit: int | None = None,
     seed: int | None = None,
     outputs: Sequence[str] | None = None,
+    view: str | None = None,
 ) -> Setup:
     """Resolve inputs, outputs, layers and design for ``model``; check memory. Nothing is evaluated.
 
@@ -312,6 +332,9 @@ def prepare(
     outputs : list of str, optional
         Output units (or output tensors) to measure; default the spec's ``[outputs] keep``,
         else every float output.
+    view : {"inputs", "groups", "both"}, optional
+        Overrides ``design.view`` (:mod:`audit.studies.views`); with ``"both"`` the
+        setup is the inputs view and :attr:`Setup.companion` the groups view, on the same design.
 
     Raises
     ------
@@ -321,10 +344,12 @@ def prepare(
     options = design or DesignOptions()
     spec = inputs_spec(inputs)
     notices: list[str] = list(options.notices)
+    if spec.assumed:
+        notices.insert(0, ASSUMED_NOTICE + ASSUMED_ADVICE)
     d = feature_count(model)
-    names, laws = spec.resolve(d, model.feature_names())
-    if spec.names is None and getattr(model, "format", "") == "python":
-        names = [f"x{i}" for i in range(d)]
+    python = getattr(model, "format", "") == "python"
+    variables, integers = integer_laws(model, spec.variables(d, None if python else model.feature_names()))
+    notices += [integers] if integers else []
     out_names = model.output_names()
     if spec.outputs is not None:
         if len(spec.outputs) != len(out_names):
@@ -339,9 +364,16 @@ def prepare(
         if name not in {x.name for x in chosen}:
             raise UserError(f"`unit_detail` names layer '{name}', which is not captured; add it to `layers`.")
     root = options.seed if seed is None else seed
-    estimator = make_estimator(options.estimator, d=d, points=options.points)
+    kind = resolve_view(view or options.view, spec)
+    shape = tuple(spec.model["input_shape"]) if "input_shape" in spec.model else _input_shape(model)
+    chosen_view = input_view(variables) if kind != "groups" else group_view(variables, spec, shape)
+    estimator = _estimator(options, d, chosen_view, variables)
+    names, laws = chosen_view.names, variables.laws
     copies = int(getattr(estimator, "copies", 2))  # blocks of d uniform columns the estimator needs per point
-    dsg = Design(laws, options.points, options.replicates, root, options.sampler, copies=copies)  # type: ignore[arg-type]
+    dsg = Design(
+        variables.laws, options.points, options.replicates, root, options.sampler,  # type: ignore[arg-type]
+        copies=copies, columns=variables.spans,
+    )  # fmt: skip
     estimator.check(options.points)
     groups = [engine.Group(OUTPUTS, len(out_names), True)]
     groups += [engine.Group("layer:" + x.name, x.units, x.name in unit_detail) for x in chosen]
@@ -351,6 +383,43 @@ def prepare(
     notices.extend(getattr(model, "notices", []) or [])
     identity = model_identity(model)
     setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
-    setup.keep = keep
-    check_memory([(setup.job(), blk)], memory_limit)
+    setup.keep, setup.variables, setup.view = keep, variables, chosen_view
+    jobs = [(setup.job(), blk)]
+    if kind == "both":
+        grouped = group_view(variables, spec, shape)
+        est = _estimator(options, d, grouped, variables)
+        rows = est.rows_per_point()
+        gblk = block or engine.plan_block(options.points, d, units, rows, budget)
+        setup.companion = Setup(
+            model, grouped.names, laws, out_names, chosen, dsg, est, list(groups), gblk, spec, options, [], identity
+        )
+        setup.companion.keep, setup.companion.variables, setup.companion.view = keep, variables, grouped
+        jobs.append((setup.companion.job("audit by group"), gblk))
+    check_memory(jobs, memory_limit)
     return setup
+
+
+#: How to give the real laws, after :data:`~audit.inputs.spec.ASSUMED_NOTICE`.
+ASSUMED_ADVICE = (
+    ": no input spec and no law was given, and the indices and ν change with the law. Give the real laws in an "
+    "input spec (--inputs SPEC.toml, inputs= in Python; netdim inputs-from-data TABLE writes one from a table of "
+    "training inputs), or --law uniform."
+)
+
+
+def _input_shape(model: Model) -> tuple[int, ...] | None:
+    """The non-batch shape of a model's one input tensor (None with several)."""
+    tensors = list(getattr(model, "inputs", []) or [])
+    return tuple(tensors[0].shape) if len(tensors) == 1 else None
+
+
+def _estimator(options: DesignOptions, d: int, view: View, variables: Variables) -> Estimator:
+    """The estimator of a view: its units' columns swapped as a whole."""
+    if view.columns is not None and options.estimator != "jansen":
+        one_hot = variables.names[variables.one_hot[0]] if variables.one_hot else ""
+        what = "groups of inputs" if view.kind == "groups" else f"the one-hot input '{one_hot}'"
+        raise UserError(
+            f"The {options.estimator} estimator resamples one model column at a time, which cannot serve {what}. "
+            "Use `estimator` jansen."
+        )
+    return make_estimator(options.estimator, d=d, points=options.points, groups=view.columns)

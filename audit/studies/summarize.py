@@ -27,6 +27,7 @@ __all__ = [
     "design_info",
     "estimate",
     "estimates",
+    "groups_info",
     "inputs_info",
     "kept_units",
     "layer_result",
@@ -203,12 +204,28 @@ def kept_units(layer: LayerResult) -> np.ndarray:
 
 
 def inputs_info(setup: Setup) -> list[dict[str, Any]]:
-    """Names, laws and units of the inputs, as the JSON report lists them."""
-    units = list(setup.spec.units) if setup.spec.units else [""] * len(setup.names)
-    return [
-        {"name": n, **law.to_dict(), **({"unit": u} if u else {})}
-        for n, law, u in zip(setup.names, setup.laws, units, strict=True)
-    ]
+    """Names, laws and units of the inputs, as the JSON report lists them (a one-hot input: its columns too)."""
+    v = setup.variables
+    if v is None:
+        units = list(setup.spec.units) if setup.spec.units else [""] * len(setup.names)
+        return [
+            {"name": n, **law.to_dict(), **({"unit": u} if u else {})}
+            for n, law, u in zip(setup.names, setup.laws, units, strict=True)
+        ]
+    out = []
+    for name, law, unit, cols in zip(v.names, v.laws, v.units, v.columns, strict=True):
+        entry: dict[str, Any] = {"name": name, **law.to_dict(), **({"unit": unit} if unit else {})}
+        if len(cols) > 1:
+            entry["one_hot"] = [v.column_names[c] for c in cols]
+        out.append(entry)
+    return out
+
+
+def groups_info(setup: Setup) -> list[dict[str, Any]]:
+    """The groups of a grouped view: name and input names of each (empty for the inputs view)."""
+    if setup.view is None or setup.variables is None or setup.view.kind != "groups":
+        return []
+    return setup.view.describe(setup.variables)
 
 
 def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
@@ -220,12 +237,13 @@ def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
         "sampler": setup.design.sampler,
         "estimator": setup.estimator.name,
         "estimator_label": setup.estimator.label,
-        "evaluations": setup.evaluations,
+        "evaluations": setup.job_evaluations,
         "block": setup.block,
         "interval": f"Student-t over {setup.design.replicates} independent randomizations, {LEVEL:.0%}",
         "level": LEVEL,
         "seconds": round(seconds, 3),
         **({"spec": setup.spec.source} if setup.spec.source.endswith(".toml") else {}),
+        **({"view": setup.view.kind} if setup.view is not None and setup.view.kind != "inputs" else {}),
     }
 
 

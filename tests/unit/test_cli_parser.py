@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from audit.cli import commands, output
+from audit.cli import commands, fromdata, output
 from audit.cli.parser import build_parser
 from audit.version import __version__
 
@@ -117,6 +117,7 @@ READERS = {
     "layers": [commands.cmd_layers, commands._spec, commands._open],
     "show": [commands.cmd_show, output.print_result],
     "demo": [commands.cmd_demo, output.print_result, output.save_report],
+    "inputs-from-data": [fromdata.cmd_inputs_from_data],
 }  # fmt: skip
 
 

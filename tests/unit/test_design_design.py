@@ -132,3 +132,22 @@ def test_seeds_given_or_derived_from_the_root():
     assert derived.rqmc and derived.ddof == 0
     mc = Design(LAWS, 10, 1, seed=8, sampler="mc")
     assert not mc.rqmc and mc.ddof == 1
+
+
+def test_one_hot_inputs_give_valid_rows_and_leave_other_columns_as_they_were():
+    from audit.inputs import Law as _Law
+
+    colour = _Law("discrete", {"values": [0, 1, 2], "probabilities": [0.2, 0.5, 0.3]})
+    laws = [_Law("uniform"), colour, _Law("normal")]
+    plain = Design([_Law("uniform"), _Law("uniform"), _Law("normal")], 64, 2, seed=3)
+    hot = Design(laws, 64, 2, seed=3, columns=[(0,), (1, 2, 3), (4,)])
+    assert (hot.d, hot.inputs) == (5, 3)
+    b, p = hot.block(1, 0, 64), plain.block(1, 0, 64)
+    for part in (b.A, b.B):
+        assert np.isin(part[:, 1:4], (0, 1)).all() and (part[:, 1:4].sum(axis=1) == 1).all()
+    # the same uniforms: the other inputs are the values of the plain design, the category its code
+    np.testing.assert_array_equal(b.A[:, [0, 4]], p.A[:, [0, 2]])
+    np.testing.assert_array_equal(np.argmax(b.A[:, 1:4], axis=1), colour.ppf(p.A[:, 1]))
+    assert hot.input_of(3) == 1 and hot.input_of(4) == 2
+    with pytest.raises(ValueError, match=r"discrete law on 0\.\.2"):
+        Design([_Law("uniform"), _Law("normal")], 8, 2, seed=1, columns=[(0,), (1, 2, 3)])

@@ -26,6 +26,18 @@ def laws(draw):
     hi = lo + draw(positive)
     if kind == "uniform":
         return Law(kind, {"low": lo, "high": hi})
+    if kind == "truncated_normal":
+        return Law(kind, {"mean": lo + draw(st.floats(-1, 2)) * (hi - lo), "sd": hi - lo, "low": lo, "high": hi})
+    if kind == "log_uniform":
+        return Law(kind, {"low": draw(positive), "high": draw(positive) + 1e3 + 1e-3})
+    if kind == "discrete":
+        values = draw(st.lists(finite, min_size=1, max_size=8, unique=True))
+        return Law(kind, {"values": values})
+    if kind == "empirical":
+        q = sorted(draw(st.lists(finite, min_size=2, max_size=30)))
+        if q[0] == q[-1]:
+            q[-1] = q[0] + 1
+        return Law(kind, {"quantiles": q})
     return Law(kind, {"low": lo, "mode": lo + draw(st.floats(0, 1)) * (hi - lo), "high": hi})
 
 
@@ -36,7 +48,7 @@ def test_inverse_cdf_monotone_and_inside_support(law, us):
     x = law.ppf(u)
     assert np.all(np.isfinite(x))
     assert np.all(np.diff(x) >= -1e-9 * (1 + np.abs(x[:-1])))
-    lo, hi = law.dist.support()
+    lo, hi = law.support()
     assert np.all(x >= lo - 1e-9 * (1 + abs(lo))) and np.all(x <= hi + 1e-9 * (1 + abs(hi)))
 
 
@@ -96,3 +108,73 @@ def test_describe_and_to_dict():
     assert law_from_dict(law.to_dict()) == law  # the JSON form reads back
     with pytest.raises(ValueError, match="at least 1 node"):
         law.quadrature(0)
+
+
+@pytest.mark.parametrize(
+    "law",
+    [
+        Law("truncated_normal", {"mean": 1.0, "sd": 2.0, "low": 0.0, "high": 3.0}),
+        Law("truncated_normal", {"mean": 0.0, "sd": 1.0, "low": -0.5, "high": math.inf}),
+        Law("log_uniform", {"low": 0.1, "high": 100.0}),
+    ],
+)
+def test_new_continuous_laws_match_scipy(law):
+    # scipy.stats.truncnorm and scipy.stats.loguniform are the references
+    u = np.linspace(0.01, 0.99, 9)
+    np.testing.assert_allclose(law.ppf(u), law.dist.ppf(u), rtol=1e-10)
+    np.testing.assert_allclose(law.cdf(law.ppf(u)), u, rtol=1e-10)
+    x, w = law.quadrature(24)
+    assert w.sum() == pytest.approx(1.0)
+    for k in (1, 2, 3):
+        assert np.dot(w, x**k) == pytest.approx(law.dist.moment(k), rel=1e-8)
+
+
+def test_discrete_law_inverse_cdf_and_exact_summation():
+    law = Law("discrete", {"values": [3, 1, 2], "probabilities": [0.2, 0.5, 0.3]})
+    assert law.params["values"] == (1.0, 2.0, 3.0) and law.params["probabilities"] == (0.5, 0.3, 0.2)
+    u = (np.arange(10_000) + 0.5) / 10_000  # a fine grid: each value gets its probability's share
+    counts = np.array([(law.ppf(u) == v).mean() for v in (1, 2, 3)])
+    np.testing.assert_allclose(counts, [0.5, 0.3, 0.2], atol=1e-4)
+    x, w = law.quadrature(2)  # every value, whatever m: sums are exact
+    assert x.tolist() == [1, 2, 3] and np.dot(w, x**2) == pytest.approx(0.5 + 1.2 + 1.8)
+    np.testing.assert_allclose(law.cdf(np.array([0.5, 1, 2.5, 3])), [0, 0.5, 0.8, 1.0])
+    assert law.integer and law.describe() == "discrete(1, 2, 3)"
+    cats = Law("discrete", {"labels": ["clay", "loam"]})
+    assert cats.params["values"] == (0.0, 1.0) and cats.describe() == "discrete(clay, loam)"
+
+
+def test_empirical_law_is_numpy_s_linear_quantile_and_has_a_gauss_rule():
+    # numpy.quantile (linear method) is the reference for the quantile function; the Gauss rule
+    # reproduces the law's moments, which are those of uniform pieces between order statistics
+    data = np.random.default_rng(4).gamma(2.0, size=200)
+    law = Law("empirical", {"quantiles": np.sort(data)})
+    u = np.linspace(0, 1, 33)
+    np.testing.assert_allclose(law.ppf(u), np.quantile(data, u), rtol=1e-12)
+    np.testing.assert_allclose(law.cdf(law.ppf(u[1:-1])), u[1:-1], atol=1e-12)
+    q = np.sort(data)
+    exact_mean = np.mean((q[1:] + q[:-1]) / 2)
+    exact_second = np.mean((q[1:] ** 2 + q[1:] * q[:-1] + q[:-1] ** 2) / 3)
+    x, w = law.quadrature(8)
+    assert np.dot(w, x) == pytest.approx(exact_mean, rel=1e-12)
+    assert np.dot(w, x**2) == pytest.approx(exact_second, rel=1e-12)
+    d = law.to_dict()
+    assert d["knots"] == 200 and d["low"] == q[0] and len(d["digest"]) == 16
+
+
+@pytest.mark.parametrize(
+    ("kind", "params", "needle"),
+    [
+        ("discrete", {"values": [1, 1]}, "listed twice"),
+        ("discrete", {"values": [1, 2], "probabilities": [0.5, 0.6]}, "add up to 1"),
+        ("discrete", {"values": [1, 2], "probabilities": [0.5]}, "2 values but 1 probabilities"),
+        ("discrete", {}, "give its `values`"),
+        ("empirical", {"quantiles": [2, 1]}, "sorted"),
+        ("empirical", {"quantiles": [1, 1]}, "constant"),
+        ("empirical", {"quantiles": [1, 2], "levels": [0, 0.5]}, "from 0 to 1"),
+        ("truncated_normal", {"low": 20, "high": 30}, "more than 12 sd"),
+        ("log_uniform", {"low": 0, "high": 1}, "low must be > 0"),
+    ],
+)
+def test_new_law_errors(kind, params, needle):
+    with pytest.raises(ValueError, match=needle):
+        Law(kind, params)

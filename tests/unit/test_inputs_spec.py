@@ -1,5 +1,6 @@
 """The TOML input spec (audit.inputs.spec)."""
 
+import math
 import tomllib
 
 import pytest
@@ -117,3 +118,55 @@ def test_resolve_takes_the_model_side_when_the_spec_says_nothing():
     assert spec.resolve(3, ["a", "b"])[0] == ["x0", "x1", "x2"]
     with pytest.raises(UserError, match="does not say how many inputs"):
         spec.resolve(None)
+
+
+def test_spec_new_laws_data_files_one_hot_and_groups(tmp_path):
+    (tmp_path / "train.csv").write_text("w\n0.5\n0.1\n0.9\n", encoding="utf-8")
+    text = """
+[inputs]
+names = ["t", "w", "red", "blue"]
+[[inputs.feature]]
+name = "t"
+law = "truncated_normal"
+low = 0.0
+high = inf
+[[inputs.feature]]
+name = "w"
+law = "empirical"
+file = "train.csv"
+column = "w"
+[[inputs.one_hot]]
+name = "colour"
+columns = ["red", "blue"]
+probabilities = [0.25, 0.75]
+[groups]
+[[groups.group]]
+name = "tw"
+inputs = ["t", "w"]
+"""
+    path = tmp_path / "s.toml"
+    path.write_text(text, encoding="utf-8")
+    spec = load_spec(path)
+    assert spec.laws[0].kind == "truncated_normal" and spec.laws[0].params["high"] == math.inf
+    assert spec.laws[1].params["quantiles"] == (0.1, 0.5, 0.9) and spec.laws[1].params["source"] == "train.csv:w"
+    v = spec.variables(4)
+    assert v.names == ["t", "w", "colour"] and v.columns == [(0,), (1,), (2, 3)]
+    assert spec.groups.lists == [("tw", ("t", "w"))]
+
+
+@pytest.mark.parametrize(
+    ("text", "needle"),
+    [
+        ('[inputs]\nlaw = "discrete"\nvalues = "1, 2"', "`values` must be a list of numbers"),
+        ('[inputs]\nlaw = "empirical"\nfile = "x.csv"', "needs both `file` and `column`"),
+        ('[inputs]\nlaw = "empirical"\nfile = "nowhere.csv"\ncolumn = "a"', "does not exist"),
+        ('[inputs]\n[[inputs.one_hot]]\nname = "c"\ncolumns = ["a"]', "at least 2 model columns"),
+        ('[groups]\nby = "patches"', "Did you mean 'patch'"),
+        ('[groups]\nby = "patch"', "needs the patch size"),
+        ('[groups]\nby = "patch"\npatch = "2 by 2"', "HxW"),
+        ("[groups]\n", "list the groups"),
+    ],
+)
+def test_new_spec_errors_name_the_problem(text, needle):
+    with pytest.raises(UserError, match=needle):
+        parse_spec(tomllib.loads(text), "s.toml")

@@ -90,7 +90,7 @@ def test_split_options_sorts_keywords_and_leaves_allowed_ones():
     assert (design.points, design.seed) == (512, 3)
     assert (run.block, run.checkpoint_seconds) == (64, 5)
     assert options == {"top": 2}  # the design and run options were taken out
-    assert set(DESIGN_OPTIONS) == {"points", "replicates", "seed", "sampler", "estimator"}
+    assert set(DESIGN_OPTIONS) == {"points", "replicates", "seed", "sampler", "estimator", "view"}
     assert set(RUN_OPTIONS) == {
         "progress", "checkpoint", "checkpoint_seconds", "cluster", "memory_limit", "block", "time_budget"
     }
@@ -101,7 +101,7 @@ def test_split_options_refuses_unknown_names_with_a_suggestion_and_the_list():
         split_options({"pionts": 512})
     message = e.value.message
     assert message.startswith("Unknown setting `pionts`. Did you mean 'points'?")
-    assert "Valid settings: points, replicates, seed, sampler, estimator, progress, checkpoint" in message
+    assert "Valid settings: points, replicates, seed, sampler, estimator, view, progress, checkpoint" in message
     with pytest.raises(UserError, match="Did you mean 'top'"):
         split_options({"tpo": 1}, allowed=("top",))
     with pytest.raises(UserError, match="Unknown setting `top`"):

@@ -11,7 +11,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from ...results import AuditResult, OutputResult
-from ..describe import describe_output, describe_run, layer_inert, layer_units
+from ..describe import describe_groups, describe_output, describe_run, layer_inert, layer_units
 from ..document import (
     Bar,
     Block,
@@ -36,6 +36,7 @@ __all__ = [
     "SECTION_TITLES",
     "audit_report",
     "findings_block",
+    "grouped_sections",
     "inputs_section",
     "layers_table",
     "outputs_table",
@@ -45,6 +46,8 @@ SECTION_TITLES = {
     "header": "Model and run",
     "outputs": "Outputs at a glance",
     "inputs": "Inputs of {name}, ranked by total index",
+    "groups": "Groups of inputs of {name}, ranked by total index",
+    "grouped": "By group of inputs (on the same points)",
     "layers": "Hidden layers, input to output",
     "findings": "What the numbers suggest",
 }
@@ -54,7 +57,7 @@ _NU = "ν and 95 % interval"
 
 
 def outputs_table(result: AuditResult) -> Table:
-    """One row per output: variance, ν and its interval, additive share, leading inputs.
+    """One row per output: variance, ν and its interval, additive share, leading inputs (or groups).
 
     Inert outputs show ``"inert (constant)"`` in place of ν; the additive
     share is blank when the estimator gave no first-order indices.
@@ -65,7 +68,7 @@ def outputs_table(result: AuditResult) -> Table:
         Column("ν", tone="strong", group=_NU),
         Column("95 % interval", group=_NU),
         Column("additive share"),
-        Column("leading inputs", "note"),
+        Column("leading groups" if result.grouped else "leading inputs", "note"),
     )
     rows: list[tuple[CellValue, ...]] = []
     for o in result.outputs:
@@ -83,9 +86,9 @@ def outputs_table(result: AuditResult) -> Table:
     return Table(columns, tuple(rows))
 
 
-def inputs_section(output: OutputResult, threshold: float = DEFAULT_THRESHOLD) -> Section:
-    """The inputs of one output, largest total index first; those below ``threshold`` are counted, not listed."""
-    title = SECTION_TITLES["inputs"].format(name=output.name)
+def inputs_section(output: OutputResult, threshold: float = DEFAULT_THRESHOLD, grouped: bool = False) -> Section:
+    """The inputs (or groups) of one output, largest total index first; those below ``threshold`` are counted."""
+    title = SECTION_TITLES["groups" if grouped else "inputs"].format(name=output.name)
     blocks: list[Block] = [Paragraph(describe_output(output))]
     if output.inert or output.mean_dimension is None:
         return Section(title, tuple(blocks))
@@ -97,9 +100,10 @@ def inputs_section(output: OutputResult, threshold: float = DEFAULT_THRESHOLD) -
     if not output.total_index:
         return Section(title, (*blocks, Note("This estimator measures ν only; no per-input indices.")))
     first = {f.feature: f for f in output.first_order}
-    columns = [Column("input", "name"), Column("total index"), Column("95 % interval"), Column("size (0–1)", "bar")]
+    unit = "group" if grouped else "input"
+    columns = [Column(unit, "name"), Column("total index"), Column("95 % interval"), Column("size (0–1)", "bar")]
     if output.first_order:
-        columns.append(Column("first order"))
+        columns.append(Column("closed first order" if grouped else "first order"))
     rows: list[tuple[CellValue, ...]] = []
     folded = 0
     for f in output.ranked():
@@ -171,6 +175,23 @@ def layers_table(result: AuditResult) -> Table:
     return Table(columns, tuple(rows))
 
 
+def grouped_sections(
+    result: AuditResult, *, all_outputs: bool, threshold: float, max_outputs: int
+) -> list[Section]:
+    """The grouped view of a run that asked for both: groups, outputs by group, and the shown outputs' groups."""
+    g = result.by_group
+    if g is None:
+        return []
+    head: list[Block] = [Fields(tuple(describe_groups(g)))]
+    head.append(outputs_table(g) if g.outputs else Note("No outputs recorded."))
+    if g.layers:
+        head.append(layers_table(g))
+    sections = [Section(SECTION_TITLES["grouped"], tuple(head))]
+    ranked = [o for o in g.outputs if not o.relation]
+    shown = ranked if all_outputs else ranked[:max_outputs]
+    return sections + [inputs_section(o, threshold, True) for o in shown]
+
+
 def findings_block(found: Sequence[Finding], empty: str) -> Block:
     """Findings as bullets with their commands, or the sentence ``empty`` when there are none."""
     if not found:
@@ -216,7 +237,7 @@ def audit_report(
     sections.append(Section(SECTION_TITLES["outputs"], (overview,)))
     ranked = [o for o in result.outputs if not o.relation]
     shown = ranked if all_outputs else ranked[:max_outputs]
-    sections += [inputs_section(o, threshold) for o in shown]
+    sections += [inputs_section(o, threshold, result.grouped) for o in shown]
     hidden = len(ranked) - len(shown)
     if hidden:
         noun = "output" if hidden == 1 else "outputs"
@@ -234,6 +255,7 @@ def audit_report(
                 )
             )
         sections.append(Section(SECTION_TITLES["layers"], tuple(blocks)))
+    sections += grouped_sections(result, all_outputs=all_outputs, threshold=threshold, max_outputs=max_outputs)
     found = derive_findings(result, threshold=threshold)
     empty = "Nothing stands out under the rules of thumb used here."
     sections.append(Section(SECTION_TITLES["findings"], (findings_block(found, empty),)))

@@ -172,9 +172,21 @@ def prepare_advice(
     eps = check_number(freeze_threshold, "freeze_threshold", 0.0, 1.0, low_open=True)
     budget = check_number(freeze_budget, "freeze_budget", 0.0, 2.0, low_open=True)
     gains = _gain_points(gain_points)
+    if design.view not in (None, "inputs"):
+        raise UserError(
+            f"Advice integrates out and freezes single inputs, so it runs over inputs only; `view` {design.view} "
+            "is for `netdim audit`."
+        )
     setup = prepare(
-        model, inputs, design=design, layers="none", block=block, memory_limit=memory_limit, outputs=outputs
+        model, inputs, design=design, layers="none", block=block, memory_limit=memory_limit, outputs=outputs,
+        view="inputs",
     )
+    if setup.design.spans is not None:
+        blocks = ", ".join(setup.variables.names[i] for i in setup.variables.one_hot) if setup.variables else ""
+        raise UserError(
+            f"Advice integrates out and freezes one model column at a time, and the one-hot input(s) {blocks} "
+            "span several columns. Audit the model with `netdim audit`, which ranks a one-hot input as a whole."
+        )
     notices = list(setup.notices)
     if setup.design.d < 2:
         notices.append("The model has a single input: there is nothing to pre-integrate against.")
