@@ -30,9 +30,12 @@ import numpy as np
 
 __all__ = [
     "CANDIDATE",
+    "EXPORTED",
     "FREEZE",
     "GAIN",
     "PILOT",
+    "SEARCH",
+    "SOURCE_CHECK",
     "RandomizationSeeds",
     "child_seed",
     "independent_seed",
@@ -44,6 +47,9 @@ __all__ = [
 
 #: Tags of the phases of ``advise`` (see :func:`child_seed`).
 PILOT, CANDIDATE, GAIN, FREEZE = 1, 2, 3, 4
+#: Tags of the phases of ``simplify``: the search for freezing values, the checks on the source, the
+#: audit of the written model.
+SEARCH, SOURCE_CHECK, EXPORTED = 5, 6, 7
 
 
 def resolve_seed(seed: int | np.random.Generator | None) -> int:
