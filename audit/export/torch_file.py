@@ -97,11 +97,11 @@ class Simplified(torch.nn.Module):
         nodes = self.grid.unsqueeze(0).expand(n, m, self.grid.shape[1]).reshape(n * m, self.grid.shape[1])
         fixed = self.frozen.unsqueeze(0).expand(n * m, self.frozen.shape[0])
         full = torch.cat([rows, nodes, fixed], 1).index_select(1, self.perm)
-        y = self.inner(full.reshape([n * m] + self.shape))
+        y = self.inner(full.reshape([n * m] + self.shape))  # noqa: RUF005 (TorchScript has no starred lists)
         if not self.integrate:
             return y
         mean = torch.matmul(self.weights, y.reshape(n, m, -1).to(torch.float64))
-        return mean.reshape([n] + self.out_shape).to(self.out_dtype)
+        return mean.reshape([n] + self.out_shape).to(self.out_dtype)  # noqa: RUF005
 
 
 def _check(model: Any) -> None:
