@@ -62,6 +62,12 @@ FLAGS = {
     "freeze_threshold": "--freeze-threshold",
     "freeze_budget": "--freeze-budget",
     "gain_points": "--gain-points",
+    "integrate": "--integrate",
+    "freeze": "--freeze",
+    "advice": "--advice",
+    "path": "--out",
+    "replace": "--replace",
+    "output_dtype": "--output-precision",
 }
 
 

@@ -103,8 +103,10 @@ def load_advice(advice: AdviceResult | str | Path) -> AdviceResult:
     return result
 
 
-def from_advice(advice: AdviceResult, names: Sequence[str]) -> tuple[dict[int, int | None], dict[int, float | str]]:
-    """The advice's best pre-integration candidate (with its nodes) and the inputs every output can freeze.
+def from_advice(
+    advice: AdviceResult, names: Sequence[str]
+) -> tuple[dict[int, int | None], dict[int, float | str], dict[int, tuple[float, bool]]]:
+    """The advice's best candidate (nodes), the inputs every output can freeze, and the candidate's node check.
 
     The candidate is the best one of the first output that has one. An input is
     frozen only when it lies in the frozen group of every output the advice
@@ -119,11 +121,14 @@ def from_advice(advice: AdviceResult, names: Sequence[str]) -> tuple[dict[int, i
         )
     live = [o for o in advice.outputs if not o.audit.inert and o.audit.total_index]
     integrate: dict[int, int | None] = {}
+    errors: dict[int, tuple[float, bool]] = {}
     best = next((o.best for o in live if o.best is not None), None)
     if best is not None:
-        integrate[_index(best.feature, names, "advice")] = best.nodes
+        j = _index(best.feature, names, "advice")
+        integrate[j] = best.nodes
+        errors[j] = (best.quadrature_error, best.converged)
     groups = [set(o.freeze_group.features) if o.freeze_group is not None else set() for o in live]
     common = set.intersection(*groups) if groups else set()
     freeze: dict[int, float | str] = {_index(n, names, "advice"): "median" for n in sorted(common, key=names.index)}
     freeze = {j: v for j, v in freeze.items() if j not in integrate}
-    return integrate, freeze
+    return integrate, freeze, errors

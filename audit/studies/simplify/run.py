@@ -240,8 +240,9 @@ def simplify_model(
                 outputs=outputs)  # fmt: skip
     asked_int = parse_integrate(integrate, s.names)
     asked_frz = parse_freeze(freeze, s.names)
+    advised: dict[int, tuple[float, bool]] = {}
     if advice is not None:
-        adv_int, adv_frz = from_advice(load_advice(advice), s.names)
+        adv_int, adv_frz, advised = from_advice(load_advice(advice), s.names)
         asked_int = {**adv_int, **asked_int}
         asked_frz = {**{j: v for j, v in adv_frz.items() if j not in asked_int}, **asked_frz}
     if not asked_int and not asked_frz:
@@ -256,6 +257,7 @@ def simplify_model(
     with Session(run or RunOptions()) as session:
         main, before = _audit(s, session, "source audit") if check else (None, [])
         chosen_nodes, errors = _nodes(s, asked_int, main, settings, session)
+        errors = {**{j: e for j, e in advised.items() if asked_int.get(j) == chosen_nodes.get(j)}, **errors}
         values, chosen = _values(s, asked_frz)
         plan = make_plan(model, s.names, s.laws, integrate=chosen_nodes, freeze=values, errors=errors, chosen=chosen)
         frozen_only = ReducedModel(model, plan.without_integration())
