@@ -201,6 +201,8 @@ def write_torch(model: Any, plan: ExportPlan, path: str | Path, output_dtype: st
             program = torch.export.export(wrapper, (_example(model, plan),), dynamic_shapes=({0: batch},))
             torch.export.save(program, str(path), extra_files={EXTRA_FILE: extra})
         return notices
-    script = _scripted(model, wrapper, plan, notices)
-    torch.jit.save(script, str(path), _extra_files={EXTRA_FILE: extra})
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # torch's notes on TorchScript's future are not the user's business
+        script = _scripted(model, wrapper, plan, notices)
+        torch.jit.save(script, str(path), _extra_files={EXTRA_FILE: extra})
     return notices
