@@ -28,6 +28,7 @@ def near(e, value, k=4.0):
 def test_after_matches_the_exact_simplified_function(run):
     o = run.outputs[0]
     assert run.written["inputs"] == ["x0", "x1", "x3", "x4"] and run.written["evaluations_per_row"] == 8
+    assert run.written["spec"].endswith("additive-simplified.toml")
     assert o.after.variance.covers(10.0) or near(o.after.variance, 10.0)
     assert o.after.mean.covers(3.0) or near(o.after.mean, 3.0)
     assert near(o.after.mean_dimension, 1.0)

@@ -38,6 +38,7 @@ def written_fields(result: SimplifiedResult) -> list[Field]:
     rows = [
         Field("file", f"{w.get('path', '')} ({w.get('format', '')})"),
         Field("sha256", str(w.get("sha256", ""))),
+        *([Field("input spec", str(w["spec"]))] if w.get("spec") else []),
         Field("inputs", f"{len(w.get('inputs', []))}: " + ", ".join(map(str, w.get("inputs", [])))),
     ]
     for i in result.integrated:

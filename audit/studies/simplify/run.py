@@ -41,6 +41,7 @@ from ...errors import UserError
 from ...estimators import FreezeError
 from ...estimators.intervals import difference_interval, t_interval
 from ...export import ExportPlan, ReducedModel, default_path, file_sha256, make_plan, write_model
+from ...export.spec_file import spec_path, spec_text
 from ...inputs import InputSpec, Law
 from ...models.base import row_dtype
 from ...models.python import PythonModel
@@ -133,6 +134,15 @@ def _open_written(path: Path, model: Any, plan: ExportPlan) -> Any:
     module = importlib.util.module_from_spec(spec)  # type: ignore[arg-type]
     spec.loader.exec_module(module)  # type: ignore[union-attr]  # the module netdim has just written
     return PythonModel(module.simplified, len(plan.kept), source=str(path))
+
+
+def _write_spec(target: Path, plan: ExportPlan, spec: InputSpec, replace: bool) -> str:
+    """The kept inputs' spec beside the file (not over an existing file unless replacing); its path or ""."""
+    path = spec_path(target)
+    if path.exists() and not replace:
+        return ""
+    path.write_text(spec_text(plan, spec.title, spec.units, spec.outputs, spec.output_units), encoding="utf-8")
+    return str(path)
 
 
 def _verify(written: Any, reduced: ReducedModel, plan: ExportPlan) -> float:
@@ -279,6 +289,7 @@ def simplify_model(
         if change is not None:
             plan.checks["freeze_change"] = [e.to_dict() for e in change[1]]
         notices = write_model(model, plan, target, output_dtype=output_dtype, replace=replace)
+        companion = _write_spec(target, plan, spec, replace)
         written = _open_written(target, model, plan)
         gap = _verify(written, ReducedModel(model, plan), plan)
         after: list[OutputResult] = []
@@ -297,6 +308,7 @@ def simplify_model(
     shifts = [_shift(k, b, a, main, plan, r, identity, change, bound) for k, (b, a) in pairs]
     info = {
         "path": str(target),
+        "spec": companion,
         "format": model.format,
         "sha256": file_sha256(target),
         "inputs": plan.kept_names,
