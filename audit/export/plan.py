@@ -289,18 +289,19 @@ def make_plan(
             f"Integrating out or freezing every one of the {len(names)} inputs leaves a model without inputs; "
             "keep at least one (`integrate`, `freeze`)."
         )
+    cost = math.prod(int(m) for m in integrate.values())
+    if cost > MAX_GRID:
+        listed = ", ".join(f"{names[j]} ({integrate[j]} nodes)" for j in sorted(integrate))
+        raise UserError(
+            f"The tensor-product rule of {listed} has {cost} points, more than {MAX_GRID}: each row of the "
+            "simplified model would cost that many evaluations. Integrate fewer inputs out, or give fewer "
+            "nodes (`nodes`, `tolerance`)."
+        )
     integrated = []
     for j in sorted(integrate):
         z, w = _rule(laws, j, integrate[j])
         err, ok = errors.get(j, (None, True))
         integrated.append(Integrated(names[j], j, laws[j], z, w, err, ok))
-    cost = math.prod(i.count for i in integrated)
-    if cost > MAX_GRID:
-        raise UserError(
-            f"The tensor-product rule of {', '.join(f'{i.feature} ({i.count} nodes)' for i in integrated)} has "
-            f"{cost} points, more than {MAX_GRID}: each row of the simplified model would cost that many "
-            "evaluations. Integrate fewer inputs out, or give fewer nodes (`nodes`, `tolerance`)."
-        )
     frozen = []
     for j in sorted(freeze):
         value = float(freeze[j])
