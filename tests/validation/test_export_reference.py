@@ -20,7 +20,7 @@ import pytest
 import torch
 from scipy.special import ndtr
 
-from audit.inputs import load_spec
+from audit.inputs import Law, load_spec
 from audit.models.open import open_model
 from audit.quadrature import PreIntegratedModel
 from audit.studies import simplify_model
@@ -117,3 +117,28 @@ def test_frozen_export_is_bit_for_bit(tmp_path, name):
             ref = load(str(ZOO / name))(torch.from_numpy(full)).numpy()
     assert y.dtype == np.float32 and np.array_equal(y, ref)
     assert [f["value"] for f in res.written["metadata"]["frozen"]] == [0.5, 6.5]
+
+
+def test_a_converted_scikit_learn_regressor(tmp_path):
+    # outside the zoo: an MLP regressor fitted on scikit-learn's bundled diabetes data, converted by skl2onnx
+    # (its graph casts, multiplies and reshapes in its own way); inputs N(0, 1) after scaling
+    from skl2onnx import to_onnx
+    from sklearn.datasets import load_diabetes
+    from sklearn.neural_network import MLPRegressor
+
+    x, y = load_diabetes(return_X_y=True)
+    x = (x - x.mean(0)) / x.std(0)
+    reg = MLPRegressor(hidden_layer_sizes=(12,), activation="tanh", max_iter=300, random_state=0).fit(x, y / 100)
+    source = tmp_path / "diabetes.onnx"
+    source.write_bytes(to_onnx(reg, x[:1].astype(np.float32), target_opset=17).SerializeToString())
+    out = tmp_path / "diabetes-simplified.onnx"
+    res = simplify_model(source, "normal", integrate=["X[2]"], path=out, output_dtype="float64", points=512,
+                         seed=6)  # fmt: skip
+    o = res.outputs[0]
+    assert o.variance_identity.agree and o.mean_agrees
+    assert 1 <= o.after.mean_dimension.estimate <= 9  # ν may rise when an additive input leaves (9 inputs left)
+    nodes = res.written["metadata"]["integrated"][0]["nodes"]
+    rows = np.random.default_rng(1).standard_normal((64, 9))
+    reference = PreIntegratedModel(open_model(str(source)), [Law("normal")] * 10, 2, nodes).evaluate(rows).outputs
+    got = ort.InferenceSession(str(out)).run(None, {"X": rows.astype(np.float32)})[0]
+    assert np.max(np.abs(got - reference)) < 1e-6
