@@ -42,6 +42,8 @@ _EXPORTS = {
     "load_spec": "audit.inputs",
     "open_model": "audit.models.open",
     "parse_spec": "audit.inputs",
+    "SimplifiedResult": "audit.results",
+    "simplify_model": "audit.studies",
 }
 
 __all__ = sorted(_EXPORTS)

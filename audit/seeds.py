@@ -30,10 +30,13 @@ import numpy as np
 
 __all__ = [
     "CANDIDATE",
+    "EXPORTED",
     "FREEZE",
     "GAIN",
     "PAIRS",
     "PILOT",
+    "SEARCH",
+    "SOURCE_CHECK",
     "RandomizationSeeds",
     "child_seed",
     "independent_seed",
@@ -45,6 +48,9 @@ __all__ = [
 
 #: Tags of the phases of ``advise`` and of the pairs of an audit (see :func:`child_seed`).
 PILOT, CANDIDATE, GAIN, FREEZE, PAIRS = 1, 2, 3, 4, 5
+#: Tags of the phases of ``simplify``: the search for freezing values, the checks on the source, the
+#: audit of the written model.
+SEARCH, SOURCE_CHECK, EXPORTED = 6, 7, 8
 
 
 def resolve_seed(seed: int | np.random.Generator | None) -> int:

@@ -270,6 +270,13 @@ def cmd_advise(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_simplify(args: argparse.Namespace) -> int:
+    from .simplify import run_simplify
+
+    spec = _spec(args)
+    return run_simplify(args, spec, _open(args, spec), _design(args), _run_options)
+
+
 def cmd_layers(args: argparse.Namespace) -> int:
     from ..report import render
     from ..studies import model_signature
@@ -346,6 +353,7 @@ COMMANDS = {
     "audit": cmd_audit,
     "compare": cmd_compare,
     "advise": cmd_advise,
+    "simplify": cmd_simplify,
     "layers": cmd_layers,
     "show": cmd_show,
     "demo": cmd_demo,

@@ -80,6 +80,12 @@ FLAGS = {
     "max_levels": "--max-levels",
     "dependence": "--dependence",
     "knots": "--knots",
+    "integrate": "--integrate",
+    "freeze": "--freeze",
+    "advice": "--advice",
+    "path": "--out",
+    "replace": "--replace",
+    "output_dtype": "--output-precision",
 }
 
 

@@ -249,6 +249,45 @@ def _advise(sub: argparse._SubParsersAction) -> None:
     _common(ad)
 
 
+def _simplify(sub: argparse._SubParsersAction) -> None:
+    sm = sub.add_parser("simplify", help="write the model with inputs integrated out or frozen, and audit it")
+    sm.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
+    _inputs(sm)
+    _outputs(sm)
+    _design(sm)
+    g = sm.add_argument_group("simplification")
+    g.add_argument(
+        "--integrate",
+        metavar="NAME[:NODES],...",
+        action="append",
+        help="inputs to integrate out by a Gauss rule (nodes chosen from the quadrature error unless given)",
+    )
+    g.add_argument(
+        "--freeze",
+        metavar="NAME[=VALUE|median|best],...",
+        action="append",
+        help="inputs to fix: at a value, the law's median (default), or the value with the lowest measured change",
+    )
+    g.add_argument("--advice", metavar="ADVICE.json", help="take the best candidate and frozen group of this report")
+    g.add_argument("--out", metavar="PATH", help="where to write the model (default: MODEL-simplified.SUFFIX here)")
+    g.add_argument("--replace", action="store_true", help="replace an existing file at --out")
+    g.add_argument("--nodes", type=_positive_int, default=32, help="starting Gauss nodes of the node check (32)")
+    g.add_argument(
+        "--tolerance", type=float, default=1e-3, help="largest quadrature error, relative to the output's sd (0.001)"
+    )
+    g.add_argument(
+        "--output-precision",
+        default="source",
+        choices=("source", "float64"),
+        help="type of pre-integrated outputs: the model's own (default) or float64",
+    )
+    g.add_argument("--no-check", action="store_true", help="write the model without auditing it")
+    _running(sm)
+    _model_loading(sm)
+    _output(sm, all_outputs=False)
+    _common(sm)
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``netdim``."""
     parser = argparse.ArgumentParser(
@@ -263,6 +302,7 @@ def build_parser() -> argparse.ArgumentParser:
     _compare(sub)
     _advise(sub)
     fromdata.add_parser(sub)
+    _simplify(sub)
 
     lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
     lay.add_argument("model", metavar="MODEL")

@@ -22,6 +22,7 @@ from .audit import AuditResult, LayerResult, OutputResult, PairEstimate, UnitRes
 from .base import SCHEMA, Estimate, FeatureEstimate, set_renderer
 from .comparison import ComparisonResult, GateCheck, LayerChange, OutputChange
 from .signature import LayerEntry, ModelSignature, TensorEntry
+from .simplified import OutputShift, SimplifiedResult
 
 __all__ = [
     "KINDS",
@@ -43,8 +44,10 @@ __all__ = [
     "OutputAdvice",
     "OutputChange",
     "OutputResult",
+    "OutputShift",
     "PairEstimate",
     "RqmcGain",
+    "SimplifiedResult",
     "TensorEntry",
     "UnitResult",
     "VarianceIdentity",
@@ -53,10 +56,10 @@ __all__ = [
 ]
 
 #: Report kinds (the JSON ``"kind"``) and their classes.
-KINDS = {"audit": AuditResult, "comparison": ComparisonResult, "advice": AdviceResult}
+KINDS = {"audit": AuditResult, "comparison": ComparisonResult, "advice": AdviceResult, "simplified": SimplifiedResult}
 
 
-def result_from_dict(data: Any) -> AuditResult | ComparisonResult | AdviceResult:
+def result_from_dict(data: Any) -> AuditResult | ComparisonResult | AdviceResult | SimplifiedResult:
     """Rebuild any saved report from its JSON object.
 
     Raises

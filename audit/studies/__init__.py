@@ -1,4 +1,4 @@
-"""Workflows: audit, compare and advise, from a model and its inputs to result objects.
+"""Workflows: audit, compare, advise and simplify, from a model and its inputs to result objects.
 
 Every workflow resolves its study first (:mod:`~.setup`), then runs engine jobs
 through one :class:`~.session.Session` and summarizes the sums into
@@ -14,6 +14,7 @@ from .compare import compare_models
 from .gates import Gates, parse_output_map
 from .options import DesignOptions, RunOptions, split_options
 from .setup import LAYER_CHOICES, OUTPUTS, Setup, inputs_spec, prepare, resolve_model, select_layers
+from .simplify import simplify_model
 from .summarize import model_signature
 
 __all__ = [
@@ -39,5 +40,6 @@ __all__ = [
     "prepare_advice",
     "resolve_model",
     "select_layers",
+    "simplify_model",
     "split_options",
 ]

@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from audit.cli import commands, fromdata, output
+from audit.cli import commands, fromdata, output, simplify
 from audit.cli.parser import build_parser
 from audit.version import __version__
 
@@ -114,6 +114,9 @@ READERS = {
     "advise": [commands.cmd_advise, commands._spec, commands._open, commands._design, commands._run,
                commands._run_options, commands._memory_limit, commands._outputs, commands._finish,
                output.print_result, output.save_report, commands._design_given],
+    "simplify": [commands.cmd_simplify, commands._spec, commands._open, commands._design, commands._run_options,
+                 commands._memory_limit, simplify.run_simplify, output.print_result, output.save_report,
+                 commands._design_given],
     "layers": [commands.cmd_layers, commands._spec, commands._open],
     "show": [commands.cmd_show, output.print_result],
     "demo": [commands.cmd_demo, output.print_result, output.save_report],

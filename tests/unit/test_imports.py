@@ -8,7 +8,7 @@ the bottom (DEVELOPERS.md, "Layers"):
     1  inputs, results
     2  design, estimators, models
     3  engine, quadrature
-    4  checkpoint, cluster, nodes
+    4  checkpoint, cluster, nodes, export
     5  studies, report
     6  cli
     7  the package itself (audit/__init__.py: the lazy public API)
@@ -43,6 +43,7 @@ LAYERS = {
     "checkpoint": 4,
     "cluster": 4,
     "nodes": 4,
+    "export": 4,
     "studies": 5,
     "report": 5,
     "cli": 6,

@@ -51,7 +51,7 @@ _OPERATOR = frozenset(
     }
 )  # fmt: skip
 _TORCH_TARGET = re.compile(r"torch\.(_?sym_[a-z]\w*|_check[a-z_]*|_assert[a-z_]*)")
-_OPS_TARGET = re.compile(r"torch\.ops\.(_?[A-Za-z]\w*)\.([A-Za-z]\w*)(\.[A-Za-z]\w*)?")
+_OPS_TARGET = re.compile(r"torch\.ops\.(_?[A-Za-z]\w*)\.(_?[A-Za-z]\w*)(\.[A-Za-z]\w*)?")
 _NAME = re.compile(r"[A-Za-z_]\w*")
 # sympy classes and functions a shape expression may call (srepr output of Torch's shapes).
 _SYMPY_CALLS = frozenset(
