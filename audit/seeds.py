@@ -33,6 +33,8 @@ __all__ = [
     "FREEZE",
     "GAIN",
     "PILOT",
+    "SCREENED",
+    "SLOPES",
     "RandomizationSeeds",
     "child_seed",
     "independent_seed",
@@ -44,6 +46,8 @@ __all__ = [
 
 #: Tags of the phases of ``advise`` (see :func:`child_seed`).
 PILOT, CANDIDATE, GAIN, FREEZE = 1, 2, 3, 4
+#: Tags of the phases of ``slopes``: the gradient points, and the screened audit.
+SLOPES, SCREENED = 17, 18
 
 
 def resolve_seed(seed: int | np.random.Generator | None) -> int:

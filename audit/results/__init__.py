@@ -22,6 +22,7 @@ from .audit import AuditResult, LayerResult, OutputResult, UnitResult
 from .base import SCHEMA, Estimate, FeatureEstimate, set_renderer
 from .comparison import ComparisonResult, GateCheck, LayerChange, OutputChange
 from .signature import LayerEntry, ModelSignature, TensorEntry
+from .slopes import SlopesResult
 
 __all__ = [
     "KINDS",
@@ -44,6 +45,7 @@ __all__ = [
     "OutputChange",
     "OutputResult",
     "RqmcGain",
+    "SlopesResult",
     "TensorEntry",
     "UnitResult",
     "VarianceIdentity",
@@ -52,10 +54,10 @@ __all__ = [
 ]
 
 #: Report kinds (the JSON ``"kind"``) and their classes.
-KINDS = {"audit": AuditResult, "comparison": ComparisonResult, "advice": AdviceResult}
+KINDS = {"audit": AuditResult, "comparison": ComparisonResult, "advice": AdviceResult, "slopes": SlopesResult}
 
 
-def result_from_dict(data: Any) -> AuditResult | ComparisonResult | AdviceResult:
+def result_from_dict(data: Any) -> AuditResult | ComparisonResult | AdviceResult | SlopesResult:
     """Rebuild any saved report from its JSON object.
 
     Raises

@@ -365,6 +365,15 @@ class TorchModel:
         k = len(self._keep)
         return Evaluation(outputs=gather(values[:k], n), hidden=dict(zip(capture, values[k:], strict=True)))
 
+    def gradients(self, x: np.ndarray, capture: Sequence[str] = ()) -> Any:
+        """Values and gradients of the outputs (and the ``capture`` layers) at rows ``x``, by autograd.
+
+        See :func:`audit.models.torch.gradients.autograd_gradients`; ``evaluate`` is unchanged.
+        """
+        from .gradients import autograd_gradients
+
+        return autograd_gradients(self, x, capture)
+
     def _check_capture(self, capture: Sequence[str]) -> None:
         known = {layer.name for layer in self.layers()}
         for name in capture:
