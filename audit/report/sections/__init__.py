@@ -16,8 +16,17 @@ from ..document import Report
 from .advice import advice_report
 from .audit import audit_report
 from .comparison import comparison_report
+from .slopes import slopes_report
 
-__all__ = ["AUDIT_OPTIONS", "advice_report", "audit_report", "build_report", "check_options", "comparison_report"]
+__all__ = [
+    "AUDIT_OPTIONS",
+    "advice_report",
+    "audit_report",
+    "build_report",
+    "check_options",
+    "comparison_report",
+    "slopes_report",
+]
 
 #: Options of :func:`audit_report`; other kinds accept them and ignore them.
 AUDIT_OPTIONS = frozenset({"all_outputs", "threshold", "max_outputs"})
@@ -59,4 +68,6 @@ def build_report(result: Any, **options: Any) -> Report:
         return comparison_report(result)
     if kind == "advice":
         return advice_report(result)
+    if kind == "slopes":
+        return slopes_report(result, **{k: v for k, v in options.items() if k in ("all_outputs", "max_outputs")})
     raise TypeError(f"no report for a result of kind {kind!r}")
