@@ -24,6 +24,7 @@ _EXPORTS = {
     "Design": "audit.design",
     "DesignOptions": "audit.studies",
     "RunOptions": "audit.studies",
+    "SlopesResult": "audit.results",
     "Estimate": "audit.results",
     "FeatureEstimate": "audit.results",
     "Gates": "audit.studies",
@@ -42,6 +43,7 @@ _EXPORTS = {
     "load_spec": "audit.inputs",
     "open_model": "audit.models.open",
     "parse_spec": "audit.inputs",
+    "slopes_model": "audit.studies.slopes",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -220,6 +220,29 @@ def cmd_advise(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_slopes(args: argparse.Namespace) -> int:
+    from ..studies.slopes import execute_slopes, prepare_slopes
+
+    spec = _spec(args)
+    check_report_target(args.json, [args.model, getattr(args, "inputs", None), args.checkpoint])
+    model = _open(args, spec)
+    plan = prepare_slopes(
+        model,
+        spec,
+        design=_design(args),
+        gradient_points=args.gradient_points,
+        indices=not args.no_indices,
+        screen=args.screen,
+        layers=args.layers,
+        outputs=_outputs(args),
+        memory_limit=_memory_limit(args),
+    )
+    with progress(args, plan.evaluations) as bar:
+        result = execute_slopes(plan, _run(args, bar))
+    _finish(result, args)
+    return EXIT_OK
+
+
 def cmd_layers(args: argparse.Namespace) -> int:
     from ..report import render
     from ..studies import model_signature
@@ -296,6 +319,7 @@ COMMANDS = {
     "audit": cmd_audit,
     "compare": cmd_compare,
     "advise": cmd_advise,
+    "slopes": cmd_slopes,
     "layers": cmd_layers,
     "show": cmd_show,
     "demo": cmd_demo,

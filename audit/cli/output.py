@@ -62,6 +62,9 @@ FLAGS = {
     "freeze_threshold": "--freeze-threshold",
     "freeze_budget": "--freeze-budget",
     "gain_points": "--gain-points",
+    "gradient_points": "--gradient-points",
+    "screen": "--screen",
+    "indices": "--no-indices",
 }
 
 
@@ -109,7 +112,7 @@ def print_result(result: Any, args: argparse.Namespace) -> None:
         return
     from .. import report
 
-    options = {"all_outputs": getattr(args, "all_outputs", False)} if result.kind == "audit" else {}
+    options = {"all_outputs": getattr(args, "all_outputs", False)} if result.kind in ("audit", "slopes") else {}
     if fmt == "markdown":
         print(report.markdown(result, **options))
     else:

@@ -28,14 +28,20 @@ MAX_OUTPUTS = 3
 EIGENVALUES_SHOWN = 8
 
 
+def _rules(result: SlopesResult) -> tuple[str, ...]:
+    """How each input's bound is made, one line per rule with the inputs that follow it."""
+    rules: dict[str, list[str]] = {}
+    for i in result.inputs:
+        rules.setdefault(str(i.get("bound_rule", "")), []).append(str(i["name"]))
+    return tuple(f"{rule}: {listing(names)}" for rule, names in rules.items())
+
+
 def _header(result: SlopesResult) -> Section:
     m, dsg = result.model, result.design
     d = len(result.inputs)
     fields = [
         Field("model", f"{m.get('source', '')} ({m.get('format', '')})"),
-        Field("inputs", f"{d} — bounds in each law's standardised coordinate",
-              tuple(f"{i['name']}: {i.get('bound_rule', '')}" for i in result.inputs[:8])
-              + ((f"… and {d - 8} more",) if d > 8 else ())),
+        Field("inputs", f"{d}; bounds in each law's standardised coordinate", _rules(result)),
         Field("gradients", f"{dsg['method']}, {fmt_count(dsg['gradient_points'])} points × "
               f"{dsg['replicates']} randomizations, {fmt_count(dsg['evaluations_per_point'])} evaluations a point "
               f"({dsg['cost_rule']})"),
@@ -113,10 +119,15 @@ def directions_blocks(dirs: DirectionSummary, d: int, name: str, per: str = "σ�
     )
     blocks: list[Block] = [Table(columns, rows)]
     r = dirs.count
-    close = "close to a function of" if r < d else "not close to a function of fewer than its"
-    text = (
-        f"{name} is {close} {r} direction{'s' if r != 1 else ''} of its {d} inputs: the other eigenvalues hold "
-        f"{fmt_percent(dirs.residual_share)} of E‖∇f‖²; {dirs.nonzero} eigenvalue"
+    if r < d:
+        text = (
+            f"{name} is close to a function of {r} direction{'s' if r != 1 else ''} of its {d} inputs: the other "
+            f"directions hold {fmt_percent(dirs.residual_share)} of E‖∇f‖²"
+        )
+    else:
+        text = f"{name} depends on all {d} directions of its inputs (fewer leave more than 1 % of E‖∇f‖² out)"
+    text += (
+        f"; {dirs.nonzero} eigenvalue"
         f"{'s are' if dirs.nonzero != 1 else ' is'} above the gradients' rounding floor, and the largest gap "
         f"λ_k/λ_(k+1) comes after k = {dirs.largest_gap_at}."
     )
