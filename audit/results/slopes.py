@@ -28,17 +28,24 @@ __all__ = [
 
 @dataclass(frozen=True)
 class Direction:
-    """One leading direction: its share of ``tr C`` and its largest loadings ``(input, weight)``."""
+    """One leading direction: its share of ``tr C``, its largest loadings ``(input, weight)`` and the whole
+    unit vector in standardised coordinates (input order, its largest component positive)."""
 
     share: float
     loadings: list[tuple[str, float]]
+    vector: list[float] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
-        return {"share": _num(self.share), "loadings": [{"feature": f, "weight": _num(w)} for f, w in self.loadings]}
+        return {
+            "share": _num(self.share),
+            "loadings": [{"feature": f, "weight": _num(w)} for f, w in self.loadings],
+            "vector": [_num(w) for w in self.vector],
+        }
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> Direction:
-        return cls(_unnum(d["share"]), [(x["feature"], _unnum(x["weight"])) for x in d["loadings"]])
+        loadings = [(x["feature"], _unnum(x["weight"])) for x in d["loadings"]]
+        return cls(_unnum(d["share"]), loadings, [_unnum(w) for w in d.get("vector", [])])
 
 
 @dataclass(frozen=True)

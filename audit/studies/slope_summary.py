@@ -9,7 +9,8 @@ randomization's leading directions turn from them is reported as an angle.
 
 Number of directions r: the fewest leading eigenvalues that hold all but
 :data:`RESIDUAL_SHARE` of ``tr C``; eigenvalues below the rounding floor
-``(100 δ)² λ_1`` (δ the gradients' relative accuracy) count as zero.
+``max((100 δ)², 1000 eps) λ_1`` (δ the gradients' relative accuracy, eps that of float64, for the
+eigensolver) count as zero.
 
 References
 ----------
@@ -44,8 +45,13 @@ SHOWN = 12
 LOADINGS, DETAILED = 5, 3
 
 
+#: Relative accuracy of a symmetric eigensolver in float64, with room (LAPACK's backward error is a small
+#: multiple of eps times the matrix norm: common practice, no source).
+EIGEN_FLOOR = 1e3 * float(np.finfo(np.float64).eps)
+
+
 def _floor(lam1: float, delta: float) -> float:
-    return (100.0 * delta) ** 2 * lam1
+    return max((100.0 * delta) ** 2, EIGEN_FLOOR) * lam1
 
 
 def directions(
@@ -96,7 +102,7 @@ def directions(
     for k in range(min(r, DETAILED)):
         v = vec[:, k] * np.sign(vec[np.argmax(np.abs(vec[:, k])), k])
         top = np.argsort(-np.abs(v))[:LOADINGS]
-        leading.append(Direction(float(share[k]), [(names[j], float(v[j])) for j in top]))
+        leading.append(Direction(float(share[k]), [(names[j], float(v[j])) for j in top], [float(w) for w in v]))
     ridge = None
     if normal:
         ridge = estimate(t_interval(normed[:, r:].sum(axis=1), LEVEL))

@@ -34,7 +34,7 @@ Examples
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import TYPE_CHECKING
+from typing import Any
 
 import numpy as np
 import torch
@@ -43,8 +43,8 @@ from ..base import check_rows, feature_count
 from ..batch import BatchAxis
 from ..gradients import AutogradUnavailableError, Gradients
 
-if TYPE_CHECKING:
-    from .common import TorchModel
+#: A :class:`~audit.models.torch.common.TorchModel` (not imported: common imports this module).
+TorchModel = Any
 
 __all__ = ["autograd_gradients", "torch_rows"]
 
