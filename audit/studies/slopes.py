@@ -241,6 +241,8 @@ def execute_slopes(plan: SlopesPlan, run: RunOptions | None = None) -> SlopesRes
     run = run or RunOptions()
     setup, job = plan.setup, plan.gradients
     check_time(job, job.evaluations, run.time_budget, run.block)
+    if plan.indices and plan.screen is None:
+        check_time(setup.job(), setup.evaluations, run.time_budget, run.block or setup.block)
     names = setup.names
     delta = accuracy(plan.method, setup.dtype)
     t0 = time.perf_counter()

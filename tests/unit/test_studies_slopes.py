@@ -175,3 +175,19 @@ def test_user_errors_name_the_parameter():
         slopes_model(str(ZOO / "additive.onnx"), "normal", screen=6)
     with pytest.raises(UserError, match="`gradient_points`"):
         slopes_model(str(ZOO / "additive.onnx"), "normal", gradient_points=1)
+
+
+def test_a_layer_that_sees_two_inputs_spans_two_directions(tmp_path):
+    # units tanh(w_uᵀx) with w_u supported on inputs 0 and 1: every gradient lies in span(e_0, e_1)
+    torch.manual_seed(3)
+    net = torch.nn.Sequential(torch.nn.Linear(6, 4), torch.nn.Tanh(), torch.nn.Linear(4, 1)).eval()
+    with torch.no_grad():
+        net[0].weight[:, 2:] = 0.0
+    path = tmp_path / "two_inputs.pt"
+    torch.jit.save(torch.jit.script(net), str(path), _extra_files={"netdim.json": json.dumps({"input_shape": [6]})})
+    r = slopes_model(str(path), "normal", points=256, replicates=8, seed=7, indices=False)
+    assert r.design["method"] == "autograd"
+    (layer,) = r.layers
+    assert layer.units == 4 and layer.directions.nonzero == 2 and layer.directions.count <= 2
+    axes = [np.eye(6)[0], np.eye(6)[1]]
+    assert _span_angle([d.vector for d in layer.directions.directions], axes) < ANGLE["pt"]
