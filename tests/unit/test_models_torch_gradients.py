@@ -18,6 +18,7 @@ from audit.models import open_model
 from audit.models.base import feature_count
 from audit.models.batch import BatchAxis
 from audit.models.gradients import AutogradUnavailableError
+from audit.models.python import PythonModel
 from audit.models.torch.gradients import torch_rows
 from audit.studies.slope_evaluator import AUTOGRAD, DIFFERENCES, GradientEvaluator, choose_method
 
@@ -50,16 +51,29 @@ def test_hidden_layer_gradients_match_torch_func(tmp_path):
     np.testing.assert_allclose(g.hidden["net.1"][1], _reference(first, x), rtol=1e-5, atol=1e-6)
 
 
-def test_detached_hooks_fall_back_to_central_differences(tmp_path):
-    net = netbuild.seeded(netbuild.TinyMLP, seed=3).eval()
+def test_eager_modules_differentiate_their_hooked_layers(tmp_path):
+    # forward hooks keep the captured copy in the graph while autograd is on
+    net = netbuild.seeded(netbuild.TinyMLP, seed=3, inplace=True).eval()
     path = netbuild.export_all(net, torch.zeros(4, 3), tmp_path, "mlp")["state_dict"]
     model = open_model(str(path), torch_class=MLP_CLASS)
-    with pytest.raises(AutogradUnavailableError):
-        model.gradients(np.zeros((2, 3), np.float32), ["net.1"])
+    x = np.random.default_rng(8).standard_normal((6, 3)).astype(np.float32)
+    g = model.gradients(x, ["net.1", "net.3"])
+    first = torch.nn.Sequential(net.net[0], net.net[1])
+    np.testing.assert_allclose(g.hidden["net.1"][1], _reference(first, x), rtol=1e-5, atol=1e-6)
+    np.testing.assert_allclose(g.hidden["net.3"][0], model.evaluate(x, ["net.3"]).hidden["net.3"], atol=1e-6)
+
+
+class _NoGradients(PythonModel):
+    def gradients(self, x, capture=()):
+        raise AutogradUnavailableError("integer input tensors (ids) have no gradient")
+
+
+def test_a_model_that_cannot_differentiate_falls_back_to_central_differences():
+    model = _NoGradients(lambda x: x.sum(axis=1), 3)
     laws = uniform_spec("normal").resolve(3, model.feature_names())[1]
-    method, notice = choose_method(model, ["net.1"], laws)
-    assert method == DIFFERENCES and "autograd is unavailable" in notice
-    assert choose_method(model, [], laws)[0] == AUTOGRAD
+    method, notice = choose_method(model, [], laws)
+    assert method == DIFFERENCES and "autograd is unavailable here (integer input tensors" in notice
+    assert choose_method(PythonModel(lambda x: x.sum(axis=1), 3), [], laws) == (DIFFERENCES, "")
 
 
 def test_torch_rows_reads_rows_as_batch_axis_does():

@@ -112,7 +112,7 @@ def _chunk(
     real = len(chunk)
     if real < model._min_batch:
         chunk = np.concatenate([chunk, np.repeat(chunk[-1:], model._min_batch - real, axis=0)])
-    m, d = chunk.shape
+    m = len(chunk)
     xs = [t.detach().clone().requires_grad_(True) for t in model._tensors(chunk)]
     try:
         with torch.enable_grad():
@@ -127,14 +127,33 @@ def _chunk(
         rows = torch_rows(axis, tensor, m)
         if not rows.requires_grad:
             raise AutogradUnavailableError("a captured tensor carries no gradient in this format")
-        jac = np.zeros((m, rows.shape[1], d))
-        for u in range(rows.shape[1]):
-            grads = torch.autograd.grad(rows[:, u].sum(), xs, retain_graph=True, allow_unused=True)
-            flat = [
-                torch.zeros(m, t.numel() // m) if g is None else g.detach().to(torch.float64).reshape(m, -1)
-                for g, t in zip(grads, xs, strict=True)
-            ]
-            jac[:, u, :] = torch.cat(flat, dim=1).numpy()
+        jac = _jacobian(rows, xs)
         values.append(rows.detach().to(torch.float64).numpy()[:real])
         jacs.append(jac[:real])
     return values, jacs
+
+
+def _jacobian(rows: torch.Tensor, xs: list[torch.Tensor]) -> np.ndarray:
+    """``∂ rows[i, u] / ∂ x_i`` as (m, units, d): all units in one batched reverse pass where Torch can,
+    else one reverse pass per unit."""
+    m, units = rows.shape
+    try:
+        basis = torch.eye(units, dtype=rows.dtype).unsqueeze(1).expand(units, m, units)
+        grads = torch.autograd.grad(rows, xs, basis, retain_graph=True, allow_unused=True, is_grads_batched=True)
+        parts = [
+            torch.zeros(units, m, t.numel() // m, dtype=torch.float64) if g is None
+            else g.detach().to(torch.float64).reshape(units, m, -1)
+            for g, t in zip(grads, xs, strict=True)
+        ]  # fmt: skip
+        return torch.cat(parts, dim=2).permute(1, 0, 2).numpy()
+    except RuntimeError:
+        pass  # an operation without a batching rule
+    jac = np.zeros((m, units, sum(t.numel() // m for t in xs)))
+    for u in range(units):
+        grads = torch.autograd.grad(rows[:, u].sum(), xs, retain_graph=True, allow_unused=True)
+        flat = [
+            torch.zeros(m, t.numel() // m) if g is None else g.detach().to(torch.float64).reshape(m, -1)
+            for g, t in zip(grads, xs, strict=True)
+        ]
+        jac[:, u, :] = torch.cat(flat, dim=1).numpy()
+    return jac
