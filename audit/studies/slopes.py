@@ -188,16 +188,14 @@ def _beside(slopes: list[OutputSlopes], audit: AuditResult) -> list[OutputSlopes
     return out
 
 
-def _screen(plan: SlopesPlan, slopes: list[OutputSlopes], reps: list[Any]) -> tuple[list[int], list[int]]:
-    """Inputs kept (highest bound over the outputs, largest first) and left out."""
+def _screen(keep: int, d: int, slopes: list[OutputSlopes]) -> tuple[list[int], list[int]]:
+    """The ``keep`` inputs with the highest bound over the outputs (largest first), and the others (in order)."""
     live = [o for o in slopes if not o.inert]
-    d = plan.setup.design.d
     score = np.zeros(d)
     for o in live:
         score = np.maximum(score, np.nan_to_num([b.bound.estimate for b in o.bounds], nan=0.0))
     order = np.argsort(-score, kind="stable")
-    assert plan.screen is not None
-    return [int(j) for j in order[: plan.screen]], sorted(int(j) for j in order[plan.screen :])
+    return [int(j) for j in order[:keep]], sorted(int(j) for j in order[keep:])
 
 
 def _screened(plan: SlopesPlan, kept: list[int], rest: list[int], sums: list[Any], greps: list[Any]) -> Screening:
@@ -254,7 +252,7 @@ def execute_slopes(plan: SlopesPlan, run: RunOptions | None = None) -> SlopesRes
         slopes = output_slopes(greps, names, setup.output_names, setup.eps(), delta, _normal(setup))
         t1 = time.perf_counter()
         if plan.screen is not None:
-            kept, rest = _screen(plan, slopes, greps)
+            kept, rest = _screen(plan.screen, setup.design.d, slopes)
             groups = [[j] for j in kept] + ([rest] if rest else [])
             jansen = Jansen(setup.design.d, groups)
             sjob = engine.Job("screened audit", ModelEvaluator(setup.model, [], setup.keep), setup.design, jansen,
@@ -267,12 +265,13 @@ def execute_slopes(plan: SlopesPlan, run: RunOptions | None = None) -> SlopesRes
             audit = _audit(setup, session.run(setup.job(), block=run.block or setup.block), 0.0)
             slopes = _beside(slopes, audit)
         index_seconds = time.perf_counter() - t1
-    layers = []
+    layers, still = [], []
     for x in setup.layers:
         reps = [s.finish(setup.design.ddof) for s in gsums["layer:" + x.name]]
         outer = np.array([r.outer[0] for r in reps])
         trace = np.trace(outer, axis1=1, axis2=2)
         if not np.all(trace > 0):
+            still.append(x.name)
             continue
         nu = None
         if audit is not None:
@@ -303,6 +302,8 @@ def execute_slopes(plan: SlopesPlan, run: RunOptions | None = None) -> SlopesRes
         **({"spec": setup.spec.source} if setup.spec.source.endswith(".toml") else {}),
     }
     notices = [*setup.notices, *plan.notices, *session.notices]
+    if still:
+        notices.append(f"No directions for the layer(s) {', '.join(still)}: their units do not vary at the points.")
     return SlopesResult(model_info(setup), info, design, slopes, layers, screening, notices)
 
 

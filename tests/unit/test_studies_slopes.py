@@ -191,3 +191,19 @@ def test_a_layer_that_sees_two_inputs_spans_two_directions(tmp_path):
     assert layer.units == 4 and layer.directions.nonzero == 2 and layer.directions.count <= 2
     axes = [np.eye(6)[0], np.eye(6)[1]]
     assert _span_angle([d.vector for d in layer.directions.directions], axes) < ANGLE["pt"]
+
+
+def test_the_gradient_job_travels_to_another_process_unchanged():
+    # what the cluster sends (audit/cluster.py): the model as "open this file again"
+    from audit.cluster import portable_dumps, portable_loads
+    from audit.engine import Task, run_task
+    from audit.models.open import open_model
+    from audit.studies.options import DesignOptions
+    from audit.studies.slopes import prepare_slopes
+
+    plan = prepare_slopes(open_model(str(ZOO / "additive.onnx")), "normal", design=DesignOptions(64, 2, seed=1))
+    here = run_task(plan.gradients, Task(1, 0, 32))
+    there = run_task(portable_loads(portable_dumps(plan.gradients)), Task(1, 0, 32))
+    for name, sums in here.items():
+        for key, value in sums.state().items():
+            np.testing.assert_array_equal(there[name].state()[key], value)

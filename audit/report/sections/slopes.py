@@ -161,6 +161,8 @@ def _output_sections(o: OutputSlopes, d: int) -> list[Section]:
             f"(L = {fmt(o.lipschitz)}, the largest gradient length seen){measured}. For a function of r directions "
             "with slope at most L along each, ν ≤ r·L²/σ²."
         ))  # fmt: skip
+    if any(b.bound.estimate > 1 for b in o.bounds):
+        blocks.append(Note("A bound above 1 says no more than that the total index is at most 1."))
     bad = _violations(o)
     if bad:
         blocks.append(Note(
