@@ -62,15 +62,18 @@ class DirectionSummary:
     count : int
         Directions r: the fewest whose eigenvalues hold all but ``residual_share ≤ 1 %`` of ``tr C``.
     nonzero : int
-        Eigenvalues above the gradients' rounding floor.
+        Eigenvalues above the rounding floor of the gradients and of the eigensolver.
+    few : bool
+        r counts as few for d inputs (``r < d`` and ``r ≤ max(3, d / 4)``): the output is close to a
+        ridge function of r directions.
     gap : float
         ``λ_r / λ_{r+1}`` (the next eigenvalue floored at the rounding floor).
     largest_gap_at : int
-        The k with the largest ``λ_k / λ_{k+1}``.
+        The k ≤ r with the largest ``λ_k / λ_{k+1}``.
     residual_share : float
         Share of ``tr C`` beyond the r directions.
     spread_degrees : float
-        Largest angle between a randomization's r leading directions and the pooled ones.
+        Largest angle between a randomization's ``largest_gap_at`` leading directions and the pooled ones.
     directions : list of Direction
         The leading directions (at most three).
     ridge_error : Estimate or None
@@ -88,9 +91,16 @@ class DirectionSummary:
     spread_degrees: float
     directions: list[Direction] = field(default_factory=list)
     ridge_error: Estimate | None = None
+    few: bool = False
+
+    @property
+    def gap_share(self) -> float:
+        """Share of ``tr C`` held by the ``largest_gap_at`` leading directions (of those kept in ``shares``)."""
+        return float(sum(self.shares[: self.largest_gap_at]))
 
     def to_dict(self) -> dict[str, Any]:
         return {
+            "few": self.few,
             "eigenvalues": [e.to_dict() for e in self.eigenvalues],
             "shares": [_num(s) for s in self.shares],
             "count": self.count,
@@ -116,6 +126,7 @@ class DirectionSummary:
             _unnum(d["spread_degrees"]),
             [Direction.from_dict(x) for x in d.get("leading", [])],
             _opt_estimate(d.get("ridge_error")),
+            bool(d.get("few", False)),
         )
 
 

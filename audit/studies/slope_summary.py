@@ -8,9 +8,12 @@ from the pooled matrix (the mean over randomizations); how far each
 randomization's leading directions turn from them is reported as an angle.
 
 Number of directions r: the fewest leading eigenvalues that hold all but
-:data:`RESIDUAL_SHARE` of ``tr C``; eigenvalues below the rounding floor
-``max((100 δ)², 1000 eps) λ_1`` (δ the gradients' relative accuracy, eps that of float64, for the
-eigensolver) count as zero.
+:data:`RESIDUAL_SHARE` of ``tr C``; the largest gap ``λ_k / λ_(k+1)`` is sought among
+k ≤ r, and the angle by which the k directions before it turn between randomizations
+says how well they are determined. An output counts as close to a ridge function of r
+directions when ``r ≤ max(3, d / 4)`` (:func:`few_directions`; a rule of thumb, no source);
+eigenvalues below the rounding floor ``max((100 δ)², 1000 eps) λ_1`` (δ the gradients'
+relative accuracy, eps that of float64, for the eigensolver) count as zero.
 
 References
 ----------
@@ -35,7 +38,7 @@ from ..results import Estimate
 from ..results.slopes import Direction, DirectionSummary, InputBound, OutputSlopes
 from .summarize import estimate, estimates
 
-__all__ = ["RESIDUAL_SHARE", "SHOWN", "directions", "output_slopes"]
+__all__ = ["RESIDUAL_SHARE", "SHOWN", "directions", "few_directions", "output_slopes"]
 
 #: Share of tr C the directions left out may hold.
 RESIDUAL_SHARE = 0.01
@@ -48,6 +51,11 @@ LOADINGS, DETAILED = 5, 3
 #: Relative accuracy of a symmetric eigensolver in float64, with room (LAPACK's backward error is a small
 #: multiple of eps times the matrix norm: common practice, no source).
 EIGEN_FLOOR = 1e3 * float(np.finfo(np.float64).eps)
+
+
+def few_directions(r: int, d: int) -> bool:
+    """True when r directions of d inputs count as few: ``r < d`` and ``r ≤ max(3, d / 4)``."""
+    return r < d and r <= max(3, d / 4)
 
 
 def _floor(lam1: float, delta: float) -> float:
@@ -88,7 +96,8 @@ def directions(
     nonzero = int(np.sum(lam > floor))
     ratios = lam[:-1] / np.maximum(lam[1:], floor) if d > 1 else np.array([math.inf])
     gap = float(ratios[r - 1]) if r < d else math.inf
-    largest = int(np.argmax(ratios)) + 1 if d > 1 else 1
+    # the largest gap among the directions that matter (a gap in the tail of near-zero eigenvalues says nothing)
+    largest = int(np.argmax(ratios[: min(r, d - 1)])) + 1 if d > 1 else 1
     with np.errstate(invalid="ignore", divide="ignore"):
         normed = reps / scale[:, None]
     shown = min(SHOWN, d)
@@ -96,7 +105,7 @@ def directions(
     spread = 0.0
     for m in outer:
         _, v = np.linalg.eigh(m)
-        sv = np.linalg.svd(vec[:, :r].T @ v[:, ::-1][:, :r], compute_uv=False)
+        sv = np.linalg.svd(vec[:, :largest].T @ v[:, ::-1][:, :largest], compute_uv=False)
         spread = max(spread, math.degrees(math.acos(min(1.0, float(sv.min())))))
     leading = []
     for k in range(min(r, DETAILED)):
@@ -107,7 +116,8 @@ def directions(
     if normal:
         ridge = estimate(t_interval(normed[:, r:].sum(axis=1), LEVEL))
     return DirectionSummary(
-        eig, [float(s) for s in share[:shown]], r, nonzero, gap, largest, float(tail[r - 1]), spread, leading, ridge
+        eig, [float(s) for s in share[:shown]], r, nonzero, gap, largest, float(tail[r - 1]), spread, leading, ridge,
+        few_directions(r, d),
     )
 
 

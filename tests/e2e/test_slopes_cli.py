@@ -21,7 +21,7 @@ def test_slopes_prints_the_directions_and_saves_json(tmp_path):
     p = netdim("slopes", "model_zoo/ridge_phi.pt", "--points", "256", "--replicates", "4", "--seed", "2",
                "--json", str(out))  # fmt: skip
     assert p.returncode == 0, p.stderr
-    assert "Active directions of y" in p.stdout and "close to a function of 1 direction" in p.stdout
+    assert "Active directions of y" in p.stdout and "close to a ridge function of 1 direction" in p.stdout
     data = json.loads(out.read_text())
     assert data["kind"] == "slopes" and data["design"]["method"] == "autograd"
     assert data["outputs"][0]["directions"]["count"] == 1

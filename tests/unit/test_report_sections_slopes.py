@@ -29,7 +29,7 @@ def _e(x: float, half: float = 0.01) -> Estimate:
 def _dirs(count: int = 1, ridge: bool = True) -> DirectionSummary:
     return DirectionSummary(
         [_e(0.9), _e(0.05)], [0.95, 0.05], count, 2, 18.0, 1, 0.05 if count == 1 else 0.0, 0.3,
-        [Direction(0.95, [("a", 0.8), ("b", -0.6)], [0.8, -0.6, 0.0])], _e(0.05) if ridge else None,
+        [Direction(0.95, [("a", 0.8), ("b", -0.6)], [0.8, -0.6, 0.0])], _e(0.05) if ridge else None, count < 3,
     )  # fmt: skip
 
 
@@ -63,7 +63,7 @@ def test_sections_and_their_content():
     eig = next(t for t in tables if t.columns[1].header.startswith("λ_k"))
     assert isinstance(eig.rows[0][-1], Bar) and eig.rows[0][-1].value == pytest.approx(0.95)  # chart data
     text = markdown(_result())
-    assert "close to a function of 1 direction of its 3 inputs" in text
+    assert "close to a ridge function of 1 direction of its 3 inputs" in text
     assert "misses at most" in text  # the ridge bound with normal inputs
     assert "The bound lies below the total index beyond both intervals for b" in text
     assert "is not a safety validation" in CAUTION and "is not a safety validation" in text

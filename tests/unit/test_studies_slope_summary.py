@@ -38,7 +38,8 @@ def test_count_follows_the_share_of_trace_and_reports_the_gap():
     tail = np.cumsum(lam[::-1])[::-1] / sum(lam)
     assert out.count == 3 and tail[3] <= RESIDUAL_SHARE < tail[2]
     assert out.gap == pytest.approx(0.3 / 0.02)
-    assert out.largest_gap_at == 4  # λ_4 / max(λ_5, floor): the floor makes it the largest
+    assert out.largest_gap_at == 2  # among k ≤ r: λ_2/λ_3 = 16.7 beats λ_1/λ_2 = 2 and λ_3/λ_4 = 15
+    assert out.gap_share == pytest.approx(15 / 15.32) and out.few  # r = 3 ≤ max(3, d / 4)
     assert out.nonzero == 4 and out.ridge_error is None
     assert out.shares[:2] == pytest.approx([10 / 15.32, 5 / 15.32])
 

@@ -118,23 +118,19 @@ def directions_blocks(dirs: DirectionSummary, d: int, name: str, per: str = "σ�
         for k, (e, s) in enumerate(zip(dirs.eigenvalues[:EIGENVALUES_SHOWN], dirs.shares, strict=False))
     )
     blocks: list[Block] = [Table(columns, rows)]
-    r = dirs.count
-    if r < d:
-        text = (
-            f"{name} is close to a function of {r} direction{'s' if r != 1 else ''} of its {d} inputs: the other "
-            f"directions hold {fmt_percent(dirs.residual_share)} of E‖∇f‖²"
-        )
+    r, k = dirs.count, dirs.largest_gap_at
+    kept = f"all but {fmt_percent(dirs.residual_share)} of E‖∇f‖²"
+    if dirs.few:
+        text = f"{name} is close to a ridge function of {r} direction{'s' if r != 1 else ''} of its {d} inputs: " + kept
     else:
-        text = f"{name} depends on all {d} directions of its inputs (fewer leave more than 1 % of E‖∇f‖² out)"
+        text = f"{name} is not close to a function of few directions: {r} of {d} are needed to hold " + kept
     text += (
-        f"; {dirs.nonzero} eigenvalue"
-        f"{'s are' if dirs.nonzero != 1 else ' is'} above the gradients' rounding floor, and the largest gap "
-        f"λ_k/λ_(k+1) comes after k = {dirs.largest_gap_at}."
+        f". The largest eigenvalue gap among them comes after k = {k} (the first {k} hold "
+        f"{fmt_percent(dirs.gap_share)}), and these {k} turn by at most {fmt(dirs.spread_degrees)}° between "
+        f"randomizations; {dirs.nonzero} eigenvalue{'s are' if dirs.nonzero != 1 else ' is'} above the rounding floor."
     )
-    if r < d:
-        text += f" The {r} leading directions turn by at most {fmt(dirs.spread_degrees)}° between randomizations."
     blocks.append(Paragraph(text))
-    if dirs.ridge_error is not None and r < d:
+    if dirs.ridge_error is not None and dirs.few:
         e = dirs.ridge_error
         blocks.append(Paragraph(
             f"With normal inputs, the best function of these {r} directions misses at most {fmt(e.estimate)} "
