@@ -33,12 +33,12 @@ import numpy as np
 
 from ..estimators import LEVEL, is_inert
 from ..estimators.gradient import GradientMoments
-from ..estimators.intervals import t_interval
+from ..estimators.intervals import Interval, t_interval
 from ..results import Estimate
 from ..results.slopes import Direction, DirectionSummary, InputBound, OutputSlopes
 from .summarize import estimate, estimates
 
-__all__ = ["RESIDUAL_SHARE", "SHOWN", "directions", "few_directions", "output_slopes"]
+__all__ = ["RESIDUAL_SHARE", "SHOWN", "directions", "few_directions", "output_slopes", "positive_interval"]
 
 #: Share of tr C the directions left out may hold.
 RESIDUAL_SHARE = 0.01
@@ -51,6 +51,12 @@ LOADINGS, DETAILED = 5, 3
 #: Relative accuracy of a symmetric eigensolver in float64, with room (LAPACK's backward error is a small
 #: multiple of eps times the matrix norm: common practice, no source).
 EIGEN_FLOOR = 1e3 * float(np.finfo(np.float64).eps)
+
+
+def positive_interval(values: np.ndarray, axis: int = 0) -> Interval:
+    """The t interval of values that cannot be negative (moments, eigenvalues), its lower end clipped at 0."""
+    i = t_interval(values, LEVEL, axis=axis)
+    return Interval(i.estimate, np.maximum(i.low, 0.0), i.high, i.std_error)
 
 
 def few_directions(r: int, d: int) -> bool:
@@ -101,7 +107,7 @@ def directions(
     with np.errstate(invalid="ignore", divide="ignore"):
         normed = reps / scale[:, None]
     shown = min(SHOWN, d)
-    eig = estimates(t_interval(normed[:, :shown], LEVEL, axis=0))
+    eig = estimates(positive_interval(normed[:, :shown]))
     spread = 0.0
     for m in outer:
         _, v = np.linalg.eigh(m)
@@ -114,7 +120,7 @@ def directions(
         leading.append(Direction(float(share[k]), [(names[j], float(v[j])) for j in top], [float(w) for w in v]))
     ridge = None
     if normal:
-        ridge = estimate(t_interval(normed[:, r:].sum(axis=1), LEVEL))
+        ridge = estimate(positive_interval(normed[:, r:].sum(axis=1)))
     return DirectionSummary(
         eig, [float(s) for s in share[:shown]], r, nonzero, gap, largest, float(tail[r - 1]), spread, leading, ridge,
         few_directions(r, d),
@@ -150,17 +156,17 @@ def output_slopes(
     inert = is_inert(mean.mean(axis=0), var.mean(axis=0), eps)
     results = []
     for u, name in enumerate(output_names):
-        variance = estimate(t_interval(var[:, u], LEVEL))
-        ms = estimates(t_interval(square[:, u], LEVEL, axis=0))
+        variance = estimate(positive_interval(var[:, u]))
+        ms = estimates(positive_interval(square[:, u]))
         if inert[u]:
             nan = Estimate(math.nan, math.nan, math.nan, math.nan)
             bounds = [InputBound(f, nan, m) for f, m in zip(names, ms, strict=True)]
             results.append(OutputSlopes(name, variance, bounds, None, math.sqrt(top[u]), math.nan, inert=True))
             continue
         normed = square[:, u] / var[:, u, None]
-        bound = estimates(t_interval(normed, LEVEL, axis=0))
+        bound = estimates(positive_interval(normed))
         bounds = [InputBound(f, b, m) for f, b, m in zip(names, bound, ms, strict=True)]
-        total = estimate(t_interval(normed.sum(axis=1), LEVEL))
+        total = estimate(positive_interval(normed.sum(axis=1)))
         lip = math.sqrt(float(top[u]))
         lip_bound = float(top[u]) / float(var[:, u].mean())
         dirs = None

@@ -50,7 +50,7 @@ from .options import RunOptions, split_options
 from .session import Session
 from .setup import OUTPUTS, Setup, check_memory, check_time, inputs_spec, prepare, resolve_model
 from .slope_evaluator import GradientEvaluator, accuracy, choose_method, cost_per_point
-from .slope_summary import directions, output_slopes
+from .slope_summary import directions, output_slopes, positive_interval
 from .summarize import GroupStats, estimate, estimates, inputs_info, layer_result, model_info, output_results
 
 __all__ = ["SlopesPlan", "execute_slopes", "prepare_slopes", "slopes_model"]
@@ -217,7 +217,7 @@ def _screened(plan: SlopesPlan, kept: list[int], rest: list[int], sums: list[Any
         kept_t = [FeatureEstimate(names[j], t[i]) for i, j in enumerate(kept)]
         kept_f = [FeatureEstimate(names[j], f[i]) for i, j in enumerate(kept)]
         rest_total = t[len(kept)] if rest else None
-        rest_bound = estimate(t_interval(square[:, u, rest].sum(axis=1) / gvar[:, u], LEVEL)) if rest else None
+        rest_bound = estimate(positive_interval(square[:, u, rest].sum(axis=1) / gvar[:, u])) if rest else None
         outs.append(ScreenedOutput(name, kept_t, kept_f, rest_total, rest_bound))
     return Screening([names[j] for j in kept], [names[j] for j in rest], outs)
 

@@ -121,19 +121,23 @@ def directions_blocks(dirs: DirectionSummary, d: int, name: str, per: str = "σ�
     r, k = dirs.count, dirs.largest_gap_at
     kept = f"all but {fmt_percent(dirs.residual_share)} of E‖∇f‖²"
     if dirs.few:
-        text = f"{name} is close to a ridge function of {r} direction{'s' if r != 1 else ''} of its {d} inputs: " + kept
+        noun, verb = ("direction", "it holds") if r == 1 else ("directions", "they hold")
+        text = f"{name} is close to a ridge function of {r} {noun} of its {d} inputs: {verb} "
     else:
-        text = f"{name} is not close to a function of few directions: {r} of {d} are needed to hold " + kept
+        text = f"{name} is not close to a function of few directions: {r} of {d} are needed to hold "
+    text += kept + ". The largest eigenvalue gap among them comes after k = " + str(k)
+    first = "the first direction holds" if k == 1 else f"the first {k} hold"
+    turn = "turns" if k == 1 else "turn"
     text += (
-        f". The largest eigenvalue gap among them comes after k = {k} (the first {k} hold "
-        f"{fmt_percent(dirs.gap_share)}), and these {k} turn by at most {fmt(dirs.spread_degrees)}° between "
-        f"randomizations; {dirs.nonzero} eigenvalue{'s are' if dirs.nonzero != 1 else ' is'} above the rounding floor."
+        f" ({first} {fmt_percent(dirs.gap_share)} and {turn} by at most {fmt(dirs.spread_degrees)}° between "
+        f"randomizations); {dirs.nonzero} eigenvalue{'s are' if dirs.nonzero != 1 else ' is'} above the rounding floor."
     )
     blocks.append(Paragraph(text))
     if dirs.ridge_error is not None and dirs.few:
         e = dirs.ridge_error
         blocks.append(Paragraph(
-            f"With normal inputs, the best function of these {r} directions misses at most {fmt(e.estimate)} "
+            f"With normal inputs, the best function of {'this direction' if r == 1 else f'these {r} directions'} "
+            f"misses at most {fmt(e.estimate)} "
             f"{fmt_interval(e.ci_low, e.ci_high)} of the variance (Σ_(k>r) λ_k / σ², a Poincaré bound)."
         ))  # fmt: skip
     fields = tuple(
