@@ -71,6 +71,8 @@ def test_sections_and_their_content():
 
 def test_screening_section_lists_what_was_left_out():
     text = markdown(_result(screening=True))
+    assert "## Outputs at a glance: what the inputs left out carry" in text
+    assert "| y | 0.7000 | 0.3000 | [0.2900, 0.3100] | 0.4000 | [0.3900, 0.4100] |" in text
     assert "Kept 1 of 3 inputs" in text and "b, c" in text
     assert "the other 2 (one group)" in text
     assert "carry together at most 0.4000" in text

@@ -19,6 +19,7 @@ __all__ = ["SECTION_TITLES", "bounds_table", "directions_blocks", "slopes_report
 SECTION_TITLES = {
     "header": "Model and run",
     "outputs": "Outputs at a glance: directions and bounds",
+    "screen_outputs": "Outputs at a glance: what the inputs left out carry",
     "bounds": "Bounds on the total indices of {name}",
     "directions": "Active directions of {name}",
     "layers": "Directions spanned by each hidden layer",
@@ -83,6 +84,25 @@ def _overview(result: SlopesResult) -> Table:
         nu = fmt(o.mean_dimension.estimate) if o.mean_dimension else "not measured"
         total = fmt(o.bound_sum.estimate) if o.bound_sum else "n/a"
         rows.append((o.name, r, beyond, nu, total, fmt(o.lipschitz_bound), _leading(dirs)))
+    return Table(columns, tuple(rows))
+
+
+def _screen_overview(result: SlopesResult) -> Table:
+    """Screening: per output the bound on ν, what the inputs left out carry (measured and bounded)."""
+    assert result.screening is not None
+    screened = {o.name: o for o in result.screening.outputs}
+    columns = (Column("output", "name"), Column("ν bound Σ bounds"), Column("left out: total index", tone="strong"),
+               Column("95 % interval"), Column("left out: bound"), Column("95 % interval"))  # fmt: skip
+    rows: list[tuple[CellValue, ...]] = []
+    for o in result.outputs:
+        s = screened.get(o.name)
+        if o.inert or s is None or s.rest_total is None or s.rest_bound is None:
+            rows.append((o.name, Cell("inert (constant)", "muted") if o.inert else "", "", "", "", ""))
+            continue
+        t, b = s.rest_total, s.rest_bound
+        total = fmt(o.bound_sum.estimate) if o.bound_sum else "n/a"
+        rows.append((o.name, total, fmt(t.estimate), fmt_interval(t.ci_low, t.ci_high), fmt(b.estimate),
+                     fmt_interval(b.ci_low, b.ci_high)))  # fmt: skip
     return Table(columns, tuple(rows))
 
 
@@ -241,7 +261,11 @@ def slopes_report(result: SlopesResult, *, all_outputs: bool = False, max_output
     if max_outputs < 0:
         raise ValueError(f"max_outputs must be 0 or more, got {max_outputs}")
     d = len(result.inputs)
-    sections = [_header(result), Section(SECTION_TITLES["outputs"], (_overview(result),))]
+    if result.screening is not None:
+        overview = Section(SECTION_TITLES["screen_outputs"], (_screen_overview(result),))
+    else:
+        overview = Section(SECTION_TITLES["outputs"], (_overview(result),))
+    sections = [_header(result), overview]
     live = [o for o in result.outputs if not o.inert]
     shown = live if all_outputs else live[:max_outputs]
     for o in shown:
