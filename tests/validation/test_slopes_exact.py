@@ -61,3 +61,17 @@ def test_bounds_match_their_exact_values(name, ext):
     assert abs(total.estimate - exact.sum() / variance) <= q * total.std_error + 1e-9
     # and the exact bound is at least the exact total index of every input
     assert np.all(exact / variance >= np.array(MODELS[name]["exact"]["total_index"]))
+
+
+@pytest.mark.slow
+def test_bound_intervals_cover_the_exact_value_at_their_level():
+    # 40 seeds × 6 inputs of ridge_phi by autograd: the 95 % intervals of E[(∂_j f)²] should cover the
+    # closed form about 95 % of the time; fewer than 85 % would be a binomial tail below 1e-6
+    exact = _exact("ridge_phi")
+    covered = total = 0
+    for seed in range(40):
+        r = slopes_model(str(ZOO / "ridge_phi.pt"), "normal", points=256, replicates=R, seed=seed, indices=False)
+        for b, e in zip(r.outputs[0].bounds, exact, strict=True):
+            covered += b.mean_square.covers(e)
+            total += 1
+    assert covered / total >= 0.85, covered / total
