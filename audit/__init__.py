@@ -24,6 +24,7 @@ _EXPORTS = {
     "Design": "audit.design",
     "DesignOptions": "audit.studies",
     "RunOptions": "audit.studies",
+    "SlopesResult": "audit.results",
     "Estimate": "audit.results",
     "FeatureEstimate": "audit.results",
     "Gates": "audit.studies",
@@ -44,6 +45,7 @@ _EXPORTS = {
     "parse_spec": "audit.inputs",
     "SimplifiedResult": "audit.results",
     "simplify_model": "audit.studies",
+    "slopes_model": "audit.studies.slopes",
 }
 
 __all__ = sorted(_EXPORTS)

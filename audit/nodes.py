@@ -64,9 +64,7 @@ def _outputs_of(func: Callable[[np.ndarray], Any] | Model, X: np.ndarray) -> np.
     else:
         y = func(X)  # type: ignore[operator]
         if isinstance(y, Mapping):
-            y = np.concatenate(
-                [np.asarray(v, dtype=np.float64).reshape(len(X), -1) for v in y.values()], axis=1
-            )
+            y = np.concatenate([np.asarray(v, dtype=np.float64).reshape(len(X), -1) for v in y.values()], axis=1)
     return np.asarray(y, dtype=np.float64).reshape(len(X), -1)
 
 

@@ -54,11 +54,7 @@ def check_index(index: int, d: int, names: Sequence[str] | None = None) -> int:
 
 
 def check_nodes(nodes: int) -> int:
-    if (
-        isinstance(nodes, bool)
-        or not isinstance(nodes, (int, np.integer))
-        or not 1 <= nodes <= MAX_NODES
-    ):
+    if isinstance(nodes, bool) or not isinstance(nodes, (int, np.integer)) or not 1 <= nodes <= MAX_NODES:
         raise ValueError(f"nodes must be a whole number in 1..{MAX_NODES}, got {nodes!r}.")
     return int(nodes)
 
@@ -151,9 +147,7 @@ class PreIntegrated:
     def _reduce(self, y: np.ndarray, n: int) -> np.ndarray:
         y = np.asarray(y, dtype=np.float64)
         if y.shape[0] != n * len(self.weights):
-            raise ValueError(
-                f"the wrapped function returned {y.shape[0]} rows for {n * len(self.weights)}."
-            )
+            raise ValueError(f"the wrapped function returned {y.shape[0]} rows for {n * len(self.weights)}.")
         if not np.all(np.isfinite(y)):
             bad = np.flatnonzero(~np.isfinite(y.reshape(len(y), -1)).all(axis=1))[0]
             z = self.points[bad % len(self.points)]
@@ -228,17 +222,13 @@ class PreIntegratedModel(PreIntegrated):
         if not (hasattr(model, "evaluate") and hasattr(model, "inputs")):
             raise TypeError("model must implement the audit.models.base.Model protocol.")
         if feature_count(model) != len(laws):
-            raise ValueError(
-                f"the model takes {feature_count(model)} inputs but {len(laws)} laws were given."
-            )
+            raise ValueError(f"the model takes {feature_count(model)} inputs but {len(laws)} laws were given.")
         super().__init__(model, laws, index, nodes, max_rows=max_rows)
         self.model = model
         names = list(feature_names) if feature_names is not None else list(model.feature_names())
         self.integrated = names[self.index]
         self._names = names[: self.index] + names[self.index + 1 :]
-        self.source = (
-            f"{model.source} with {self.integrated} integrated out ({len(self.weights)} nodes)"
-        )
+        self.source = f"{model.source} with {self.integrated} integrated out ({len(self.weights)} nodes)"
         name = model.inputs[0].name if len(model.inputs) == 1 else "x"
         self.inputs = [TensorInfo(name, (self.d - 1,), "float64")]
         self.outputs = list(model.outputs)

@@ -35,7 +35,9 @@ __all__ = [
     "GAIN",
     "PAIRS",
     "PILOT",
+    "SCREENED",
     "SEARCH",
+    "SLOPES",
     "SOURCE_CHECK",
     "RandomizationSeeds",
     "child_seed",
@@ -51,6 +53,8 @@ PILOT, CANDIDATE, GAIN, FREEZE, PAIRS = 1, 2, 3, 4, 5
 #: Tags of the phases of ``simplify``: the search for freezing values, the checks on the source, the
 #: audit of the written model.
 SEARCH, SOURCE_CHECK, EXPORTED = 6, 7, 8
+#: Tags of the phases of ``slopes``: the gradient points, and the screened audit.
+SLOPES, SCREENED = 17, 18
 
 
 def resolve_seed(seed: int | np.random.Generator | None) -> int:

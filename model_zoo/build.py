@@ -156,9 +156,7 @@ def _write_formats(
     output_name: str = "y",
 ) -> tuple[dict[str, str], dict[str, float]]:
     files = {
-        "onnx": export.export_onnx(
-            model, example, out_dir / f"{name}.onnx", input_name, output_name
-        ),
+        "onnx": export.export_onnx(model, example, out_dir / f"{name}.onnx", input_name, output_name),
         "torchscript": export.export_torchscript(model, example, out_dir / f"{name}.pt"),
     }
     if extra:
@@ -398,8 +396,7 @@ def _build_digits(name: str, out_dir: Path) -> dict[str, Any]:
             ),
             "rows": len(y_tr),
             "seed": SPLIT_SEED,
-            "optimiser": f"full-batch Adam {steps} steps (lr {lr}, cosine decay, "
-            f"weight decay {wd}), cross-entropy",
+            "optimiser": f"full-batch Adam {steps} steps (lr {lr}, cosine decay, weight decay {wd}), cross-entropy",
             "final_training_loss": loss,
         },
         "held_out": {
@@ -430,9 +427,7 @@ def _diabetes_split() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, l
     from sklearn.model_selection import train_test_split
 
     data = load_diabetes()
-    parts = train_test_split(
-        data.data, data.target, test_size=TEST_FRACTION, random_state=SPLIT_SEED
-    )
+    parts = train_test_split(data.data, data.target, test_size=TEST_FRACTION, random_state=SPLIT_SEED)
     return (*parts, list(data.feature_names))
 
 
@@ -752,9 +747,7 @@ def _update_json(path: Path, update: dict[str, Any], key: str) -> dict[str, Any]
     return data
 
 
-def build_all(
-    only: Sequence[str] | None = None, out_dir: Path | str = ZOO_DIR
-) -> list[BuildResult]:
+def build_all(only: Sequence[str] | None = None, out_dir: Path | str = ZOO_DIR) -> list[BuildResult]:
     """Build the named models (all by default) and update ``cards.json``,
     ``validation.json`` and ``README.md`` in ``out_dir``.
 
@@ -782,13 +775,8 @@ def build_all(
             "caution": cards.CAUTION,
         }
     )
-    data = {
-        k: data[k]
-        for k in ("split_seed", "test_fraction", "greenhouse_test_rows", "caution", "models")
-    }
-    (out / "cards.json").write_text(
-        json.dumps(data, indent=1, ensure_ascii=False) + "\n", encoding="utf-8"
-    )
+    data = {k: data[k] for k in ("split_seed", "test_fraction", "greenhouse_test_rows", "caution", "models")}
+    (out / "cards.json").write_text(json.dumps(data, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
     val = {
         r.name: {
             "formula": r.record["formula"],
@@ -808,9 +796,7 @@ def build_all(
             "see model_zoo/exact.py. Indices are normalised by the variance."
         )
         vdata = {"method": vdata["method"], "models": vdata["models"]}
-        (out / "validation.json").write_text(
-            json.dumps(vdata, indent=1, ensure_ascii=False) + "\n", encoding="utf-8"
-        )
+        (out / "validation.json").write_text(json.dumps(vdata, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
     cards.write_readme(out / "README.md", data)
     return results
 
@@ -821,9 +807,7 @@ def _size(paths: Sequence[Path]) -> int:
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Command line: ``python -m model_zoo.build [--only NAME ...] [--out DIR]``."""
-    parser = argparse.ArgumentParser(
-        prog="python -m model_zoo.build", description=__doc__.split("\n")[0]
-    )
+    parser = argparse.ArgumentParser(prog="python -m model_zoo.build", description=__doc__.split("\n")[0])
     parser.add_argument(
         "--only",
         nargs="+",
@@ -831,9 +815,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         metavar="NAME",
         help=f"build only these models (choices: {', '.join(MODELS)})",
     )
-    parser.add_argument(
-        "--out", type=Path, default=ZOO_DIR, help="target folder (default: the zoo)"
-    )
+    parser.add_argument("--out", type=Path, default=ZOO_DIR, help="target folder (default: the zoo)")
     args = parser.parse_args(argv)
     start = time.perf_counter()
     results = build_all(args.only, args.out)

@@ -137,9 +137,7 @@ def ridge_covariance(link: str, scale: float, shift: float, rho: float) -> float
         g = _link(link, scale * w - shift)
         return g * _conditional_mean(link, scale, shift, rho, w) * _norm_pdf(w)
 
-    second, _ = integrate.quad(
-        integrand, -_LIMIT, _LIMIT, points=points, epsabs=1e-14, epsrel=1e-12, limit=400
-    )
+    second, _ = integrate.quad(integrand, -_LIMIT, _LIMIT, points=points, epsabs=1e-14, epsrel=1e-12, limit=400)
     mean = ridge_mean(link, scale, shift)
     return second - mean * mean
 

@@ -145,8 +145,7 @@ def _check(x: np.ndarray) -> np.ndarray:
     x = np.asarray(x, dtype=np.float64)
     if x.ndim != 2 or x.shape[1] != len(FEATURES):
         raise ValueError(
-            f"x must have shape (n, {len(FEATURES)}) with columns "
-            f"{[f.name for f in FEATURES]}; got shape {x.shape}"
+            f"x must have shape (n, {len(FEATURES)}) with columns {[f.name for f in FEATURES]}; got shape {x.shape}"
         )
     return x
 

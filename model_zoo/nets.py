@@ -63,9 +63,7 @@ class Affine(nn.Module):
         self.register_buffer("shift", torch.zeros(size))
         self.register_buffer("scale", torch.ones(size))
 
-    def set(
-        self, shift: Sequence[float] | torch.Tensor, scale: Sequence[float] | torch.Tensor
-    ) -> None:
+    def set(self, shift: Sequence[float] | torch.Tensor, scale: Sequence[float] | torch.Tensor) -> None:
         """Set the shift and scale (``scale`` must be positive)."""
         shift_t = torch.as_tensor(shift, dtype=self.shift.dtype).reshape(self.shift.shape)
         scale_t = torch.as_tensor(scale, dtype=self.scale.dtype).reshape(self.scale.shape)
@@ -224,9 +222,7 @@ class RidgeNet(nn.Module):
     ) -> None:
         super().__init__()
         if activation not in RIDGE_ACTIVATIONS:
-            raise ValueError(
-                f"activation must be one of {list(RIDGE_ACTIVATIONS)}, got {activation!r}"
-            )
+            raise ValueError(f"activation must be one of {list(RIDGE_ACTIVATIONS)}, got {activation!r}")
         th = torch.as_tensor(list(theta), dtype=torch.float64)
         if th.ndim != 1 or th.numel() < 1 or float(th.norm()) == 0.0:
             raise ValueError("theta must be a non-empty, non-zero sequence of numbers")

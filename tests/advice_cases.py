@@ -95,9 +95,7 @@ def small_net(x: np.ndarray) -> np.ndarray:
 
 
 def ridge_advice() -> AdviceResult:
-    return advise_function(
-        phi_ridge, "normal", dim=6, points=1024, replicates=8, seed=0, gain_points=(256, 1024, 4096)
-    )
+    return advise_function(phi_ridge, "normal", dim=6, points=1024, replicates=8, seed=0, gain_points=(256, 1024, 4096))
 
 
 def net_advice() -> AdviceResult:

@@ -54,8 +54,7 @@ def variance_1d(g: Callable[[float], float], kink: float | None = None) -> float
 
     def moment(p: int) -> float:
         return sum(
-            integrate.quad(lambda z: g(z) ** p * stats.norm.pdf(z), lo, hi, limit=400)[0]
-            for lo, hi in pairwise(pts)
+            integrate.quad(lambda z: g(z) ** p * stats.norm.pdf(z), lo, hi, limit=400)[0] for lo, hi in pairwise(pts)
         )
 
     return moment(2) - moment(1) ** 2

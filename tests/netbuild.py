@@ -422,9 +422,7 @@ def ops_reference(x: np.ndarray, seed: int = 0) -> dict[str, np.ndarray]:
     return out
 
 
-def linear_graph(
-    path: Path, *, batch: int | str = "N", dtype: int = TensorProto.FLOAT
-) -> Path:
+def linear_graph(path: Path, *, batch: int | str = "N", dtype: int = TensorProto.FLOAT) -> Path:
     """y = x @ A + c for x (batch, 3), y (batch, 2); A = [[1,2],[3,4],[5,6]], c = [0.5, -1]."""
     a = np.arange(1, 7, dtype=np.float32).reshape(3, 2)
     c = np.array([0.5, -1.0], dtype=np.float32)

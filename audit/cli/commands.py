@@ -166,7 +166,13 @@ def cmd_audit(args: argparse.Namespace) -> int:
 
 #: Gates a comparison judges unless told otherwise.
 GATES_ON_BY_DEFAULT = (
-    "mean_dimension", "total_index", "first_order", "ranking", "top_k_kept", "layer_mean_dimension", "variance"
+    "mean_dimension",
+    "total_index",
+    "first_order",
+    "ranking",
+    "top_k_kept",
+    "layer_mean_dimension",
+    "variance",
 )
 
 
@@ -277,6 +283,29 @@ def cmd_simplify(args: argparse.Namespace) -> int:
     return run_simplify(args, spec, _open(args, spec), _design(args), _run_options)
 
 
+def cmd_slopes(args: argparse.Namespace) -> int:
+    from ..studies.slopes import execute_slopes, prepare_slopes
+
+    spec = _spec(args)
+    check_report_target(args.json, [args.model, getattr(args, "inputs", None), args.checkpoint])
+    model = _open(args, spec)
+    plan = prepare_slopes(
+        model,
+        spec,
+        design=_design(args),
+        gradient_points=args.gradient_points,
+        indices=not args.no_indices,
+        screen=args.screen,
+        layers=args.layers,
+        outputs=_outputs(args),
+        memory_limit=_memory_limit(args),
+    )
+    with progress(args, plan.evaluations) as bar:
+        result = execute_slopes(plan, _run(args, bar))
+    _finish(result, args)
+    return EXIT_OK
+
+
 def cmd_layers(args: argparse.Namespace) -> int:
     from ..report import render
     from ..studies import model_signature
@@ -354,6 +383,7 @@ COMMANDS = {
     "compare": cmd_compare,
     "advise": cmd_advise,
     "simplify": cmd_simplify,
+    "slopes": cmd_slopes,
     "layers": cmd_layers,
     "show": cmd_show,
     "demo": cmd_demo,

@@ -86,6 +86,9 @@ FLAGS = {
     "path": "--out",
     "replace": "--replace",
     "output_dtype": "--output-precision",
+    "gradient_points": "--gradient-points",
+    "screen": "--screen",
+    "indices": "--no-indices",
 }
 
 
@@ -133,7 +136,7 @@ def print_result(result: Any, args: argparse.Namespace) -> None:
         return
     from .. import report
 
-    options = {"all_outputs": getattr(args, "all_outputs", False)} if result.kind == "audit" else {}
+    options = {"all_outputs": getattr(args, "all_outputs", False)} if result.kind in ("audit", "slopes") else {}
     if fmt == "markdown":
         print(report.markdown(result, **options))
     else:

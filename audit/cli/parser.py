@@ -288,6 +288,43 @@ def _simplify(sub: argparse._SubParsersAction) -> None:
     _common(sm)
 
 
+def _slopes(sub: argparse._SubParsersAction) -> None:
+    sl = sub.add_parser("slopes", help="bounds from gradients, active directions, and screening of many inputs")
+    sl.add_argument("model", metavar="MODEL", help="model file (.onnx, .pt, .pt2) or package.module:function")
+    _inputs(sl)
+    _outputs(sl)
+    g = sl.add_argument_group("design")
+    g.add_argument("--points", type=int, default=1024, help="points N per randomization of the indices (default 1024)")
+    g.add_argument("--replicates", type=int, default=8, help="independent randomizations R (default 8)")
+    g.add_argument("--seed", type=_seed, help="seed for the randomizations (default: fresh, recorded in the report)")
+    g.add_argument("--sampler", default="sobol", help=SAMPLER_HELP)
+    g.add_argument(
+        "--gradient-points",
+        type=_positive_int,
+        metavar="N",
+        help="gradient points per randomization (default --points, or a quarter of it with --screen)",
+    )
+    s = sl.add_argument_group("what to measure")
+    s.add_argument(
+        "--screen",
+        type=_positive_int,
+        metavar="K",
+        help="screening: rank the inputs by their bound, then measure "
+        "the K highest one by one and all others as one group",
+    )
+    s.add_argument("--no-indices", action="store_true", help="gradients only: no Jansen indices beside the bounds")
+    s.add_argument(
+        "--layers",
+        default="activations",
+        help="hidden layers whose directions are summarised: activations (default), all, none, or NAME,NAME",
+    )
+    sl.set_defaults(estimator="jansen")
+    _running(sl)
+    _model_loading(sl)
+    _output(sl, all_outputs=True)
+    _common(sl)
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of ``netdim``."""
     parser = argparse.ArgumentParser(
@@ -303,6 +340,7 @@ def build_parser() -> argparse.ArgumentParser:
     _advise(sub)
     fromdata.add_parser(sub)
     _simplify(sub)
+    _slopes(sub)
 
     lay = sub.add_parser("layers", help="list a model's inputs, outputs and probe-able layers")
     lay.add_argument("model", metavar="MODEL")

@@ -188,8 +188,7 @@ class Fast:
     def check(self, points: int) -> None:
         if points < self.d:
             raise UserError(
-                f"The fast estimator needs at least as many points as inputs ({self.d}); "
-                f"got {points}. Raise `points`."
+                f"The fast estimator needs at least as many points as inputs ({self.d}); got {points}. Raise `points`."
             )
 
     def layout(self, block: Any, dtype: Any) -> tuple[np.ndarray, np.ndarray]:

@@ -81,9 +81,7 @@ def inert_rule(eps: float) -> str:
     )
 
 
-def unreliable(
-    low: float, high: float, d: int, mean: float, variance: float, eps: float, lower: float = 1.0
-) -> str:
+def unreliable(low: float, high: float, d: int, mean: float, variance: float, eps: float, lower: float = 1.0) -> str:
     """Why an interval ``[low, high]`` of a quantity that must lie in ``[lower, d]`` says nothing ("" when it does).
 
     Examples

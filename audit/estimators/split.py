@@ -164,8 +164,7 @@ class Split:
     def check(self, points: int) -> None:
         if points < self.d:
             raise UserError(
-                f"The fast estimator needs at least as many points as inputs ({self.d}); "
-                f"got {points}. Raise `points`."
+                f"The fast estimator needs at least as many points as inputs ({self.d}); got {points}. Raise `points`."
             )
         if points != self.points:
             raise ValueError(f"the split estimator was built for {self.points} points, the design has {points}.")

@@ -81,7 +81,6 @@ _OUTPUT_KEYS = ("names", "units", "keep")
 _MODEL_KEYS = ("class", "arguments", "input_shape")
 
 
-
 @dataclass(frozen=True)
 class InputSpec:
     """Names and laws of the d inputs, and optional output names.
@@ -355,7 +354,7 @@ def parse_spec(data: dict[str, Any], source: str = "") -> InputSpec:
         raise UserError(f"{where}, [outputs]: `names` must be a list of non-empty strings.")
     keep = outputs.get("keep")
     if keep is not None and (not isinstance(keep, list) or not keep or not all(isinstance(n, str) and n for n in keep)):
-        raise UserError(f"{where}, [outputs]: `keep` must be a list of output names, e.g. keep = [\"probabilities\"].")
+        raise UserError(f'{where}, [outputs]: `keep` must be a list of output names, e.g. keep = ["probabilities"].')
     out_units = outputs.get("units")
     if out_units is not None and out_names is not None and len(out_units) != len(out_names):
         raise UserError(f"{where}, [outputs]: `units` and `names` must have the same length.")

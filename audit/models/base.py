@@ -262,7 +262,8 @@ def output_units(model: Model, names: Sequence[str]) -> list[int]:
             shown = ", ".join(f"'{v}'" for v in valid[:12])
             shown += f" and {len(valid) - 12} more" if len(valid) > 12 else ""
             raise UserError(
-                f"The model '{model.source}' has no output named '{name}'." + suggest(name, valid)
+                f"The model '{model.source}' has no output named '{name}'."
+                + suggest(name, valid)
                 + f" Its outputs are {shown}: give output tensor names or unit names."
             )
         chosen.extend(i for i in found if i not in chosen)

@@ -60,6 +60,7 @@ from .tensors import (
 
 __all__ = ["OnnxModel"]
 
+
 class OnnxModel:
     """An ONNX file seen through the :class:`~audit.models.base.Model` interface.
 

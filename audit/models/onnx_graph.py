@@ -34,17 +34,15 @@ FLOAT_TYPES = {
     onnx.TensorProto.FLOAT16: np.float16,
 }
 
+
 def check_file(path: Path) -> None:
     """A UserError unless ``path`` is a non-empty file."""
     if not path.exists():
         raise UserError(
-            f"The ONNX model file '{path}' does not exist. Check the path (and the current "
-            "folder) and try again."
+            f"The ONNX model file '{path}' does not exist. Check the path (and the current folder) and try again."
         )
     if path.is_dir():
-        raise UserError(
-            f"'{path}' is a folder, not an ONNX model file. Give the path of the .onnx file itself."
-        )
+        raise UserError(f"'{path}' is a folder, not an ONNX model file. Give the path of the .onnx file itself.")
     if path.stat().st_size == 0:
         raise UserError(
             f"The ONNX model file '{path}' is empty (0 bytes). It was probably not written "
@@ -106,9 +104,7 @@ def check_external_data(proto: onnx.ModelProto, path: Path) -> bool:
     return bool(tensors)
 
 
-def with_outputs(
-    proto: onnx.ModelProto, names: Sequence[str], path: Path, external: bool
-) -> bytes:
+def with_outputs(proto: onnx.ModelProto, names: Sequence[str], path: Path, external: bool) -> bytes:
     """The serialized model whose graph also returns the tensors ``names``."""
     extended = onnx.ModelProto()
     extended.CopyFrom(proto)

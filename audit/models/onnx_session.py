@@ -38,18 +38,13 @@ def session_options() -> ort.SessionOptions:
 
 def session(model: str | bytes, where: Path) -> ort.InferenceSession:
     try:
-        return ort.InferenceSession(
-            model, sess_options=session_options(), providers=["CPUExecutionProvider"]
-        )
+        return ort.InferenceSession(model, sess_options=session_options(), providers=["CPUExecutionProvider"])
     except Exception as exc:  # onnxruntime raises its own classes (Fail, InvalidGraph, ...)
         kind = type(exc).__name__
         text = str(exc)
         unsupported = ("not a registered function/op", "Could not find an implementation")
         if kind == "NotImplemented" or any(marker in text for marker in unsupported):
-            why = (
-                "it uses an operator (or operator version) that onnxruntime "
-                f"{ort.__version__} cannot run on the CPU"
-            )
+            why = f"it uses an operator (or operator version) that onnxruntime {ort.__version__} cannot run on the CPU"
             fix = "re-export the model with a supported opset or without custom operators"
         elif kind in ("InvalidProtobuf", "InvalidGraph", "Fail", "InvalidArgument"):
             why = "onnxruntime found it invalid or damaged"
@@ -58,9 +53,7 @@ def session(model: str | bytes, where: Path) -> ort.InferenceSession:
             why = "onnxruntime could not load it"
             fix = "export or copy the model again"
         first_line = text.strip().splitlines()[0] if text.strip() else kind
-        raise UserError(
-            f"The ONNX model '{where}' cannot be used: {why} ({first_line}). To fix: {fix}."
-        ) from exc
+        raise UserError(f"The ONNX model '{where}' cannot be used: {why} ({first_line}). To fix: {fix}.") from exc
 
 
 def static_dims(dims: Sequence[object]) -> tuple[int, ...] | None:
@@ -80,5 +73,3 @@ def kind_of(ort_type: str) -> str:
     if ort_type.startswith("map"):
         return "a map"
     return "a sequence" if ort_type.startswith("seq") else ort_type
-
-

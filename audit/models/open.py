@@ -96,8 +96,11 @@ def open_model(
             _add_notice(model, shadow_notice(torch_class.partition(":")[0]))
         # how to open it again elsewhere (another process or machine): see reopen()
         model.open_args = {
-            "ref": str(path.resolve()), "torch_class": torch_class, "torch_arguments": torch_arguments,
-            "trust": trust, "input_shape": _plain_shape(input_shape),
+            "ref": str(path.resolve()),
+            "torch_class": torch_class,
+            "torch_arguments": torch_arguments,
+            "trust": trust,
+            "input_shape": _plain_shape(input_shape),
         }
         return model
     raise UserError(
@@ -168,7 +171,7 @@ def _check_arguments(
     if torch_class is not None and not isinstance(torch_class, str):
         raise UserError(
             f"`torch_class` must be a string 'package.module:Class', got {torch_class!r}. In an input spec, "
-            "write class = \"package.module:Class\" in the [model] table."
+            'write class = "package.module:Class" in the [model] table.'
         )
     if torch_arguments is not None and (
         not isinstance(torch_arguments, Mapping) or not all(isinstance(k, str) for k in torch_arguments)

@@ -81,9 +81,7 @@ _NORMED = alt(
 )
 
 _PHI = alt(("mul", _ERF1, const(0.5)), ("div", _ERF1, const(2.0)))  # Φ(x)
-_SOFTPLUS = alt(
-    ("softplus", X), _SOFTPLUS_CUT, ("log1p", ("exp", X)), ("log", ("add", ("exp", X), const(1.0)))
-)
+_SOFTPLUS = alt(("softplus", X), _SOFTPLUS_CUT, ("log1p", ("exp", X)), ("log", ("add", ("exp", X), const(1.0))))
 _HARDSIGMOID = alt(("hardsigmoid", X), ("div", _RELU6, const(6.0)), ("mul", _RELU6, const(1.0 / 6.0)))
 
 #: (operator the match computes, pattern), tried in this order at every node.

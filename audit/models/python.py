@@ -73,7 +73,8 @@ def import_reference(ref: str, what: str = "Python reference") -> object:
             names = [n for n in dir(module) if not n.startswith("_")]
             shadowed = shadow_notice(module_name)
             raise UserError(
-                f"The {what} '{ref}': module '{module_name}' has no attribute '{attr}'." + suggest(part, names)
+                f"The {what} '{ref}': module '{module_name}' has no attribute '{attr}'."
+                + suggest(part, names)
                 + (f" {shadowed}" if shadowed else "")
             )
         obj = getattr(obj, part)

@@ -117,9 +117,7 @@ def gather(arrays: Sequence[np.ndarray], n: int) -> np.ndarray:
     return np.concatenate(parts, axis=1)
 
 
-def input_shapes(
-    input_shape: InputShape | None, names: Sequence[str], source: str
-) -> dict[str, tuple[int, ...]]:
+def input_shapes(input_shape: InputShape | None, names: Sequence[str], source: str) -> dict[str, tuple[int, ...]]:
     """The ``input_shape`` argument as ``{tensor name: shape}``, checked against ``names``.
 
     Parameters
@@ -276,8 +274,7 @@ def left_out_notice(refused: Sequence[tuple[str, Refusal]], limit: int = 6) -> s
     shown = "; ".join(f"'{name}' ({r.reason})" for name, r in refused[:limit])
     more = f"; and {len(refused) - limit} more" if len(refused) > limit else ""
     return (
-        "Hidden tensors left out because netdim could not tell which axis holds the rows of the batch: "
-        f"{shown}{more}."
+        f"Hidden tensors left out because netdim could not tell which axis holds the rows of the batch: {shown}{more}."
     )
 
 

@@ -109,6 +109,6 @@ def markdown(result: Any, **options: Any) -> str:
     str
         Markdown ending in a newline, closing with the caution.
     """
-    if getattr(result, "kind", "audit") == "audit":
+    if getattr(result, "kind", "audit") in ("audit", "slopes"):
         options.setdefault("all_outputs", True)
     return to_markdown(build_report(result, **options))

@@ -106,12 +106,7 @@ class RunProgress:
         self.phase = ""
         self._lock = threading.Lock()
         self._console = console if console is not None else Console(stderr=True)
-        self.enabled = bool(
-            enabled
-            and not quiet
-            and self._console.is_terminal
-            and not self._console.is_dumb_terminal
-        )
+        self.enabled = bool(enabled and not quiet and self._console.is_terminal and not self._console.is_dumb_terminal)
         self._progress: Progress | None = None
         self._task: TaskID | None = None
         self._transient = transient
@@ -129,9 +124,7 @@ class RunProgress:
                 redirect_stdout=False,
                 refresh_per_second=4,
             )
-            self._task = self._progress.add_task(
-                "audit", total=self.total, completed=self.completed, phase=self.phase
-            )
+            self._task = self._progress.add_task("audit", total=self.total, completed=self.completed, phase=self.phase)
             self._progress.start()
         return self
 

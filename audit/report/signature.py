@@ -68,9 +68,7 @@ class _Signature:
     def _tensors(self, title: str, tensors: Sequence[TensorEntry], units_header: str) -> Table:
         table = self._table(title, [("name", "name"), ("shape", "text"), (units_header, "num"), ("dtype", "text")])
         for info in tensors:
-            table.add_row(
-                self._text(info.name), format_shape(info.shape), str(info.units), self._text(info.dtype)
-            )
+            table.add_row(self._text(info.name), format_shape(info.shape), str(info.units), self._text(info.dtype))
         return table
 
     def _layers(self, layers: Sequence[LayerEntry]) -> Table:

@@ -23,6 +23,7 @@ from .base import SCHEMA, Estimate, FeatureEstimate, set_renderer
 from .comparison import ComparisonResult, GateCheck, LayerChange, OutputChange
 from .signature import LayerEntry, ModelSignature, TensorEntry
 from .simplified import OutputShift, SimplifiedResult
+from .slopes import SlopesResult
 
 __all__ = [
     "KINDS",
@@ -48,6 +49,7 @@ __all__ = [
     "PairEstimate",
     "RqmcGain",
     "SimplifiedResult",
+    "SlopesResult",
     "TensorEntry",
     "UnitResult",
     "VarianceIdentity",
@@ -56,10 +58,16 @@ __all__ = [
 ]
 
 #: Report kinds (the JSON ``"kind"``) and their classes.
-KINDS = {"audit": AuditResult, "comparison": ComparisonResult, "advice": AdviceResult, "simplified": SimplifiedResult}
+KINDS = {
+    "audit": AuditResult,
+    "comparison": ComparisonResult,
+    "advice": AdviceResult,
+    "simplified": SimplifiedResult,
+    "slopes": SlopesResult,
+}
 
 
-def result_from_dict(data: Any) -> AuditResult | ComparisonResult | AdviceResult | SimplifiedResult:
+def result_from_dict(data: Any) -> AuditResult | ComparisonResult | AdviceResult | SimplifiedResult | SlopesResult:
     """Rebuild any saved report from its JSON object.
 
     Raises

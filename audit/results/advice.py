@@ -133,9 +133,7 @@ class AdviceResult(Displayable):
     @property
     def audit(self) -> AuditResult:
         """The ordinary audit of the outputs that the advice starts from."""
-        return AuditResult(
-            self.model, self.inputs, self.design, [o.audit for o in self.outputs], [], self.notices
-        )
+        return AuditResult(self.model, self.inputs, self.design, [o.audit for o in self.outputs], [], self.notices)
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -155,9 +153,7 @@ class AdviceResult(Displayable):
         if d.get("tool") != "netdim":
             raise ValueError('not a netdim report (missing "tool": "netdim")')
         if d.get("schema") != SCHEMA:
-            raise ValueError(
-                f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})"
-            )
+            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
         if d.get("kind") != KIND:
             raise ValueError(f"not an advice report (kind {d.get('kind')!r}, expected {KIND!r})")
         return cls(

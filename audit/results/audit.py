@@ -232,7 +232,6 @@ class AuditResult(Displayable):
         """True when the indices of this result are those of groups of inputs."""
         return bool(self.groups)
 
-
     def output(self, name: str) -> OutputResult:
         for o in self.outputs:
             if o.name == name:
@@ -272,5 +271,3 @@ class AuditResult(Displayable):
             groups=[dict(g) for g in d.get("groups", [])],
             by_group=cls.from_dict(d["by_group"]) if d.get("by_group") else None,
         )
-
-

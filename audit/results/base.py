@@ -120,5 +120,3 @@ def _opt_estimate(d: dict[str, Any] | None) -> Estimate | None:
 
 def _opt_dict(e: Estimate | None) -> dict[str, Any] | None:
     return None if e is None else e.to_dict()
-
-

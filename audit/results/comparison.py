@@ -12,7 +12,6 @@ from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dic
 __all__ = ["ComparisonResult", "GateCheck", "LayerChange", "OutputChange"]
 
 
-
 @dataclass(frozen=True)
 class OutputChange:
     """How one output changed from the old model to the new one.
@@ -123,8 +122,9 @@ class LayerChange:
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> LayerChange:
         unclean = lambda s: {k: (math.nan if v is None else v) for k, v in s.items()}  # noqa: E731
-        return cls(d["name"], int(d["units"]), unclean(d["old"]), unclean(d["new"]),
-                   _opt_estimate(d.get("nu_weighted_change")))
+        return cls(
+            d["name"], int(d["units"]), unclean(d["old"]), unclean(d["new"]), _opt_estimate(d.get("nu_weighted_change"))
+        )
 
 
 @dataclass(frozen=True)
@@ -138,8 +138,13 @@ class GateCheck:
     detail: str = ""
 
     def to_dict(self) -> dict[str, Any]:
-        return {"name": self.name, "limit": _num(self.limit), "value": _num(self.value),
-                "passed": self.passed, "detail": self.detail}
+        return {
+            "name": self.name,
+            "limit": _num(self.limit),
+            "value": _num(self.value),
+            "passed": self.passed,
+            "detail": self.detail,
+        }
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> GateCheck:
@@ -160,7 +165,6 @@ class ComparisonResult(Displayable):
     notices: list[str] = field(default_factory=list)
 
     kind = "comparison"
-
 
     @property
     def passed(self) -> bool:

@@ -86,9 +86,7 @@ def _output_change(old: Side, new: Side, io: int, jn: int, gates: Gates, paired:
         keep = [j for j in range(len(ea)) if ea[j].estimate >= gates.matter or eb[j].estimate >= gates.matter]
         tau = _kendall([ea[j].estimate for j in keep], [eb[j].estimate for j in keep])
         kept, k = top_k_kept(ea, eb, gates.top_k)
-    return OutputChange(
-        name, a, b, dnu, totals, moved, tau, k, kept, agreement, ranked, swapped, firsts, dvar
-    )
+    return OutputChange(name, a, b, dnu, totals, moved, tau, k, kept, agreement, ranked, swapped, firsts, dvar)
 
 
 def _layer_change(name: str, old: Side, new: Side, paired: bool) -> LayerChange:

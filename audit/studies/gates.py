@@ -190,9 +190,7 @@ def parse_output_map(text: str, old_names: Sequence[str], new_names: Sequence[st
     pairs = []
     for item in text.split(","):
         if "=" not in item:
-            raise UserError(
-                f"`output_map` takes OLD=NEW pairs separated by commas, e.g. 'y=temp,1=2'; got '{item}'."
-            )
+            raise UserError(f"`output_map` takes OLD=NEW pairs separated by commas, e.g. 'y=temp,1=2'; got '{item}'.")
         a, b = item.split("=", 1)
         pairs.append((index(a, old_names, "old"), index(b, new_names, "new")))
     return pairs

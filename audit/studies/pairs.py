@@ -69,9 +69,7 @@ def _column(interval: Interval, unit: int) -> Interval:
     return Interval(*(np.atleast_1d(np.asarray(a)[..., unit]) for a in interval))
 
 
-def with_pairs(
-    setup: Setup, outputs: list[OutputResult], k: int, session: Session
-) -> tuple[list[OutputResult], dict]:
+def with_pairs(setup: Setup, outputs: list[OutputResult], k: int, session: Session) -> tuple[list[OutputResult], dict]:
     """The outputs with their pairs and dimension spread, and what the design records of the pairs."""
     inputs = leading_inputs(outputs, k)
     if len(inputs) < 2:

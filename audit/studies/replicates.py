@@ -57,7 +57,12 @@ def _stats(d: dict[str, Any]) -> GroupStats:
         return None if d.get(key) is None else np.asarray(d[key], dtype=np.float64)
 
     return GroupStats.from_arrays(
-        get("mean"), get("variance"), get("total"), get("first"), get("total_sum"), get("eps")  # type: ignore[arg-type]
+        get("mean"),
+        get("variance"),
+        get("total"),
+        get("first"),
+        get("total_sum"),
+        get("eps"),  # type: ignore[arg-type]
     )
 
 

@@ -119,7 +119,6 @@ class GroupStats:
             return np.where(var > 0, num / np.where(var > 0, var, 1.0), np.nan)
 
 
-
 def _features(per_input: list[list[Estimate]] | None, k: int, features: list[str], inert: bool) -> list:
     if inert or per_input is None:
         return []
@@ -275,9 +274,7 @@ def model_signature(model: Model) -> ModelSignature:
     def tensor(t: Any) -> TensorEntry:
         return TensorEntry(t.name, tuple(t.shape), t.dtype)
 
-    layers = [
-        LayerEntry(x.name, x.op, tuple(x.shape), x.activation, getattr(x, "tensor", "")) for x in model.layers()
-    ]
+    layers = [LayerEntry(x.name, x.op, tuple(x.shape), x.activation, getattr(x, "tensor", "")) for x in model.layers()]
     return ModelSignature(
         model.source,
         model.format,

@@ -167,10 +167,15 @@ def markdown(results: dict, replicates: int, budget_points: int) -> str:
                 f"| {case} | {name} | {r['points']} | {r['evaluations']:,} | {r['nu']:.4f} ({ref}) | "
                 f"{r['bias_in_se']:+.2f} | {r['work_vs_jansen']:.3g} | {r['rqmc_gain']:.2f} |"
             )
-    lines += ["", "Lowest work per case: " + "; ".join(
-        f"{case}: {min(res['estimators'], key=lambda n: res['estimators'][n]['work_vs_jansen'])}"
-        for case, res in results.items()
-    ) + "."]
+    lines += [
+        "",
+        "Lowest work per case: "
+        + "; ".join(
+            f"{case}: {min(res['estimators'], key=lambda n: res['estimators'][n]['work_vs_jansen'])}"
+            for case, res in results.items()
+        )
+        + ".",
+    ]
     return "\n".join(lines) + "\n"
 
 
@@ -182,8 +187,12 @@ def main() -> None:
     t = time.perf_counter()
     results = bench(args.replicates, args.points)
     OUT.mkdir(parents=True, exist_ok=True)
-    payload = {"replicates": args.replicates, "budget_points": args.points,
-               "seconds": round(time.perf_counter() - t, 1), "cases": results}
+    payload = {
+        "replicates": args.replicates,
+        "budget_points": args.points,
+        "seconds": round(time.perf_counter() - t, 1),
+        "cases": results,
+    }
     (OUT / "estimators.json").write_text(json.dumps(payload, indent=2) + "\n", encoding="utf-8")
     text = markdown(results, args.replicates, args.points)
     (OUT / "estimators.md").write_text(text, encoding="utf-8")

@@ -27,8 +27,9 @@ print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, r.design["evaluations"
 
 
 def peak_kib(points: int) -> tuple[int, int, int]:
-    out = subprocess.run([sys.executable, "-c", CHILD, str(points)], cwd=ROOT, capture_output=True, text=True,
-                         check=True)
+    out = subprocess.run(
+        [sys.executable, "-c", CHILD, str(points)], cwd=ROOT, capture_output=True, text=True, check=True
+    )
     rss, evals, block = (int(v) for v in out.stdout.split())
     return rss, evals, block
 

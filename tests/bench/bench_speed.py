@@ -61,21 +61,29 @@ def bench(name: str, points: int = 2048, replicates: int = 4) -> dict:
     raw = raw_inference(ZOO / f"{name}.onnx", setup.evaluations, rows_per_task, model.inputs[0].shape)
     plain = best(lambda: audit_model(model, spec, points=points, replicates=replicates, seed=1, layers="none"))
     layered = best(lambda: audit_model(model, spec, points=points, replicates=replicates, seed=1))
-    res = {"evaluations": setup.evaluations, "raw_s": raw, "audit_outputs_s": plain, "audit_layers_s": layered,
-           "ratio_outputs": plain / raw, "ratio_layers": layered / raw}
-    print(f"{name:14s} {setup.evaluations:>9,} rows: raw {raw:.3f} s, audit {plain:.3f} s "
-          f"({plain / raw:.2f}×), with activation layers {layered:.3f} s ({layered / raw:.2f}×)")
+    res = {
+        "evaluations": setup.evaluations,
+        "raw_s": raw,
+        "audit_outputs_s": plain,
+        "audit_layers_s": layered,
+        "ratio_outputs": plain / raw,
+        "ratio_layers": layered / raw,
+    }
+    print(
+        f"{name:14s} {setup.evaluations:>9,} rows: raw {raw:.3f} s, audit {plain:.3f} s "
+        f"({plain / raw:.2f}×), with activation layers {layered:.3f} s ({layered / raw:.2f}×)"
+    )
     return res
 
 
 def fast_scaling() -> dict:
     out = {}
     for d in (8, 64, 512):
+
         def f(x):
             return np.tanh(x).sum(axis=1)
 
-        t = best(lambda d=d: audit_function(f, "normal", dim=d, points=4096, replicates=4, seed=1,
-                                            estimator="fast"))
+        t = best(lambda d=d: audit_function(f, "normal", dim=d, points=4096, replicates=4, seed=1, estimator="fast"))
         out[d] = t
         print(f"fast ν estimator, d = {d:4d}: {t:.3f} s (2N evaluations per randomization)")
     return out

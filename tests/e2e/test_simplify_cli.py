@@ -109,13 +109,16 @@ def test_python_module_round_trip_without_netdim(tmp_path):
     (copy / "model_zoo").mkdir(parents=True)
     (copy / "model_zoo" / "__init__.py").write_text("")
     (copy / "model_zoo" / "functions.py").write_text((ZOO / "functions.py").read_text())
-    got = run_clean(f"""
+    got = run_clean(
+        f"""
         import json, sys, numpy as np
         sys.path.insert(0, {str(out.parent)!r})
         from ishigami_simplified import simplified, PLAN
         x = np.array([[0.3, -1.2], [2.0, 0.4]])
         print(json.dumps({{"y": simplified(x).tolist(), "nodes": PLAN["integrated"][0]["nodes"]}}))
-    """, extra_paths=[str(copy)])
+    """,
+        extra_paths=[str(copy)],
+    )
     info = json.loads(got)
     # Ishigami f = sin x1 + 7 sin² x2 + 0.1 x3⁴ sin x1 ("An importance quantification technique in uncertainty
     # analysis for computer models", Proc. ISUMA '90, 1990); x3 ~ U(−π, π): E[x3⁴] = π⁴ / 5, and a 16-node

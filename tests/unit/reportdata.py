@@ -375,4 +375,3 @@ def unescape_md(cell: str) -> str:
 
 def all_kinds() -> dict[str, object]:
     return {"audit": make_result(), "comparison": make_comparison(), "advice": make_advice()}
-

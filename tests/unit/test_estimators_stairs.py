@@ -131,8 +131,13 @@ def test_g_function_nu_within_the_interval_with_plain_monte_carlo():
     a = np.arange(12) / 2
     ref = g_function(a)["nu"]
     design = Design([Law("uniform")] * 12, 2000, 10, seed=8, sampler="mc")
-    job = Job("g", lambda x: {"y": fz.g_function(x, a)[:, None]}, design, make_estimator("stairs", d=12),
-              [Group("y", 1, False)])
+    job = Job(
+        "g",
+        lambda x: {"y": fz.g_function(x, a)[:, None]},
+        design,
+        make_estimator("stairs", d=12),
+        [Group("y", 1, False)],
+    )
     reps = [s.finish(design.ddof) for s in run(job)["y"]]
     iv = t_interval(np.array([r.total_sum[0] / r.variance[0] for r in reps]))
     assert iv.low <= ref <= iv.high

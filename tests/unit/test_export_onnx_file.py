@@ -31,8 +31,11 @@ def two_tensor_model(path: Path, opset: int = 17) -> Path:
         helper.make_node("Mul", ["s", "b0"], ["p"]),
         helper.make_node("Add", ["p", "b1"], ["y"]),
     ]
-    inits = [helper.make_tensor("axes", TensorProto.INT64, [2], [1, 2]),
-             helper.make_tensor("i0", TensorProto.INT64, [], [0]), helper.make_tensor("i1", TensorProto.INT64, [], [1])]
+    inits = [
+        helper.make_tensor("axes", TensorProto.INT64, [2], [1, 2]),
+        helper.make_tensor("i0", TensorProto.INT64, [], [0]),
+        helper.make_tensor("i1", TensorProto.INT64, [], [1]),
+    ]
     graph = helper.make_graph(
         nodes, "two", [helper.make_tensor_value_info("a", TensorProto.FLOAT, ["n", 2, 2]),
                        helper.make_tensor_value_info("b", TensorProto.FLOAT, ["n", 2])],

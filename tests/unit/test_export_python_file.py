@@ -34,7 +34,9 @@ def test_module_holds_data_and_one_import(tmp_path):
     tree = ast.parse(text)
     imports = [n for n in ast.walk(tree) if isinstance(n, ast.Import | ast.ImportFrom)]
     assert sorted(ast.unparse(n) for n in imports) == [
-        "from model_zoo.functions import ishigami as _source", "import json", "import numpy as np"
+        "from model_zoo.functions import ishigami as _source",
+        "import json",
+        "import numpy as np",
     ]
     assert [n.name for n in tree.body if isinstance(n, ast.FunctionDef)] == ["simplified"]
     path = tmp_path / "s.py"

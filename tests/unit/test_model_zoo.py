@@ -77,9 +77,7 @@ def test_catalogue_is_complete_and_small():
         assert {"onnx", "torchscript"} <= set(rec["formats"]), name
         files += [ZOO / f for f in rec["formats"].values()]
         files += [ZOO / f"{name}.toml", ZOO / f"{name}.md"]
-    assert set(MODELS["greenhouse_v1"]["formats"]) == {
-        "onnx", "torchscript", "torch-export", "state-dict"
-    }
+    assert set(MODELS["greenhouse_v1"]["formats"]) == {"onnx", "torchscript", "torch-export", "state-dict"}
     files += [ZOO / "cards.json", ZOO / "validation.json", ZOO / "README.md"]
     assert all(f.is_file() for f in files)
     assert sum(f.stat().st_size for f in files) < SIZE_LIMIT  # the brief's 5 MB limit
@@ -236,9 +234,7 @@ def test_simulator_shapes_ranges_and_errors():
     assert np.mean(y[:, 0] > x[:, 0]) > 0.95
     with pytest.raises(ValueError, match="shape"):
         greenhouse.simulate(np.zeros((3, 7)))
-    assert [f.name for f in greenhouse.FEATURES][:3] == [
-        "outside_temperature", "solar_irradiance", "vent_opening"
-    ]
+    assert [f.name for f in greenhouse.FEATURES][:3] == ["outside_temperature", "solar_irradiance", "vent_opening"]
 
 
 def test_simulator_vent_kink_and_interactions():

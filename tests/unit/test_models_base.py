@@ -49,7 +49,6 @@ def test_signature_folds_long_names_within_80_columns() -> None:
         assert "a notice" in plain and "16" in plain  # units of the (4, 4) layer
 
 
-
 class _TwoTensors:
     """A stand-in with two input tensors of different types."""
 

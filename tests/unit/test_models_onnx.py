@@ -336,7 +336,6 @@ def _iris_onnx(estimator, path: Path, zipmap: bool) -> tuple[object, np.ndarray]
     return estimator, x
 
 
-
 def _classifiers() -> list:
     from sklearn.ensemble import RandomForestClassifier
     from sklearn.linear_model import LogisticRegression

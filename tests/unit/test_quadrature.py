@@ -44,9 +44,7 @@ def test_preintegrated_returns_what_the_function_returns():
     g = PreIntegrated(two, laws, 1, nodes=3)
     np.testing.assert_allclose(g(x), np.stack([x[:, 0], 5 + x[:, 1]], axis=1), atol=1e-12)
     # batching does not change the answer
-    np.testing.assert_allclose(
-        PreIntegrated(two, laws, 1, nodes=3, max_rows=7)(x), g(x), atol=1e-15
-    )
+    np.testing.assert_allclose(PreIntegrated(two, laws, 1, nodes=3, max_rows=7)(x), g(x), atol=1e-15)
     # an evaluator returning a dict of arrays gives a dict back
     ev = PreIntegrated(lambda X: {"a": two(X), "b": X[:, :1] ** 2}, laws, 1, nodes=3)
     out = ev(x)

@@ -40,8 +40,15 @@ def test_sections_in_order_with_the_models_the_run_and_the_note():
 def test_outputs_table_has_both_nus_the_change_and_rank_agreement():
     result = make_comparison()
     table = outputs_table(result)
-    assert [c.header for c in table.columns] == ["output", "ν old", "ν new", "change", "95 %", "rank agreement",
-                                                 "top-k kept"]
+    assert [c.header for c in table.columns] == [
+        "output",
+        "ν old",
+        "ν new",
+        "change",
+        "95 %",
+        "rank agreement",
+        "top-k kept",
+    ]
     o = result.outputs[0]
     change, half = fmt_change(o.mean_dimension_change)
     assert table.rows[0] == (o.name, fmt(o.old.mean_dimension.estimate), fmt(o.new.mean_dimension.estimate),

@@ -9,9 +9,7 @@ from audit.studies import advise_function, advise_model
 
 
 def test_single_input_and_top_zero():
-    res = advise_model(
-        PythonModel(lambda x: x[:, 0] ** 2, 1, source="square"), "normal", points=256, seed=2
-    )
+    res = advise_model(PythonModel(lambda x: x[:, 0] ** 2, 1, source="square"), "normal", points=256, seed=2)
     assert res.outputs[0].preintegrate == [] and res.outputs[0].rqmc_gain is None
     assert any("single input" in n for n in res.notices)
     text = render(res)

@@ -39,8 +39,10 @@ def test_points_are_rounded_up_for_scrambled_sobol_points_with_a_notice():
         ({"seed": -1}, "`seed` must be a whole number ≥ 0 or a numpy Generator, got -1."),
         ({"seed": 1.5}, "`seed` must be a whole number ≥ 0"),
         ({"sampler": "halton"}, "Unknown `sampler` 'halton'; valid choices: sobol, mc."),
-        ({"estimator": "jansn"}, "valid choices: jansen, fast, stairs, separate, superset, hashed."
-                                 " Did you mean 'jansen'?"),
+        (
+            {"estimator": "jansn"},
+            "valid choices: jansen, fast, stairs, separate, superset, hashed. Did you mean 'jansen'?",
+        ),
     ],
 )
 def test_design_options_refuse_and_name_the_setting(kw, needle):
@@ -92,7 +94,13 @@ def test_split_options_sorts_keywords_and_leaves_allowed_ones():
     assert options == {"top": 2}  # the design and run options were taken out
     assert set(DESIGN_OPTIONS) == {"points", "replicates", "seed", "sampler", "estimator", "view"}
     assert set(RUN_OPTIONS) == {
-        "progress", "checkpoint", "checkpoint_seconds", "cluster", "memory_limit", "block", "time_budget"
+        "progress",
+        "checkpoint",
+        "checkpoint_seconds",
+        "cluster",
+        "memory_limit",
+        "block",
+        "time_budget",
     }
 
 

@@ -52,9 +52,7 @@ def _stats(**kw):
 
 
 def _same(e, interval):
-    assert (e.estimate, e.ci_low, e.ci_high, e.std_error) == pytest.approx(
-        tuple(float(x) for x in interval), rel=1e-12
-    )
+    assert (e.estimate, e.ci_low, e.ci_high, e.std_error) == pytest.approx(tuple(float(x) for x in interval), rel=1e-12)
 
 
 def test_group_stats_gather_the_randomizations_and_find_inert_units():

@@ -78,9 +78,7 @@ def test_step_ridge_mean_dimension_trend():
         f = step(step_theta(d))
         a = audit_function(f, "normal", dim=d, estimator="fast", points=1024, replicates=8, seed=5)
         g = PreIntegrated(f, [Law("normal")] * d, 0, nodes=MAX_NODES)
-        b = audit_function(
-            g, "normal", dim=d - 1, estimator="fast", points=1024, replicates=8, seed=6
-        )
+        b = audit_function(g, "normal", dim=d - 1, estimator="fast", points=1024, replicates=8, seed=6)
         nu_f.append(a.outputs[0].mean_dimension)
         nu_g.append(b.outputs[0].mean_dimension)
     print("nu of f:", [fmt(e.estimate) for e in nu_f], "nu of f~:", [fmt(e.estimate) for e in nu_g])

@@ -93,9 +93,7 @@ def test_validation_exact_values_by_independent_method(name):
             b, kmax = -t, 200000
             h = _hermite_table(np.array([-b]), kmax)[:, 0]
             k = np.arange(2, kmax + 1)
-            a = np.concatenate(
-                [[0.0, special.ndtr(b)], stats.norm.pdf(b) * h[:-2] / np.sqrt(k * (k - 1.0))]
-            )
+            a = np.concatenate([[0.0, special.ndtr(b)], stats.norm.pdf(b) * h[:-2] / np.sqrt(k * (k - 1.0))])
             # closed-form variance of max(0, Z + b) (common practice, no source)
             m1 = b * special.ndtr(b) + stats.norm.pdf(b)
             m2 = (1 + b * b) * special.ndtr(b) + b * stats.norm.pdf(b)
@@ -161,9 +159,7 @@ def test_audit_recovers_exact_validation_answers(name):
     audit = _audit_api()
     ex = VALIDATION["models"][name]["exact"]
     spec = audit.load_spec(ZOO / f"{name}.toml")
-    r = audit.audit_model(
-        str(ZOO / f"{name}.onnx"), spec, points=4096, replicates=10, seed=17, layers="all"
-    )
+    r = audit.audit_model(str(ZOO / f"{name}.onnx"), spec, points=4096, replicates=10, seed=17, layers="all")
     out = r.outputs[0]
 
     def near(e, value):
@@ -175,9 +171,7 @@ def test_audit_recovers_exact_validation_answers(name):
     if name == "additive":
         # every tanh unit sees one input only: mean dimension 1
         units = [u for layer in r.layers for u in layer.units if u.mean_dimension is not None]
-        tanh_units = [
-            u for layer in r.layers if layer.op.lower().startswith("tanh") for u in layer.units
-        ]
+        tanh_units = [u for layer in r.layers if layer.op.lower().startswith("tanh") for u in layer.units]
         assert tanh_units, [layer.op for layer in r.layers]
         for u in units:
             assert near(u.mean_dimension, 1.0), u

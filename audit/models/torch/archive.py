@@ -172,8 +172,20 @@ def _expr_ok(text: str) -> bool:
                 return False
         elif not isinstance(
             node,
-            ast.Expression | ast.keyword | ast.Load | ast.UnaryOp | ast.BinOp | ast.USub | ast.UAdd
-            | ast.Add | ast.Sub | ast.Mult | ast.Div | ast.FloorDiv | ast.Mod | ast.Pow,
+            ast.Expression
+            | ast.keyword
+            | ast.Load
+            | ast.UnaryOp
+            | ast.BinOp
+            | ast.USub
+            | ast.UAdd
+            | ast.Add
+            | ast.Sub
+            | ast.Mult
+            | ast.Div
+            | ast.FloorDiv
+            | ast.Mod
+            | ast.Pow,
         ):
             return False
     return True

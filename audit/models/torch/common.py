@@ -55,6 +55,7 @@ __all__ = [
     "shape_error",
 ]
 
+
 def float_dtype(tensors: Any) -> torch.dtype:
     """The dtype of the first floating tensor (parameters, buffers), else float32."""
     for tensor in tensors:
@@ -149,9 +150,7 @@ class TorchModel:
 
     format = "torch"
 
-    def __init__(
-        self, path: Path, inputs: list[TensorInfo], *, batch: tuple[int, int | None] = (1, None)
-    ) -> None:
+    def __init__(self, path: Path, inputs: list[TensorInfo], *, batch: tuple[int, int | None] = (1, None)) -> None:
         self.path = path
         self.source = str(path)
         self.notices: list[str] = []
@@ -203,8 +202,10 @@ class TorchModel:
             small, large, again = numpy_of(s), numpy_of(lg), numpy_of(a)
             axis = establish(small, large, probe, again)
             if isinstance(axis, Refusal) or axis.factor != 1:
-                why = axis if isinstance(axis, Refusal) else Refusal(
-                    "shape", f"its rows are merged with another axis ({axis.describe()})"
+                why = (
+                    axis
+                    if isinstance(axis, Refusal)
+                    else Refusal("shape", f"its rows are merged with another axis ({axis.describe()})")
                 )
                 raise refused_output(self.source, label(i), why, probe)
             if axis.moved:
@@ -364,6 +365,15 @@ class TorchModel:
         values = self._run(x, keys, axes, sizes)
         k = len(self._keep)
         return Evaluation(outputs=gather(values[:k], n), hidden=dict(zip(capture, values[k:], strict=True)))
+
+    def gradients(self, x: np.ndarray, capture: Sequence[str] = ()) -> Any:
+        """Values and gradients of the outputs (and the ``capture`` layers) at rows ``x``, by autograd.
+
+        See :func:`audit.models.torch.gradients.autograd_gradients`; ``evaluate`` is unchanged.
+        """
+        from .gradients import autograd_gradients
+
+        return autograd_gradients(self, x, capture)
 
     def _check_capture(self, capture: Sequence[str]) -> None:
         known = {layer.name for layer in self.layers()}

@@ -139,9 +139,7 @@ class ExportedModel(TorchModel):
             mapping: dict[torch.fx.Node, torch.fx.Node] = {}
             result = graph.graph_copy(self.module.graph, mapping)
             leaves = list(result) if isinstance(result, (tuple, list)) else [result]
-            by_name = {
-                node.name: mapping[node] for node in self.module.graph.nodes if node in mapping
-            }
+            by_name = {node.name: mapping[node] for node in self.module.graph.nodes if node in mapping}
             graph.output((*leaves, *(by_name[name] for name in key)))
             self._modules[key] = torch.fx.GraphModule(self.module, graph)
         return self._modules[key]
@@ -155,9 +153,7 @@ class ExportedModel(TorchModel):
         result = self._graph_module(capture)(*xs)
         k = len(result) - len(key)
         captured = dict(zip(key, result[k:], strict=True))
-        return [r for r in result[:k] if isinstance(r, torch.Tensor)], [
-            captured[name] for name in capture
-        ]
+        return [r for r in result[:k] if isinstance(r, torch.Tensor)], [captured[name] for name in capture]
 
     def _release(self, keys: tuple[str, ...]) -> None:
         self._modules.pop(tuple(sorted(keys)), None)

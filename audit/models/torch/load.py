@@ -32,14 +32,10 @@ _LEGACY_MAGIC = b"\x80\x02\x8a\x0al\xfc\x9cF\xf9 j\xa8P\x19"
 def check_file(path: Path) -> None:
     if not path.exists():
         raise UserError(
-            f"The Torch model file '{path}' does not exist. Check the path (and the current "
-            "folder) and try again."
+            f"The Torch model file '{path}' does not exist. Check the path (and the current folder) and try again."
         )
     if path.is_dir():
-        raise UserError(
-            f"'{path}' is a folder, not a Torch model file. Give the path of the .pt / .pt2 "
-            "file itself."
-        )
+        raise UserError(f"'{path}' is a folder, not a Torch model file. Give the path of the .pt / .pt2 file itself.")
     if path.stat().st_size == 0:
         raise UserError(
             f"The Torch model file '{path}' is empty (0 bytes). It was probably not written "
@@ -141,11 +137,7 @@ def _not_torch(path: Path, exc: Exception) -> UserError:
 
 def state_dict(obj: Any, path: Path) -> dict[str, torch.Tensor]:
     def is_tensors(value: Any) -> bool:
-        return (
-            isinstance(value, dict)
-            and bool(value)
-            and all(isinstance(v, torch.Tensor) for v in value.values())
-        )
+        return isinstance(value, dict) and bool(value) and all(isinstance(v, torch.Tensor) for v in value.values())
 
     if is_tensors(obj):
         return dict(obj)
@@ -219,9 +211,7 @@ def rebuild(
     try:
         module.load_state_dict(state, strict=True)
     except Exception as exc:
-        raise UserError(
-            f"Loading the state dict '{path}' into '{torch_class}' failed: {exc}"
-        ) from exc
+        raise UserError(f"Loading the state dict '{path}' into '{torch_class}' failed: {exc}") from exc
     return module
 
 

@@ -106,11 +106,12 @@ class ModuleModel(TorchModel):
             calls = [0]
 
             def hook(_mod: Any, _inp: Any, out: Any, slots: dict = slots, calls: list = calls) -> None:
-                # Copy now: a later in-place operation (ReLU(inplace=True)) must not alter it.
+                # Copy now: a later in-place operation (ReLU(inplace=True)) must not alter it; with
+                # autograd on (gradients of hidden layers) the copy stays in the graph.
                 for leaf, tensor in enumerate(leaves(out)):
                     key = slots.get((calls[0], leaf))
                     if key is not None:
-                        store[key] = tensor.detach().clone()
+                        store[key] = tensor.clone() if torch.is_grad_enabled() else tensor.detach().clone()
                 calls[0] += 1
 
             handles.append(self._submodules[path].register_forward_hook(hook))

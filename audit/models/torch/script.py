@@ -172,9 +172,7 @@ def script_nodes(
                 if index is not None and int(index) < len(carried):
                     key[node.output().unique()] = carried[int(index)]
                     continue
-        args = tuple(
-            key[v.unique()] if isinstance(key.get(v.unique()), str) else _constant(v) for v in node.inputs()
-        )
+        args = tuple(key[v.unique()] if isinstance(key.get(v.unique()), str) else _constant(v) for v in node.inputs())
         extra = tuple(k for v in reads if isinstance(key.get(v.unique()), list) for k in _flat(key[v.unique()]))
         extra += tuple(key[v.unique()] for v in inner if isinstance(key.get(v.unique()), str))
         for index, out in enumerate(node.outputs()):

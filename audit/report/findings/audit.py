@@ -81,9 +81,7 @@ def freezable_inputs(result: AuditResult, threshold: float) -> tuple[list[str], 
         per_output[o.name] = [f.feature for f in o.total_index if f.value.ci_high < threshold]
     if not judged:
         return [], {}
-    everywhere = [
-        f.feature for f in judged[0].total_index if all(f.feature in per_output[o.name] for o in judged)
-    ]
+    everywhere = [f.feature for f in judged[0].total_index if all(f.feature in per_output[o.name] for o in judged)]
     some = {
         name: [x for x in feats if x not in everywhere]
         for name, feats in per_output.items()

@@ -17,6 +17,7 @@ from .advice import advice_report
 from .audit import audit_report
 from .comparison import comparison_report
 from .simplified import simplified_report
+from .slopes import slopes_report
 
 __all__ = [
     "AUDIT_OPTIONS",
@@ -26,6 +27,7 @@ __all__ = [
     "check_options",
     "comparison_report",
     "simplified_report",
+    "slopes_report",
 ]
 
 #: Options of :func:`audit_report`; other kinds accept them and ignore them.
@@ -70,4 +72,6 @@ def build_report(result: Any, **options: Any) -> Report:
         return advice_report(result)
     if kind == "simplified":
         return simplified_report(result)
+    if kind == "slopes":
+        return slopes_report(result, **{k: v for k, v in options.items() if k in ("all_outputs", "max_outputs")})
     raise TypeError(f"no report for a result of kind {kind!r}")

@@ -78,7 +78,7 @@ def nodes_line(output: OutputAdvice) -> str:
     return (
         f"Gauss nodes: {listing(parts)}; on the pilot points the m- and 2m-node rules differ "
         f'by at most {fmt(worst, 2)} of the output sd. "Var after" is measured on the '
-        'pre-integrated model; "σ² − total" is the audit\'s variance minus the input\'s '
+        "pre-integrated model; \"σ² − total\" is the audit's variance minus the input's "
         "un-normalised total index: they should agree."
     )
 

@@ -175,9 +175,7 @@ def layers_table(result: AuditResult) -> Table:
     return Table(columns, tuple(rows))
 
 
-def grouped_sections(
-    result: AuditResult, *, all_outputs: bool, threshold: float, max_outputs: int
-) -> list[Section]:
+def grouped_sections(result: AuditResult, *, all_outputs: bool, threshold: float, max_outputs: int) -> list[Section]:
     """The grouped view of a run that asked for both: groups, outputs by group, and the shown outputs' groups."""
     g = result.by_group
     if g is None:

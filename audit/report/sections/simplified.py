@@ -103,8 +103,10 @@ def check_lines(o: OutputShift) -> list[Block]:
         )
     if o.freeze_change is not None:
         c, b = o.freeze_change, o.freeze_bound
-        bound = "" if b is None else (
-            f"; at a value drawn from the law it would be {fmt_percent(b.estimate)} (twice the total index)"
+        bound = (
+            ""
+            if b is None
+            else (f"; at a value drawn from the law it would be {fmt_percent(b.estimate)} (twice the total index)")
         )
         blocks.append(
             Paragraph(

@@ -104,9 +104,7 @@ def _glued(words: list[str]) -> list[str]:
         else:
             out.append(word)
         # relations, "ν value", and the two ends of an interval "[low, high]"
-        join_next = (
-            word in _GLUE_BOTH or word in _GLUE_NEXT or (word.endswith(",") and "[" in word and "]" not in word)
-        )
+        join_next = word in _GLUE_BOTH or word in _GLUE_NEXT or (word.endswith(",") and "[" in word and "]" not in word)
     return out
 
 

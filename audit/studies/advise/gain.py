@@ -68,9 +68,7 @@ def equal_cost_ratio(points: Sequence[int], before: np.ndarray, after: np.ndarra
     return math.exp(ib + sb * (n + math.log(cost)) - (ia + sa * n))
 
 
-def gain(
-    plan: AdvicePlan, var_before: np.ndarray, var_after: np.ndarray, k: int, feature: str, cost: int
-) -> RqmcGain:
+def gain(plan: AdvicePlan, var_before: np.ndarray, var_after: np.ndarray, k: int, feature: str, cost: int) -> RqmcGain:
     """The :class:`RqmcGain` of output ``k`` from the prefix variances of f and f̃."""
     pts = plan.gain_points
     reps = plan.setup.design.replicates

@@ -178,7 +178,13 @@ def prepare_advice(
             "is for `netdim audit`."
         )
     setup = prepare(
-        model, inputs, design=design, layers="none", block=block, memory_limit=memory_limit, outputs=outputs,
+        model,
+        inputs,
+        design=design,
+        layers="none",
+        block=block,
+        memory_limit=memory_limit,
+        outputs=outputs,
         view="inputs",
     )
     if setup.design.spans is not None:

@@ -199,4 +199,3 @@ def advise_function(
     """
     model, spec = function_model(func, inputs, dim)
     return advise_model(model, spec, **options)
-
