@@ -17,20 +17,25 @@ the check for non-finite model outputs.
 
 from __future__ import annotations
 
+import itertools
 import os
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any, Protocol
 
 import numpy as np
 
 from .design import Design
-from .errors import UserError
 from .estimators.base import Estimator, Sums
+from .finite import NonFiniteError, check_inputs, check_outputs, fits
 
 __all__ = [
+    "BLOCK_BYTES",
+    "IN_FLIGHT",
     "MAX_ROWS",
     "MEMORY_SHARE",
+    "OVERLAP_VALUES",
     "Evaluator",
     "Executor",
     "Group",
@@ -41,10 +46,13 @@ __all__ = [
     "Task",
     "available_memory",
     "estimate_memory",
+    "evaluate_task",
     "iter_tasks",
+    "native_outputs",
     "plan_block",
     "run",
     "run_task",
+    "sum_task",
 ]
 
 Evaluator = Callable[[np.ndarray], Mapping[str, np.ndarray]]
@@ -55,6 +63,10 @@ MEMORY_SHARE = 0.25
 #: Most model rows (points × rows per point) one task evaluates: bounds peak memory
 #: independently of N, and keeps progress and checkpoints fine-grained.
 MAX_ROWS = 1 << 16
+#: Model values (rows x units) a task must return before its sums are formed in the helper thread.
+OVERLAP_VALUES = 1 << 18
+#: Blocks in memory at once: the local executor forms one block's sums while the next is evaluated.
+IN_FLIGHT = 2
 
 
 @dataclass(frozen=True)
@@ -144,10 +156,6 @@ class Job:
         }
 
 
-class NonFiniteError(UserError):
-    """The model returned NaN or infinite values for some sampled inputs."""
-
-
 class Executor(Protocol):
     """Runs a job's tasks somewhere and yields ``(task, sums per group)`` as they finish."""
 
@@ -155,11 +163,53 @@ class Executor(Protocol):
 
 
 class LocalExecutor:
-    """Runs tasks here, one after the other."""
+    """Runs tasks here, in order; the sums of one task are formed while the model evaluates the next.
+
+    The overlap (one helper thread; numpy and the model runtimes release the GIL)
+    keeps the second core busy when the accumulation of wide hidden layers costs as
+    much as the inference. Tasks finish, and are yielded, in their order, so the
+    merged sums are those of :func:`run_task` one after the other.
+
+    Parameters
+    ----------
+    overlap : bool
+        Form sums in the helper thread (two blocks in flight, see ``IN_FLIGHT``).
+    """
+
+    def __init__(self, overlap: bool = True) -> None:
+        self.overlap = overlap
 
     def map(self, job: Job, tasks: Iterable[Task]) -> Iterator[tuple[Task, dict[str, Sums]]]:
-        for t in tasks:
-            yield t, run_task(job, t)
+        tasks = iter(tasks)
+        first = next(tasks, None)
+        if first is None:
+            return
+        values = first.n * job.estimator.rows_per_point() * job.units
+        if not self.overlap or values < OVERLAP_VALUES:  # small blocks: handing over costs more than it saves
+            for t in itertools.chain([first], tasks):
+                yield t, run_task(job, t)
+            return
+        with ThreadPoolExecutor(1, thread_name_prefix="netdim-sums") as pool:
+            pending: tuple[Task, Future] | None = None
+            try:
+                for t in itertools.chain([first], tasks):
+                    try:
+                        work = evaluate_task(job, t)
+                    except BaseException:
+                        if pending is not None:  # an interrupt or a model failure never costs finished work
+                            done, pending = pending, None
+                            yield done[0], done[1].result()
+                        raise
+                    future = pool.submit(sum_task, job, *work)
+                    if pending is not None:
+                        yield pending[0], pending[1].result()
+                    pending = (t, future)
+                if pending is not None:
+                    yield pending[0], pending[1].result()
+                    pending = None
+            finally:
+                if pending is not None:
+                    pending[1].cancel()
 
 
 def available_memory() -> int:
@@ -177,12 +227,23 @@ def available_memory() -> int:
         return 4 << 30
 
 
-def _bytes_per_point(d: int, units: int, rows_per_point: int) -> int:
-    # inputs (float64 + a float32 copy), outputs (float64), and the per-input differences
+#: Most bytes one task's block may take by default, whatever memory is free: beyond it
+#: larger blocks gain nothing but page faults.
+BLOCK_BYTES = 256 << 20
+
+
+def _bytes_per_point(d: int, units: int, rows_per_point: int, native: bool = False) -> int:
+    # inputs (float64 + a float32 copy) and outputs as the model returns them (at most 8 bytes);
+    # then either two (n, units) float64 rows and two reused buffers per point (an estimator
+    # taking the rows as they are), or a float64 copy and the differences per row
+    if native:
+        return rows_per_point * (12 * d + 8 * units) + 32 * units
     return rows_per_point * (12 * d + 24 * units)
 
 
-def plan_block(points: int, d: int, units: int, rows_per_point: int, budget: int | None = None) -> int:
+def plan_block(
+    points: int, d: int, units: int, rows_per_point: int, budget: int | None = None, native: bool = False
+) -> int:
     """Points per task: the largest power of two whose block fits the memory budget.
 
     Parameters
@@ -194,21 +255,31 @@ def plan_block(points: int, d: int, units: int, rows_per_point: int, budget: int
     rows_per_point : int
         Model rows per design point (the estimator's).
     budget : int, optional
-        Bytes a block may use; default ``MEMORY_SHARE`` of available memory.
+        Bytes a block may use; default ``MEMORY_SHARE`` of available memory, at most
+        ``BLOCK_BYTES``.
+    native : bool
+        The estimator takes the model's rows in their own float type (``native_outputs``).
     """
-    budget = int(budget if budget is not None else MEMORY_SHARE * available_memory())
-    per = _bytes_per_point(d, units, rows_per_point)
+    if budget is None:
+        budget = min(int(MEMORY_SHARE * available_memory()), BLOCK_BYTES)
+    per = _bytes_per_point(d, units, rows_per_point, native)
     n = max(1, min(budget // per, MAX_ROWS // rows_per_point))
     n = 1 << (int(n).bit_length() - 1)
     return int(min(n, points))
 
 
 def estimate_memory(job: Job, block: int) -> int:
-    """Peak bytes of a job: sums for every randomization, plus one block in flight."""
+    """Peak bytes of a job: sums for every randomization, plus ``IN_FLIGHT`` blocks."""
     state = sum(8 * job.estimator.state_size(g.units, g.detail) for g in job.groups)
     rows = job.estimator.rows_per_point()
     expanded = 0 if job.cost == 1 else MAX_ROWS * 8 * (2 * job.design.d + job.units)
-    return state * (job.design.replicates + 2) + block * _bytes_per_point(job.design.d, job.units, rows) + expanded
+    per = _bytes_per_point(job.design.d, job.units, rows, native_outputs(job.estimator))
+    return state * (job.design.replicates + 2) + IN_FLIGHT * block * per + expanded
+
+
+def native_outputs(estimator: Estimator) -> bool:
+    """Whether ``estimator``'s sums take the model's float rows as they are (no float64 copy)."""
+    return bool(getattr(estimator, "native_outputs", False))
 
 
 def iter_tasks(points: int, replicates: int, block: int, done: Mapping[int, Sequence[tuple[int, int]]] | None = None):
@@ -229,70 +300,47 @@ def iter_tasks(points: int, replicates: int, block: int, done: Mapping[int, Sequ
             pos = max(pos, start + n)
 
 
-#: Outputs above this in magnitude would overflow float64 when squared and summed.
-LARGEST_OUTPUT = 1e150
-
-
-def _check_inputs(job: Job, block: Any) -> None:
-    """The laws' inverse CDFs must give finite inputs (an extreme law can overflow)."""
-    if np.isfinite(block.X).all():
-        return
-    cols = np.flatnonzero(~np.isfinite(block.X).all(axis=0)) % job.design.d
-    labels = job.feature_names or [f"x{j}" for j in range(job.design.d)]
-    names = ", ".join(dict.fromkeys(labels[j] for j in cols[:5]))
-    laws = ", ".join(dict.fromkeys(job.design.laws[job.design.input_of(j)].describe() for j in cols[:5]))
-    raise UserError(
-        f"The input law of {names} ({laws}) gives infinite values at the edge of its range: its "
-        "inverse CDF overflows in floating point. This is not the model's doing: narrow the law "
-        "(a smaller sd or log_sd, or a bounded law) in the input spec."
-    )
-
-
-def _check_outputs(job: Job, name: str, y: np.ndarray, X: np.ndarray) -> None:
-    """Finite outputs whose squares do not overflow; otherwise a message with an example row."""
-    with np.errstate(invalid="ignore"):
-        top = float(np.max(np.abs(y))) if y.size else 0.0
-    if top <= LARGEST_OUTPUT:
-        return
-    what = "outputs" if name in ("outputs", "old", "new") else f"layer '{name.split(':', 1)[-1]}'"
-    if np.isfinite(y).all():
-        raise UserError(
-            f"The model's {what} reach {top:.3g} in magnitude: their squares would overflow float64, so "
-            "no variance can be computed. Rescale the output (for instance report it in larger units) "
-            "and audit again."
-        )
-    bad = ~np.isfinite(y.reshape(len(y), -1))
-    rows = np.flatnonzero(bad.any(axis=1))
-    i = rows[0]
-    labels = job.feature_names or [f"x{j}" for j in range(X.shape[1])]
-    example = ", ".join(f"{labels[j]}={X[i, j]:.6g}" for j in range(min(X.shape[1], 12)))
-    more = " ..." if X.shape[1] > 12 else ""
-    raise NonFiniteError(
-        f"The model returned NaN or infinite values in its {what} for {len(rows)} of {len(y)} "
-        f"sampled input rows (e.g. {example}{more}). Sobol' indices need finite values everywhere "
-        "the input laws put mass: use bounded laws (uniform, triangular) or narrower ones in the "
-        "input spec, or make the model finite on the whole input range."
-    )
-
-
-def run_task(job: Job, task: Task) -> dict[str, Sums]:
-    """Evaluate one task of ``job`` and return one set of sums per group."""
+def evaluate_task(job: Job, task: Task) -> tuple[Any, np.ndarray, Any, Mapping[str, np.ndarray]]:
+    """The model's part of a task: its block of design points, the model rows, the layout context
+    and the evaluator's arrays."""
     block = job.design.block(task.rep, task.start, task.n)
-    _check_inputs(job, block)
+    check_inputs(job, block)
     X, context = job.estimator.layout(block, job.dtype)
-    out = job.evaluator(X)
+    return block, X, context, job.evaluator(X)
+
+
+def sum_task(job: Job, block: Any, X: np.ndarray, context: Any, out: Mapping[str, np.ndarray]) -> dict[str, Sums]:
+    """The estimator's part of a task: one set of sums per group from the evaluator's arrays.
+
+    An estimator whose sums take the model's float rows as they are (``native_outputs``)
+    gets them without a float64 copy, and its sums -- which bound every value they saw --
+    stand for the scan of the outputs for NaN, infinities and overflow (:mod:`audit.finite`).
+    """
+    native = native_outputs(job.estimator)
     sums: dict[str, Sums] = {}
     for g in job.groups:
         if g.name not in out:
             raise KeyError(f"the evaluator returned no array named {g.name!r}")
-        y = np.asarray(out[g.name], dtype=np.float64).reshape(len(X), -1)
+        y = np.asarray(out[g.name])
+        if not native or y.dtype.kind != "f":
+            y = y.astype(np.float64, copy=False)
+        y = y.reshape(len(X), -1)
         if y.shape[1] != g.units:
             raise ValueError(f"group {g.name!r}: expected {g.units} units, the evaluator returned {y.shape[1]}.")
-        _check_outputs(job, g.name, y, X)
+        if not native:
+            check_outputs(job, g.name, y, X)
         s = job.estimator.sums(g.units, g.detail, block)
-        s.add(y, context)
+        with np.errstate(invalid="ignore", over="ignore"):
+            s.add(y, context)
+        if native and not fits(s):
+            check_outputs(job, g.name, y, X)
         sums[g.name] = s
     return sums
+
+
+def run_task(job: Job, task: Task) -> dict[str, Sums]:
+    """Evaluate one task of ``job`` and return one set of sums per group."""
+    return sum_task(job, *evaluate_task(job, task))
 
 
 def run(
@@ -326,7 +374,9 @@ def run(
     design = job.design
     job.estimator.check(design.points)
     if block is None:
-        block = plan_block(design.points, design.d, job.units, job.estimator.rows_per_point())
+        block = plan_block(
+            design.points, design.d, job.units, job.estimator.rows_per_point(), native=native_outputs(job.estimator)
+        )
     record = checkpoint.job(job) if checkpoint is not None else JobRecord(job)
     per_point = job.estimator.rows_per_point() * job.cost
     if progress is not None and record.rows_done:

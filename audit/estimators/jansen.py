@@ -66,18 +66,39 @@ class JansenSums:
         self.add_parts(y[:n], y[n : 2 * n], y[2 * n :].reshape(self.g, n, -1))
 
     def add_parts(self, yA: np.ndarray, yB: np.ndarray, yAB: np.ndarray) -> None:
-        """Add rows: ``yA``, ``yB`` of shape (n, k); ``yAB`` of shape (g, n, k)."""
-        self.rows += yA.shape[0]
+        """Add rows: ``yA``, ``yB`` of shape (n, k); ``yAB`` of shape (g, n, k).
+
+        Any float dtype: every difference and sum is formed in float64, one input at a
+        time in a reused (n, k) buffer, so a float32 network's rows are never copied
+        whole (the numbers equal those of a float64 copy bit for bit).
+        """
+        yA = np.asarray(yA, dtype=np.float64)
+        yB = np.asarray(yB, dtype=np.float64)
+        n = yA.shape[0]
+        self.rows += n
         self.moments.add(np.concatenate([yA, yB]))
-        diff = yAB - yA[None]
+        buf = np.empty_like(yA)
         if not self.detail:
-            self.tot_sum += np.einsum("jnk,jnk->k", diff, diff)
+            for j in range(self.g):
+                np.subtract(yAB[j], yA, out=buf)
+                self.tot_sum += np.einsum("nk,nk->k", buf, buf)
             return
         if self.shift is None:
             self.shift = yB.mean(axis=0)
-        self.tot += np.einsum("jnk,jnk->jk", diff, diff)
-        self.fo += np.einsum("nk,jnk->jk", yB - self.shift, diff)
-        self.dif += diff.sum(axis=1)
+        centred = yB - self.shift
+        for j in range(self.g):
+            np.subtract(yAB[j], yA, out=buf)
+            self.tot[j] += np.einsum("nk,nk->k", buf, buf)
+            self.fo[j] += np.einsum("nk,nk->k", centred, buf)
+            self.dif[j] += buf.sum(axis=0)
+
+    def magnitude_bound(self) -> float:
+        """An upper bound of every value added: ``|mean| + sqrt(m2)`` bounds y_A and y_B, and the
+        largest sum of squared differences bounds how far each y_A_B lies from its y_A (NaN or
+        infinite when such values were added)."""
+        m = self.moments
+        squares = self.tot if self.detail else self.tot_sum
+        return float(np.max(np.abs(m.mean) + np.sqrt(m.m2), initial=0.0) + np.sqrt(np.max(squares, initial=0.0)))
 
     def merge(self, other: JansenSums) -> None:
         """Add the sums of ``other`` (disjoint rows of the same randomization)."""
@@ -167,6 +188,8 @@ class Jansen:
     help = "every total and first-order index, N(d+2) evaluations per randomization"
     copies = 2
     first_order = True
+    #: Its sums take the model's float rows as they are (no float64 copy of the block).
+    native_outputs = True
 
     @classmethod
     def build(cls, d: int, points: int, groups: Sequence[Sequence[int]] | None = None) -> Jansen:

@@ -29,6 +29,7 @@ from __future__ import annotations
 import os
 from collections.abc import Sequence
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import onnxruntime as ort
@@ -37,8 +38,7 @@ from ..errors import UserError, suggest
 from .base import Evaluation, LayerInfo, TensorInfo, check_rows, element_names, feature_count
 from .batch import BatchAxis, Refusal, establish, make_probe
 from .graph import name_layers
-from .onnx_graph import check_external_data, check_file, load_proto, value_info, with_outputs
-from .onnx_layers import graph_nodes
+from .onnx_graph import check_external_data, check_file, load_proto, may_hold_external_data, value_info, with_outputs
 from .onnx_session import INPUT_TYPES, kind_of, static_dims
 from .onnx_session import session as make_session
 from .patterns import fuse
@@ -94,9 +94,13 @@ class OnnxModel:
         self.source = str(path)
         self.notices: list[str] = []
         check_file(self.path)
-        self._proto = load_proto(self.path)
-        self._has_external = check_external_data(self._proto, self.path)
-        self._session = make_session(str(self.path), self.path)
+        self._graph: Any = None
+        self._has_external = may_hold_external_data(self.path) and check_external_data(self._proto, self.path)
+        try:
+            self._session = make_session(str(self.path), self.path)
+        except UserError:
+            load_proto(self.path)  # a file onnx cannot parse either is described in those words
+            raise
         self._sessions: dict[tuple[str, ...], ort.InferenceSession] = {}
         self._layers: list[LayerInfo] | None = None
         self._found: dict[str, tuple[str, BatchAxis]] = {}
@@ -105,6 +109,13 @@ class OnnxModel:
         size = self.batch_size
         self._probe = make_probe(feature_count(self), size or 1, size)
         self._read_outputs()
+
+    @property
+    def _proto(self) -> Any:
+        """The parsed graph (without external data), read on first use: outputs alone need only the session."""
+        if self._graph is None:
+            self._graph = load_proto(self.path)
+        return self._graph
 
     # -- signature -----------------------------------------------------------------------
     def _read_inputs(self, input_shape: InputShape | None) -> None:
@@ -220,6 +231,8 @@ class OnnxModel:
     def layers(self) -> list[LayerInfo]:
         """Float tensors computed from the inputs whose rows the probe finds, in graph order."""
         if self._layers is None:
+            from .onnx_layers import graph_nodes
+
             nodes, returned = graph_nodes(self._proto, self._input_names, value_info(self._proto))
             named = name_layers(fuse(nodes, returned), returned)
             self._layers = []

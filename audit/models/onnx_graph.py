@@ -9,30 +9,46 @@ tensors (the file itself is never rewritten).
 
 from __future__ import annotations
 
+import functools
+import mmap
 import os
 from collections.abc import Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import onnx
 
 from ..errors import UserError
 
+if TYPE_CHECKING:  # onnx itself is imported only where a graph is read (not for outputs alone)
+    import onnx
+
 __all__ = [
-    "FLOAT_TYPES",
     "check_external_data",
     "check_file",
+    "float_types",
     "load_proto",
+    "may_hold_external_data",
     "value_info",
     "with_outputs",
 ]
 
-#: numpy dtypes of the ONNX tensor element types netdim can capture.
-FLOAT_TYPES = {
-    onnx.TensorProto.FLOAT: np.float32,
-    onnx.TensorProto.DOUBLE: np.float64,
-    onnx.TensorProto.FLOAT16: np.float16,
-}
+
+@functools.cache
+def float_types() -> dict[int, type]:
+    """numpy dtypes of the ONNX tensor element types netdim can capture."""
+    import onnx
+
+    tp = onnx.TensorProto
+    return {tp.FLOAT: np.float32, tp.DOUBLE: np.float64, tp.FLOAT16: np.float16}
+
+
+def may_hold_external_data(path: Path) -> bool:
+    """False only when ``path`` cannot reference external data: every external tensor names its
+    file under the key ``location``, which protobuf stores verbatim, so a file without those bytes
+    has none (a cheap scan that spares importing onnx for a model run for its outputs alone)."""
+    with open(path, "rb") as f, mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ) as data:
+        return data.find(b"location") >= 0
 
 
 def check_file(path: Path) -> None:
@@ -52,6 +68,8 @@ def check_file(path: Path) -> None:
 
 def load_proto(path: Path) -> onnx.ModelProto:
     """Parse the model without its external data, turning parse failures into UserErrors."""
+    import onnx
+
     try:
         proto = onnx.load(str(path), load_external_data=False)
     except Exception as exc:  # protobuf DecodeError and friends
@@ -69,6 +87,8 @@ def load_proto(path: Path) -> onnx.ModelProto:
 
 def _external_tensors(graph: onnx.GraphProto) -> list[onnx.TensorProto]:
     """Tensors of ``graph`` and of its subgraphs (If / Loop bodies) kept in external files."""
+    import onnx
+
     tensors = list(graph.initializer)
     for node in graph.node:
         for attribute in node.attribute:
@@ -106,6 +126,8 @@ def check_external_data(proto: onnx.ModelProto, path: Path) -> bool:
 
 def with_outputs(proto: onnx.ModelProto, names: Sequence[str], path: Path, external: bool) -> bytes:
     """The serialized model whose graph also returns the tensors ``names``."""
+    import onnx
+
     extended = onnx.ModelProto()
     extended.CopyFrom(proto)
     if external:
@@ -119,6 +141,8 @@ def value_info(proto: onnx.ModelProto) -> dict[str, onnx.ValueInfoProto]:
 
     Inference is a convenience: when it fails, the probe run tells the rest.
     """
+    import onnx
+
     try:
         inferred = onnx.shape_inference.infer_shapes(proto, strict_mode=False).graph
     except Exception:  # inference is a convenience; a probe run fills the gaps

@@ -23,7 +23,7 @@ import onnx
 from onnx import numpy_helper
 
 from .graph import Const, Node, op_name
-from .onnx_graph import FLOAT_TYPES
+from .onnx_graph import float_types
 
 __all__ = ["graph_nodes", "scope_path"]
 
@@ -197,7 +197,7 @@ def graph_nodes(
                 continue
             info = value_info.get(output)
             elem = info.type.tensor_type.elem_type if info is not None and info.type.HasField("tensor_type") else 0
-            candidate = node.op_type not in _SKIP_OPS and (not elem or elem in FLOAT_TYPES)
+            candidate = node.op_type not in _SKIP_OPS and (not elem or elem in float_types())
             candidate = candidate and output not in returned
             nodes.append(Node(output, op, args, scope, candidate, tuple(extra), index))
     return nodes, returned

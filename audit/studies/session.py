@@ -23,8 +23,9 @@ def job_block(job: engine.Job, run: RunOptions) -> int:
     if run.block:
         return run.block
     d, limit = job.design, run.memory_limit
-    budget = None if limit is None else limit // 2
-    return engine.plan_block(d.points, d.d, job.units, job.estimator.rows_per_point(), budget)
+    budget = None if limit is None else limit // (2 * engine.IN_FLIGHT)
+    est = job.estimator
+    return engine.plan_block(d.points, d.d, job.units, est.rows_per_point(), budget, engine.native_outputs(est))
 
 
 class Session:

@@ -378,8 +378,9 @@ def prepare(
     groups = [engine.Group(OUTPUTS, len(out_names), True)]
     groups += [engine.Group("layer:" + x.name, x.units, x.name in unit_detail) for x in chosen]
     units = sum(g.units for g in groups)
-    budget = None if memory_limit is None else memory_limit // 2
-    blk = block or engine.plan_block(options.points, d, units, estimator.rows_per_point(), budget)
+    budget = None if memory_limit is None else memory_limit // (2 * engine.IN_FLIGHT)
+    native = engine.native_outputs(estimator)
+    blk = block or engine.plan_block(options.points, d, units, estimator.rows_per_point(), budget, native)
     notices.extend(getattr(model, "notices", []) or [])
     identity = model_identity(model)
     setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
@@ -389,7 +390,7 @@ def prepare(
         grouped = group_view(variables, spec, shape)
         est = _estimator(options, d, grouped, variables)
         rows = est.rows_per_point()
-        gblk = block or engine.plan_block(options.points, d, units, rows, budget)
+        gblk = block or engine.plan_block(options.points, d, units, rows, budget, engine.native_outputs(est))
         setup.companion = Setup(
             model, grouped.names, laws, out_names, chosen, dsg, est, list(groups), gblk, spec, options, [], identity
         )

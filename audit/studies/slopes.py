@@ -154,7 +154,7 @@ def prepare_slopes(
         cost=cost_per_point(method, d, units),
         identity={**setup.identity, "method": method},
     )
-    budget = None if memory_limit is None else memory_limit // 2
+    budget = None if memory_limit is None else memory_limit // (2 * engine.IN_FLIGHT)
     gblock = block or engine.plan_block(gradient_points, d, job.units, 1, budget)
     check_memory([(job, gblock)], memory_limit)
     plan = SlopesPlan(setup, job, method, screen, bool(indices), [notice] if notice else [])

@@ -233,7 +233,7 @@ def test_any_backend_failure_is_a_user_error(good, capsys, monkeypatch) -> None:
     def broken(*_args, **_kwargs):
         raise KeyError("missing piece")
 
-    monkeypatch.setattr(onnx_backend, "check_external_data", broken)  # a failure no check foresaw
+    monkeypatch.setattr(onnx_backend, "make_session", broken)  # a failure no check foresaw
     err = _exits_2(capsys, ["layers", str(good["onnx"])], "could not be opened (KeyError: 'missing piece')")
     assert "export the model again" in err
 

@@ -53,7 +53,9 @@ def _complete(path, **kw):
     return path
 
 
-def test_checkpoint_resume_after_failure_loses_nothing(tmp_path):
+@pytest.mark.parametrize("overlap_from", [1 << 30, 0])  # sums formed here, or beside the next evaluation
+def test_checkpoint_resume_after_failure_loses_nothing(tmp_path, monkeypatch, overlap_from):
+    monkeypatch.setattr("audit.engine.OVERLAP_VALUES", overlap_from)
     design = Design(LAWS, 512, 3, seed=9)
     groups = [Group("out", 3, True)]
     ckpt = tmp_path / "run.npz"

@@ -275,3 +275,90 @@ def test_plan_block_defaults_to_a_share_of_the_available_memory(monkeypatch):
 
 def test_available_memory_is_a_positive_number_of_bytes():
     assert available_memory() > 1 << 20
+
+
+def test_plan_block_caps_a_default_block_whatever_memory_is_free(monkeypatch):
+    from audit.engine import BLOCK_BYTES
+
+    monkeypatch.setattr("audit.engine.available_memory", lambda: 1 << 40)
+    per = _bytes_per_point(64, 1034, 66, native=True)
+    n = plan_block(2**20, 64, 1034, 66, native=True)
+    assert n * per <= BLOCK_BYTES < 2 * n * per
+    # an estimator taking the model's own floats needs less per point than one copying to float64
+    assert _bytes_per_point(64, 1034, 66, native=True) < _bytes_per_point(64, 1034, 66)
+
+
+# ----------------------------------------------------------------------------- the model's own floats
+
+
+def _float32_job(func, groups, detail=True, replicates=2):
+    design = Design(LAWS, 128, replicates, 3)
+    job = checks.job("jansen", design, [Group(g, 3, detail) for g in groups], func)
+    job.dtype = np.float32
+    return job
+
+
+@pytest.mark.parametrize("detail", [True, False])
+def test_float32_outputs_give_the_sums_of_their_float64_copy_bit_for_bit(detail):
+    """The Jansen sums take float32 rows as they are; their float64 copy gives the same sums exactly."""
+
+    def as32(x):
+        return {"out": checks.evaluator(x)["out"].astype(np.float32)}
+
+    def as64(x):
+        return {"out": checks.evaluator(x)["out"].astype(np.float32).astype(np.float64)}
+
+    a = run(_float32_job(as32, ["out"], detail), block=32)["out"]
+    b = run(_float32_job(as64, ["out"], detail), block=32)["out"]
+    for x, y in zip(a, b, strict=True):
+        checks.assert_same(checks.finished(x), checks.finished(y), rtol=0.0)
+
+
+@pytest.mark.parametrize("bad", [np.nan, np.inf, -np.inf])
+@pytest.mark.parametrize("detail", [True, False])
+def test_non_finite_float32_values_are_found_through_the_sums(bad, detail):
+    def func(x):
+        y = checks.evaluator(x)["out"].astype(np.float32)
+        y[len(y) - 3, 2] = bad  # a row of the last swapped input, which only the differences see
+        return {"out": y}
+
+    job = _float32_job(func, ["out"], detail)
+    with pytest.raises(NonFiniteError, match="for 1 of 80 sampled input rows"):
+        run_task(job, Task(0, 0, 16))
+
+
+def test_outputs_whose_squares_overflow_are_refused_not_called_constant():
+    job = _job(func=lambda x: {"out": 1e200 * (1 + checks.evaluator(x)["out"] / 100)})
+    with pytest.raises(UserError, match=r"reach \d\.\d+e\+200 in magnitude: their squares would overflow"):
+        run_task(job, Task(0, 0, 16))
+    constant = _job(func=lambda x: {"out": np.full((len(x), 3), 1e200)})
+    with pytest.raises(UserError, match="squares would overflow"):
+        run_task(constant, Task(0, 0, 16))
+
+
+def test_overlapping_sums_with_inference_changes_no_number(monkeypatch):
+    monkeypatch.setattr("audit.engine.OVERLAP_VALUES", 0)  # these small tasks, too, go to the helper thread
+    tasks = list(iter_tasks(256, 2, 32))
+    apart = list(LocalExecutor(overlap=False).map(_job(), tasks))
+    together = list(LocalExecutor(overlap=True).map(_job(), tasks))
+    assert [t for t, _ in together] == [t for t, _ in apart] == tasks
+    for (_, a), (_, b) in zip(apart, together, strict=True):
+        checks.assert_same(checks.finished(a["out"]), checks.finished(b["out"]), rtol=0.0)
+
+
+@pytest.mark.parametrize("overlap_from", [0, 1 << 30])
+def test_an_error_in_the_sums_of_one_task_reaches_the_caller_and_stops_the_run(monkeypatch, overlap_from):
+    monkeypatch.setattr("audit.engine.OVERLAP_VALUES", overlap_from)
+    calls = []
+
+    def func(x):
+        calls.append(len(x))
+        y = checks.evaluator(x)["out"]
+        if len(calls) == 3:
+            y = y.copy()
+            y[0, 0] = np.nan
+        return {"out": y}
+
+    with pytest.raises(NonFiniteError):
+        run(_job(func=func), block=32)
+    assert len(calls) <= 4  # at most one task evaluated past the failing one

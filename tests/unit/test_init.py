@@ -38,3 +38,26 @@ def test_results_render_through_the_report_layer_once_audit_is_imported():
     e = Estimate(1.0, 0.9, 1.1, 0.05)
     result = audit.AuditResult({"source": "m", "format": "onnx"}, [], {"points": 8}, [OutputResult("y", e, e, e)])
     assert result.__rich__() is not None and not isinstance(result.__rich__(), str)
+
+
+def _modules_after_cli(args: list[str], cwd) -> list[str]:
+    code = (
+        f"import sys\nfrom audit.cli import main\nmain({args!r})\n"
+        "print(' '.join(m for m in ('onnx', 'torch', 'matplotlib', 'dask') if m in sys.modules))"
+    )
+    return subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=cwd
+    ).stdout.split()
+
+
+def test_an_audit_loads_only_what_its_model_needs(tmp_path):
+    """An ONNX model audited for its outputs alone needs no onnx (its graph is read for layers only);
+    a Python function needs neither ONNX nor Torch; no audit loads matplotlib or dask unasked."""
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    common = ["--points", "16", "--replicates", "2", "--no-save", "-q"]
+    onnx_args = ["audit", str(root / "model_zoo/additive.onnx"), "--law", "normal", "--layers", "none", *common]
+    assert _modules_after_cli(onnx_args, tmp_path) == []
+    func_args = ["audit", "model_zoo.functions:ishigami", "--inputs", "model_zoo/ishigami.toml", *common]
+    assert _modules_after_cli(func_args, root) == []
