@@ -137,6 +137,18 @@ def select_layers(model: Model, layers: str | Sequence[str]) -> list[LayerInfo]:
     return chosen
 
 
+def _choices(layers: str | Sequence[str], unit_detail: Sequence[str], outputs: Sequence[str] | None) -> dict[str, Any]:
+    """The choices of a run that differ from the defaults, as a command line would give them."""
+    out: dict[str, Any] = {}
+    if layers != "activations":
+        out["layers"] = layers if isinstance(layers, str) else ",".join(layers)
+    if unit_detail:
+        out["unit_detail"] = list(unit_detail)
+    if outputs is not None and len(outputs) and all(isinstance(x, str) for x in outputs):
+        out["outputs"] = list(outputs)  # names the user gave (a workflow's own index selections are not choices)
+    return out
+
+
 @dataclass
 class Setup:
     """Everything a run needs, resolved and checked before any evaluation."""
@@ -156,6 +168,8 @@ class Setup:
     identity: dict[str, Any] = field(default_factory=dict)
     keep: np.ndarray | None = None
     redundant: dict[str, str] = field(default_factory=dict)
+    #: What the user chose beyond the defaults (layers, unit detail, outputs): reports repeat it in commands.
+    choices: dict[str, Any] = field(default_factory=dict)
 
     @property
     def dtype(self) -> type:
@@ -325,5 +339,6 @@ def prepare(
     identity = model_identity(model)
     setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
     setup.keep = keep
+    setup.choices = _choices(layers, unit_detail, outputs)
     check_memory([(setup.job(), blk)], memory_limit)
     return setup

@@ -15,7 +15,6 @@ Data: scikit-learn's bundled iris and breast-cancer sets (no download).
 
 from __future__ import annotations
 
-
 import numpy as np
 import pytest
 import torch

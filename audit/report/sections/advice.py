@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 
 from ...results import AdviceResult, FreezeGroup, OutputAdvice, RqmcGain
-from ..describe import describe_output, describe_run
+from ..describe import describe_output, describe_run, output_units
 from ..document import Block, Cell, CellValue, Column, Fields, Heading, Note, Paragraph, Report, Section, Table
 from ..findings import derive_advice_findings
 from ..text import fmt, fmt_count, fmt_interval, fmt_percent, fmt_setting, listing
@@ -151,9 +151,9 @@ def group_line(group: FreezeGroup) -> str:
     )
 
 
-def output_section(output: OutputAdvice, freeze_threshold: float) -> Section:
-    """Everything advised for one output."""
-    blocks: list[Block] = [Paragraph(describe_output(output.audit))]
+def output_section(output: OutputAdvice, freeze_threshold: float, unit: str = "") -> Section:
+    """Everything advised for one output (``unit``: the output's unit, for its mean and variance)."""
+    blocks: list[Block] = [Paragraph(describe_output(output.audit, unit))]
     title = ADVICE_TITLES["output"].format(name=output.name)
     if output.audit.inert or output.audit.mean_dimension is None:
         return Section(title, tuple(blocks))
@@ -194,7 +194,8 @@ def advice_report(result: AdviceResult) -> Report:
     """
     sections = [Section(SECTION_TITLES["header"], (Fields(tuple(describe_run(result))),))]
     eps = result.settings.get("freeze_threshold", math.nan)
-    sections += [output_section(o, eps) for o in result.outputs]
+    units = output_units(result)
+    sections += [output_section(o, eps, units.get(o.name, "")) for o in result.outputs]
     found = derive_advice_findings(result)
     empty = "Nothing to advise under the rules used here."
     sections.append(Section(ADVICE_TITLES["findings"], (findings_block(found, empty),)))

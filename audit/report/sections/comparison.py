@@ -27,7 +27,7 @@ __all__ = [
 
 COMPARISON_TITLES = {
     "run": "Models and run",
-    "outputs": "Mean dimension, old → new",
+    "outputs": "Mean dimension ν, old → new",
     "inputs": "Inputs whose total index moved",
     "layers": "Hidden layers in both models",
     "gates": "Gates",

@@ -1,0 +1,59 @@
+"""Tests of audit.report.ranges: estimates outside their possible range are marked, never clamped.
+
+The ranges are the definitions: a normalised Sobol' index lies in [0, 1] and a first-order index at
+most at the total index of the same input; ν = Σ_j total index lies in [1, d] (Sobol', "Sensitivity
+estimates for nonlinear mathematical models", Math. Modeling Comput. Experiment, 1993; Owen,
+"The dimension distribution and quadrature test functions", Statistica Sinica, 2003).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+from reportdata import THRESHOLD, est, make_result
+
+from audit.report.document import Cell, Note, Table
+from audit.report.ranges import BEYOND, NOISE, Marks, place
+from audit.report.sections.audit import inputs_section
+from audit.report.text import fmt, to_ascii
+from audit.results import Estimate, FeatureEstimate
+
+
+def test_place_says_inside_noise_or_beyond():
+    assert place(est(0.5, 0.1), 0.0, 1.0) == "inside"
+    assert place(est(-0.001, 0.002), 0.0, 1.0) == "noise"  # the interval reaches 0
+    assert place(est(-0.01, 0.002), 0.0, 1.0) == "beyond"
+    assert place(est(1.02, 0.05), 0.0, 1.0) == "noise"
+    assert place(Estimate(-0.1, float("nan"), float("nan"), float("nan")), 0.0, 1.0) == "beyond"
+    assert place(Estimate(float("nan"), 0, 0, 0), 0.0, 1.0) == "inside"  # nothing to mark
+
+
+def test_marks_keep_the_estimate_and_explain_themselves():
+    marks = Marks()
+    assert marks.index(est(0.3, 0.1)) == fmt(0.3) and marks.note() is None
+    assert marks.index(est(-8.5e-4, 1e-3)) == f"{fmt(-8.5e-4)} {NOISE}"
+    assert marks.nu(est(0.98, 0.03), d=8) == f"{fmt(0.98)} {NOISE}"
+    assert marks.nu(est(9.5, 0.1), d=8) == Cell(f"{fmt(9.5)} {BEYOND}", "alert")
+    note = marks.note()
+    assert isinstance(note, Note) and NOISE in note.text and BEYOND in note.text and "[1, d]" in note.text
+
+
+def test_first_order_above_the_total_is_noise_when_the_intervals_meet():
+    marks = Marks()
+    total = est(0.10, 0.01)
+    assert marks.first_order(est(0.105, 0.01), total) == f"{fmt(0.105)} {NOISE}"
+    assert marks.first_order(est(0.2, 0.01), total) == Cell(f"{fmt(0.2)} {BEYOND}", "alert")
+    assert marks.first_order(est(0.09, 0.01), total) == fmt(0.09)
+    assert to_ascii(NOISE).isascii() and to_ascii(BEYOND).isascii()
+
+
+def test_the_inputs_section_marks_a_negative_first_order_index_and_says_why():
+    o = make_result().outputs[0]
+    first = list(o.first_order)
+    j = next(i for i, f in enumerate(o.total_index) if f.value.estimate >= THRESHOLD)
+    first[j] = FeatureEstimate(first[j].feature, est(-0.002, 0.003))  # noise around 0
+    section = inputs_section(dataclasses.replace(o, first_order=first), THRESHOLD)
+    table = next(b for b in section.blocks if isinstance(b, Table))
+    row = next(r for r in table.rows if r[0] == first[j].feature)
+    assert row[-1] == f"{fmt(-0.002)} {NOISE}"
+    assert any(isinstance(b, Note) and b.text.startswith(NOISE) for b in section.blocks)
