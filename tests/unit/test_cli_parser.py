@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from audit.cli import commands, output
+from audit.cli import commands, html, output
 from audit.cli.parser import build_parser
 from audit.version import __version__
 
@@ -101,16 +101,17 @@ def _subparsers() -> dict[str, argparse.ArgumentParser]:
 #: The functions each subcommand runs (its command and the helpers that read ``args``).
 READERS = {
     "audit": [commands.cmd_audit, commands._spec, commands._open, commands._design, commands._run_options,
-              commands._memory_limit, commands._outputs, commands._finish, output.print_result, output.save_report],
+              commands._memory_limit, commands._outputs, commands._finish, output.print_result, output.save_report,
+              html.write_html],
     "compare": [commands.cmd_compare, commands._spec, commands._open, commands._design, commands._run_options,
                 commands._memory_limit, commands._outputs, commands._finish, output.print_result,
-                output.save_report],
+                output.save_report, html.write_html],
     "advise": [commands.cmd_advise, commands._spec, commands._open, commands._design, commands._run,
                commands._run_options, commands._memory_limit, commands._outputs, commands._finish,
-               output.print_result, output.save_report],
+               output.print_result, output.save_report, html.write_html],
     "layers": [commands.cmd_layers, commands._spec, commands._open],
-    "show": [commands.cmd_show, output.print_result],
-    "demo": [commands.cmd_demo, output.print_result, output.save_report],
+    "show": [commands.cmd_show, output.print_result, html.write_html],
+    "demo": [commands.cmd_demo, commands._finish, output.print_result, output.save_report, html.write_html],
 }  # fmt: skip
 
 

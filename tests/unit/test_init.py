@@ -38,3 +38,15 @@ def test_results_render_through_the_report_layer_once_audit_is_imported():
     e = Estimate(1.0, 0.9, 1.1, 0.05)
     result = audit.AuditResult({"source": "m", "format": "onnx"}, [], {"points": 8}, [OutputResult("y", e, e, e)])
     assert result.__rich__() is not None and not isinstance(result.__rich__(), str)
+
+
+def test_notebooks_get_the_html_report_and_repr_a_summary_once_audit_is_imported():
+    from audit.results import Estimate, FeatureEstimate, OutputResult
+
+    e = Estimate(1.0, 0.9, 1.1, 0.05)
+    output = OutputResult("y", e, e, e, [FeatureEstimate("x0", Estimate(0.6, 0.5, 0.7, 0.05))])
+    result = audit.AuditResult({"source": "m", "format": "onnx"}, [{"name": "x0", "law": "normal"}],
+                               {"points": 8}, [output])  # fmt: skip
+    html = result._repr_html_()
+    assert html.startswith('<div class="netdim"') and "Inputs of y: total and first-order" in html
+    assert repr(result).startswith("AuditResult of m (onnx): 1 inputs, 1 outputs") and len(repr(result)) < 500

@@ -1,0 +1,92 @@
+"""The HTML report end to end: the demo and the digits CNN written by the command line, read back.
+
+The pages are parsed with the standard library's HTML parser (tests/htmlcheck.py) and, when a
+headless Chromium is installed, loaded in it offline (tests/browser.py). The digits reference is
+scikit-learn's bundled 8 × 8 digits, the data the CNN was trained on (model_zoo/README.md).
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from browser import find_browser, open_page
+from htmlcheck import read_page
+
+from audit.cli import main
+from audit.report.charts.depth import DEPTH_TITLE
+from audit.report.charts.indices import indices_title
+
+SMALL = ["--points", "64", "--replicates", "2"]
+ZOO = Path(__file__).resolve().parents[2] / "model_zoo"
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    where = tmp_path_factory.mktemp("demo")
+    page, report = where / "demo.html", where / "demo.json"
+    assert main(["demo", *SMALL, "--json", str(report), "--html", str(page), "--quiet"]) == 0
+    return page, json.loads(report.read_text(encoding="utf-8"))
+
+
+@pytest.fixture(scope="module")
+def digits(tmp_path_factory):
+    where = tmp_path_factory.mktemp("digits")
+    page, report = where / "cnn.html", where / "cnn.json"
+    argv = ["audit", str(ZOO / "digits_cnn.onnx"), "--inputs", str(ZOO / "digits_cnn.toml"), *SMALL, "--seed", "4"]
+    assert main([*argv, "--json", str(report), "--html", str(page), "--quiet"]) == 0
+    return page, json.loads(report.read_text(encoding="utf-8"))
+
+
+def test_the_demo_page_holds_its_charts_and_nothing_from_outside(demo):
+    page, report = demo
+    parsed = read_page(page.read_text(encoding="utf-8"))
+    assert not parsed.problems and not parsed.external and parsed.scripts == 0
+    names = [o["name"] for o in report["outputs"]]
+    assert parsed.titles() == [*(indices_title(n) for n in names), DEPTH_TITLE]  # a flat input: no heat map
+    assert "not a safety validation" in parsed.text and "Terms used in this report" in parsed.text
+    for o in report["outputs"]:
+        assert o["name"] in parsed.text
+
+
+def test_the_digits_page_draws_the_images_in_their_8_by_8_shape(digits):
+    page, report = digits
+    parsed = read_page(page.read_text(encoding="utf-8"))
+    assert not parsed.problems and not parsed.external and parsed.scripts == 0
+    maps = [c for c in parsed.charts if c["shape"]]
+    assert [c["shape"] for c in maps] == ["8x8", "8x8"]
+    assert "for all outputs together" in maps[0]["title"] and maps[1]["title"].endswith("per output")
+    assert report["model"]["input"]["shape"] == [1, 8, 8]
+    names = [o["name"] for o in report["outputs"]]
+    assert len(names) == 10 and parsed.titles()[2:] == [*(indices_title(n) for n in names), DEPTH_TITLE]
+
+
+def test_show_writes_the_same_page_from_the_json_report(digits, tmp_path):
+    page, _ = digits
+    again = tmp_path / "again.html"
+    saved = tmp_path / "cnn.json"
+    saved.write_text(json.dumps(json.loads((page.parent / "cnn.json").read_text())), encoding="utf-8")
+    assert main(["show", str(saved), "--html", str(again), "--quiet"]) == 0
+    assert read_page(again.read_text(encoding="utf-8")).titles() == read_page(page.read_text()).titles()
+
+
+BROWSER = find_browser()
+needs_browser = pytest.mark.skipif(BROWSER is None, reason="no headless Chromium installed (apt-get install chromium)")
+
+
+@needs_browser
+def test_a_browser_shows_the_demo_page_offline_without_console_errors(demo):
+    visit = open_page(BROWSER, demo[0])
+    assert visit.returncode == 0 and visit.screenshot.startswith(b"\x89PNG") and len(visit.screenshot) > 20_000
+    assert visit.console == [] and visit.requests == []
+
+
+@needs_browser
+def test_the_browser_check_does_see_errors_and_requests(tmp_path):
+    broken = tmp_path / "broken.html"
+    broken.write_text('<!DOCTYPE html><p>x</p><img src="http://example.invalid/x.png">'
+                      "<script>console.error('boom')</script>", encoding="utf-8")  # fmt: skip
+    visit = open_page(BROWSER, broken, 400, 300)
+    assert any("boom" in line for line in visit.console)
+    assert visit.requests == ["http://example.invalid/x.png"]
