@@ -87,7 +87,7 @@ def test_unit_panels_take_detailed_units_largest_variance_first():
     units = [UnitResult(f"l[{i}]", est(float(i), 0.1), est(1.1, 0.01), total_index=index) for i in range(3)]
     units.append(UnitResult("l[9]", est(9.0, 0.1), None, inert=True, total_index=[FeatureEstimate("x0", est(0, 0))]))
     layer = LayerResult("l", "Relu", (4,), {}, units)
-    assert [p.title for p in unit_panels(layer, ["x0"])] == ["l[2]", "l[1]", "l[0]"]
+    assert [p.title for p in unit_panels(layer, ["x0"])] == ["[2]", "[1]", "[0]"]  # the chart names the layer
 
 
 def test_the_chart_carries_its_grid_and_draws_at_most_the_panel_limit():

@@ -173,7 +173,10 @@ def unit_panels(layer: LayerResult, names: Sequence[str], limit: int = MAX_PANEL
     """Panels of the units of ``layer`` that carry total indices, largest variance first."""
     units = [u for u in layer.units if u.total_index and not (u.inert or u.unreliable)]
     units.sort(key=lambda u: -u.variance.estimate if math.isfinite(u.variance.estimate) else 0.0)
-    return [Panel(u.unit, _totals(u.total_index, names), u.variance.estimate) for u in units[:limit]]
+    def title(unit: str) -> str:  # "features.1[1,5,2]" -> "[1,5,2]": the chart names the layer
+        return unit[len(layer.name) :] if unit.startswith(layer.name) and len(unit) > len(layer.name) else unit
+
+    return [Panel(title(u.unit), _totals(u.total_index, names), u.variance.estimate) for u in units[:limit]]
 
 
 def overall_panel(panels: Sequence[Panel]) -> Panel:

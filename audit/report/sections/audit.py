@@ -173,24 +173,27 @@ def units_section(layer: LayerResult, d: int, limit: int = MAX_UNITS) -> Section
         return None
     detailed.sort(key=lambda u: -u.variance.estimate if finite(u.variance.estimate) else 0.0)
     marks = Marks()
+    shown = detailed[:limit]
+    remarks = any(u.unreliable for u in shown)
     columns = (
         Column("unit", "name"),
         Column("variance"),
         Column("mean dimension ν", tone="strong", group=_NU),
         Column("95 % interval", group=_NU),
         Column("leading inputs", "note"),
+        *((Column("unreliable", "note", tone="warning"),) if remarks else ()),
     )
     rows: list[tuple[CellValue, ...]] = []
-    for u in detailed[:limit]:
+    for u in shown:
+        remark = (u.unreliable,) if remarks else ()
         variance = fmt(u.variance.estimate)
         if u.inert or u.mean_dimension is None:
-            rows.append((u.unit, variance, Cell("inert (constant)", "muted"), "", ""))
+            rows.append((u.unit, variance, Cell("inert (constant)", "muted"), "", "", *remark))
             continue
         ranked = sorted(u.total_index, key=lambda f: -f.value.estimate)[:LEADING_INPUTS]
         leading = ", ".join(f"{f.feature} {fmt(f.value.estimate, 3)}" for f in ranked)
         nu = u.mean_dimension
-        cell = Cell(f"unreliable: {u.unreliable}", "warning") if u.unreliable else marks.nu(nu, d)
-        rows.append((u.unit, variance, cell, fmt_interval(nu.ci_low, nu.ci_high), leading))
+        rows.append((u.unit, variance, marks.nu(nu, d), fmt_interval(nu.ci_low, nu.ci_high), leading, *remark))
     blocks: list[Block] = [Table(columns, tuple(rows))]
     if len(detailed) > limit:
         blocks.append(Note(f"… {len(detailed) - limit} more units; every unit's indices are in the JSON report."))
