@@ -20,7 +20,7 @@ from ..text import finite, fmt_count
 from .base import Chart, error_bars
 from .svg import INK, LIGHT, MID, label, new_figure, styled, to_svg
 
-__all__ = ["DEPTH_TITLE", "OUTPUT_DOTS", "depth_chart", "unit_values"]
+__all__ = ["DEPTH_TITLE", "NAMED_OUTPUTS", "OUTPUT_DOTS", "depth_chart", "unit_values"]
 
 DEPTH_TITLE = (
     "Interaction order through the network: mean dimension ν of each layer's units, input side first, "
@@ -28,6 +28,8 @@ DEPTH_TITLE = (
 )
 #: Outputs drawn one by one (with their intervals); more are summarised by a box only.
 OUTPUT_DOTS = 12
+#: Outputs named beside their dots when there are this many or fewer.
+NAMED_OUTPUTS = 4
 
 
 def unit_values(layer: LayerResult) -> list[float]:
@@ -97,7 +99,7 @@ def depth_chart(
         return None
     shown = [o for o in outputs if not (o.inert or o.relation) and o.mean_dimension is not None]
     columns = len(layers) + (1 if shown else 0)
-    figure = new_figure(max(5.2, min(11.0, 1.4 + 1.0 * columns)), 3.8)
+    figure = new_figure(max(5.6, min(11.0, 1.6 + 1.0 * columns)), 3.8)
     ax = figure.add_subplot()
     ticks = []
     weighted_drawn = False
@@ -125,10 +127,15 @@ def depth_chart(
             centres, err = error_bars(nus)
             ax.errorbar(spread, centres, yerr=err, fmt="o", color=INK, markerfacecolor=MID, markersize=4.5,
                         capsize=2, linewidth=0.9, linestyle="none", label="output ν (95 % interval)")
+            if len(shown) <= NAMED_OUTPUTS:  # few outputs: name each one beside its dot
+                for x, y, o in zip(spread, centres, shown, strict=True):
+                    ax.annotate(label(o.name, 18), (x, y), xytext=(5, 0), textcoords="offset points",
+                                fontsize=7, va="center", color=INK)
         ticks.append(f"outputs\n{len(shown)} shown")
     ax.axhline(1.0, color=MID, linewidth=0.9, linestyle="--", label="ν = 1: no interactions")
     ax.set_xticks(range(len(ticks)), ticks, rotation=25 if columns > 7 else 0, ha="right" if columns > 7 else "center")
-    ax.set_xlim(-0.6, len(ticks) - 0.4)
+    named = bool(shown) and len(shown) <= NAMED_OUTPUTS and len(shown) <= OUTPUT_DOTS
+    ax.set_xlim(-0.6, len(ticks) - 0.4 + (0.6 if named else 0.0))  # room for the outputs' names
     ax.set_ylabel("mean dimension ν")
     figure.legend(loc="outside upper center", ncols=2, fontsize=8)
     caption = (

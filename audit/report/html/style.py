@@ -29,7 +29,7 @@ CSS = """
 .netdim dl.fields ul { margin: .1rem 0; padding-left: 1.1rem; }
 .netdim .table-wrap { overflow-x: auto; margin: .4rem 0; }
 .netdim table { border-collapse: collapse; font-size: .9rem; font-variant-numeric: tabular-nums; }
-.netdim th, .netdim td { padding: .18rem .65rem; border-bottom: 1px solid #dcdcdc; text-align: left;
+.netdim th, .netdim td { padding: .18rem .5rem; border-bottom: 1px solid #dcdcdc; text-align: left;
   vertical-align: top; }
 .netdim thead th { border-bottom: 2px solid #1b1b1b; vertical-align: bottom; }
 .netdim .num { text-align: right; white-space: nowrap; }
