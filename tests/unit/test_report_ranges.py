@@ -57,3 +57,27 @@ def test_the_inputs_section_marks_a_negative_first_order_index_and_says_why():
     row = next(r for r in table.rows if r[0] == first[j].feature)
     assert row[-1] == f"{fmt(-0.002)} {NOISE}"
     assert any(isinstance(b, Note) and b.text.startswith(NOISE) for b in section.blocks)
+
+
+def test_advice_and_comparison_tables_mark_their_indices_too():
+    from reportdata import make_advice, make_comparison
+
+    from audit.report.sections.advice import output_section
+    from audit.report.sections.comparison import moved_blocks
+    from audit.results import FreezeItem
+
+    first = make_advice().outputs[0]
+    negative = dataclasses.replace(first, freeze=[FreezeItem("outside_humidity", est(-2e-5, 4e-5), True)])
+    section = output_section(negative, 0.001)
+    rows = [r for b in section.blocks if isinstance(b, Table) for r in b.rows if r[0] == "outside_humidity"]
+    assert rows[-1][1] == f"{fmt(-2e-5)} {NOISE}" and section.blocks[-1].text.startswith(NOISE)
+    result = make_comparison()
+    moved = result.outputs[0]
+    name = moved.moved[0]
+    noisy = est(-1e-4, 2e-4)
+    old = [FeatureEstimate(f.feature, noisy if f.feature == name else f.value) for f in moved.old.total_index]
+    side = dataclasses.replace(moved.old, total_index=old)
+    changed = dataclasses.replace(result, outputs=[dataclasses.replace(moved, old=side)])
+    blocks = moved_blocks(changed)
+    table = next(b for b in blocks if isinstance(b, Table))
+    assert table.rows[0][1] == f"{fmt(-1e-4, 3)} {NOISE}" and isinstance(blocks[-1], Note)

@@ -12,6 +12,7 @@ from ...results import ComparisonResult, Estimate, OutputResult
 from ..describe import describe_comparison_run
 from ..document import Block, Cell, CellValue, Column, Field, Fields, Heading, Note, Report, Section, Table
 from ..findings.comparison import MARK, change_note, excludes_zero
+from ..ranges import Marks
 from ..text import fmt, fmt_count
 
 __all__ = [
@@ -70,23 +71,26 @@ def outputs_table(result: ComparisonResult) -> Table:
 def moved_blocks(result: ComparisonResult) -> list[Block]:
     """Per output with moved inputs: its name, then the inputs (at most :data:`MAX_MOVED`), largest change first."""
     blocks: list[Block] = []
+    marks = Marks()
     columns = (Column("input", "name"), Column("old"), Column("new"), Column("change", tone="strong"), Column("95 %"))
     for o in result.outputs:
         if not o.moved:
             continue
         by = {c.feature: c for c in o.total_index_change}
-        old = {f.feature: f.value.estimate for f in o.old.total_index}
-        new = {f.feature: f.value.estimate for f in o.new.total_index}
+        old = {f.feature: f.value for f in o.old.total_index}
+        new = {f.feature: f.value for f in o.new.total_index}
         rows: list[tuple[CellValue, ...]] = []
         for name in o.moved[:MAX_MOVED]:
             change, half = fmt_change(by[name].value)
-            rows.append((name, fmt(old.get(name), 3), fmt(new.get(name), 3), change, half))
+            cells = [marks.index(side[name], 3) if name in side else "n/a" for side in (old, new)]
+            rows.append((name, *cells, change, half))
         blocks += [Heading(o.name), Table(columns, tuple(rows))]
         if len(o.moved) > MAX_MOVED:
             blocks.append(Note(f"… {len(o.moved) - MAX_MOVED} more moved"))
     if not blocks:
         blocks.append(Note("No input's total index changed significantly (every interval contains 0)."))
-    return blocks
+    note = marks.note()
+    return [*blocks, note] if note else blocks
 
 
 def layers_blocks(result: ComparisonResult) -> list[Block]:
