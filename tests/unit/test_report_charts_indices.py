@@ -25,3 +25,4 @@ def test_outputs_without_indices_have_no_chart_and_the_nu_only_estimator_draws_t
     assert indices_chart(inert, "k") is None and indices_chart(relation, "k") is None
     only_totals = indices_chart(result.outputs[2], "k")  # no first-order indices
     assert "first-order index" not in only_totals.svg and "hatched" not in only_totals.caption
+    assert only_totals.title == indices_title(result.outputs[2].name, first_order=False)

@@ -18,7 +18,8 @@ def test_an_audit_gets_ranked_indices_per_output_and_the_depth_chart():
     result = all_kinds()["audit"]
     charts = charts_for(result, "p")
     ranked = [o for o in result.outputs if o.total_index and not o.inert]
-    assert [c.title for c in charts] == [*(indices_title(o.name) for o in ranked), DEPTH_TITLE]
+    titles = [indices_title(o.name, bool(o.first_order)) for o in ranked]
+    assert [c.title for c in charts] == [*titles, DEPTH_TITLE]
     assert [c.section for c in charts[:-1]] == [SECTION_TITLES["inputs"].format(name=o.name) for o in ranked]
     assert all(c.key.startswith("p") for c in charts) and len({c.key for c in charts}) == len(charts)
 

@@ -20,8 +20,10 @@ __all__ = ["TOP_INPUTS", "indices_chart", "indices_title"]
 TOP_INPUTS = 15
 
 
-def indices_title(name: str) -> str:
-    """The chart's title for output ``name``."""
+def indices_title(name: str, first_order: bool = True) -> str:
+    """The chart's title for output ``name`` (``first_order``: the estimator gave first-order indices too)."""
+    if not first_order:
+        return f"Inputs of {name}: total Sobol' indices, largest first"
     return f"Inputs of {name}: total and first-order Sobol' indices, largest total first"
 
 
@@ -95,4 +97,4 @@ def indices_chart(output: OutputResult, key: str, section: str = "", top: int = 
         f"95 % intervals. Mean dimension ν, the sum of the total indices: {fmt(nu.estimate)} "
         f"{fmt_interval(nu.ci_low, nu.ci_high)}.{more}"
     )
-    return Chart(key, indices_title(output.name), caption, to_svg(figure, key), section)
+    return Chart(key, indices_title(output.name, bool(first)), caption, to_svg(figure, key), section)
