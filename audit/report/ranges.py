@@ -74,6 +74,18 @@ class Marks:
         """A mean dimension: marked outside [1, d]."""
         return self._cell(fmt(e.estimate, digits), place(e, 1.0, float(max(d, 1))))
 
+    def summary_nu(self, value: float | None, d: int, digits: int = SIGNIFICANT_DIGITS) -> str:
+        """ν of a layer summary (a quantile of its units' ν): marked as noise outside [1, d].
+
+        Summaries leave out the units whose interval of ν lies wholly outside [1, d], so a quantile outside
+        the range comes from units whose interval reaches it: within noise.
+        """
+        text = fmt(value, digits)
+        if finite(value) and not 1.0 <= value <= max(d, 1):
+            self.used.add(NOISE)
+            return f"{text} {NOISE}"
+        return text
+
     def note(self) -> Note | None:
         """The note explaining the marks used so far (``None`` when none was)."""
         parts = []

@@ -81,3 +81,23 @@ def test_advice_and_comparison_tables_mark_their_indices_too():
     blocks = moved_blocks(changed)
     table = next(b for b in blocks if isinstance(b, Table))
     assert table.rows[0][1] == f"{fmt(-1e-4, 3)} {NOISE}" and isinstance(blocks[-1], Note)
+
+
+def test_a_layer_summary_below_1_is_marked_as_noise_and_explained():
+    # Summaries leave out units whose ν interval lies wholly outside [1, d] (DEVELOPERS.md, inert.py), so a
+    # quantile below 1 comes from a unit whose interval reaches 1: noise by the definition of the range.
+    from audit.report import build_report
+    from audit.report.sections.audit import SECTION_TITLES, layers_table
+
+    result = make_result()
+    low = dataclasses.replace(result.layers[0], summary={**result.layers[0].summary, "nu_min": 0.9622})
+    result = dataclasses.replace(result, layers=[low, *result.layers[1:]])
+    marks = Marks()
+    rows = layers_table(result, marks).rows
+    assert rows[0][4].startswith(f"0.9622 {NOISE} / ") and NOISE not in rows[1][4]
+    assert marks.used == {NOISE}
+    section = next(s for s in build_report(result).sections if s.title == SECTION_TITLES["layers"])
+    notes = [b.text for b in section.blocks if isinstance(b, Note)]
+    assert any(n.startswith(NOISE) and "[1, d] for ν" in n for n in notes)
+    assert Marks().summary_nu(1.5, 8) == fmt(1.5) and Marks().summary_nu(None, 8) == fmt(None)
+    assert Marks().summary_nu(9.0, 8).endswith(NOISE)  # above d

@@ -8,7 +8,7 @@ circles, predictions as crosses.
 
 from __future__ import annotations
 
-from matplotlib.ticker import FuncFormatter, NullFormatter
+from matplotlib.ticker import FuncFormatter, MaxNLocator, NullFormatter
 
 from ...results import Estimate, OutputAdvice
 from ..text import finite, fmt, fmt_count, fmt_setting, listing
@@ -86,6 +86,7 @@ def freezing_chart(output: OutputAdvice, key: str, section: str = "", heading: s
     ax.set_yticks([0, 1], ["bound: twice the summed total indices", "measured mean squared change"])
     ax.set_ylim(1.5, -0.5)
     ax.set_xlabel("share of the variance (%)")
+    ax.xaxis.set_major_locator(MaxNLocator(nbins=4))  # a narrow range has long tick labels: keep them apart
     together = " together" if len(group.features) > 1 else ""
     title = f"Freezing {listing(group.features)}{together} in {output.name}: measured error against its bound"
     caption = (

@@ -10,6 +10,7 @@ is the same report as one element, for a notebook's display.
 from __future__ import annotations
 
 import hashlib
+import json
 from typing import Any
 
 from ...version import __version__
@@ -24,8 +25,14 @@ GENERATOR = f"netdim {__version__}"
 
 
 def _prefix(result: Any, report_title: str) -> str:
-    """A short id prefix, the same for the same report (so a page is reproducible), apart for different ones."""
-    return "nd" + hashlib.sha256(f"{getattr(result, 'kind', 'audit')}|{report_title}".encode()).hexdigest()[:6]
+    """A short id prefix, the same for the same report (so a page is reproducible), apart for different ones.
+
+    The design (seed, points, evaluations, time) takes part, so that two runs on the same model shown in one
+    notebook keep their section links and chart ids apart.
+    """
+    design = json.dumps(getattr(result, "design", None) or {}, sort_keys=True, default=str)
+    text = f"{getattr(result, 'kind', 'audit')}|{report_title}|{design}"
+    return "nd" + hashlib.sha256(text.encode()).hexdigest()[:6]
 
 
 def _options(result: Any, options: dict[str, Any]) -> dict[str, Any]:

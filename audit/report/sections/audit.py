@@ -144,8 +144,13 @@ def inputs_section(output: OutputResult, threshold: float = DEFAULT_THRESHOLD, u
     return Section(title, tuple(blocks))
 
 
-def layers_table(result: AuditResult) -> Table:
-    """One row per hidden layer, input side first: units, inert units, ν quantiles, variance-weighted ν."""
+def layers_table(result: AuditResult, marks: Marks | None = None) -> Table:
+    """One row per hidden layer, input side first: units, inert units, ν quantiles, variance-weighted ν.
+
+    ν outside [1, d] is marked by ``marks`` (its note explains the mark).
+    """
+    marks = Marks() if marks is None else marks
+    d = len(result.inputs)
     columns = (
         Column("layer", "name"),
         Column("op", "text"),
@@ -157,9 +162,9 @@ def layers_table(result: AuditResult) -> Table:
     rows = []
     for layer in result.layers:
         s = layer.summary
-        quantiles = " / ".join(fmt(s.get(k)) for k in ("nu_min", "nu_median", "nu_p90", "nu_max"))
+        quantiles = " / ".join(marks.summary_nu(s.get(k), d) for k in ("nu_min", "nu_median", "nu_p90", "nu_max"))
         units, inert = fmt_count(layer_units(layer)), fmt_count(layer_inert(layer))
-        rows.append((layer.name, layer.op, units, inert, quantiles, fmt(s.get("nu_weighted"))))
+        rows.append((layer.name, layer.op, units, inert, quantiles, marks.summary_nu(s.get("nu_weighted"), d)))
     return Table(columns, tuple(rows))
 
 
@@ -257,7 +262,10 @@ def audit_report(
         sections.append(Section(None, (Note(note),)))
     if result.layers:
         lead = "Mean dimension ν of the units of each hidden layer, input side first (inert units left out)."
-        blocks: list[Block] = [Paragraph(lead), layers_table(result)]
+        marks = Marks()
+        blocks: list[Block] = [Paragraph(lead), layers_table(result, marks)]
+        if (note := marks.note()) is not None:
+            blocks.append(note)
         left_out = sum(int(layer.summary.get("unreliable_units", 0) or 0) for layer in result.layers)
         if left_out:
             blocks.append(
