@@ -15,6 +15,7 @@ from browser import find_browser, open_page
 from htmlcheck import read_page
 
 from audit.cli import main
+from audit.report.charts.changes import NU_CHANGES_TITLE, input_changes_title
 from audit.report.charts.depth import DEPTH_TITLE
 from audit.report.charts.indices import indices_title
 
@@ -90,3 +91,60 @@ def test_the_browser_check_does_see_errors_and_requests(tmp_path):
     visit = open_page(BROWSER, broken, 400, 300)
     assert any("boom" in line for line in visit.console)
     assert visit.requests == ["http://example.invalid/x.png"]
+
+
+@pytest.fixture(scope="module")
+def comparison(tmp_path_factory):
+    where = tmp_path_factory.mktemp("compare")
+    page, report = where / "compare.html", where / "compare.json"
+    argv = ["compare", str(ZOO / "greenhouse_v1.onnx"), str(ZOO / "greenhouse_v2.onnx"), "--inputs",
+            str(ZOO / "greenhouse_v1.toml"), *SMALL, "--seed", "7", "--max-index-shift", "0.5"]  # fmt: skip
+    assert main([*argv, "--json", str(report), "--html", str(page), "--quiet"]) == 0
+    return page, json.loads(report.read_text(encoding="utf-8"))
+
+
+@pytest.fixture(scope="module")
+def advice(tmp_path_factory):
+    where = tmp_path_factory.mktemp("advise")
+    page, report = where / "advise.html", where / "advise.json"
+    argv = ["advise", str(ZOO / "greenhouse_v1.onnx"), "--inputs", str(ZOO / "greenhouse_v1.toml"), *SMALL,
+            "--seed", "7", "--top", "2", "--gain-points", "64,128,256"]  # fmt: skip
+    assert main([*argv, "--json", str(report), "--html", str(page), "--quiet"]) == 0
+    return page, json.loads(report.read_text(encoding="utf-8"))
+
+
+def test_the_comparison_page_draws_nu_changes_then_each_output_that_moved(comparison):
+    page, report = comparison
+    parsed = read_page(page.read_text(encoding="utf-8"))
+    assert not parsed.problems and not parsed.external and parsed.scripts == 0
+    with_changes = [o["name"] for o in report["outputs"] if o.get("total_index_change")]
+    assert with_changes  # the retrained surrogate moves some inputs at any seed
+    assert parsed.titles() == [NU_CHANGES_TITLE, *(input_changes_title(n) for n in with_changes)]
+    assert "not a safety validation" in parsed.text and "Kendall τ" in parsed.text
+
+
+def test_the_advice_page_draws_pre_integration_gain_and_freezing_per_output(advice):
+    page, report = advice
+    parsed = read_page(page.read_text(encoding="utf-8"))
+    assert not parsed.problems and not parsed.external and parsed.scripts == 0
+    expected = []
+    for o in report["outputs"]:
+        if o["preintegrate"]:
+            expected.append(f"Pre-integration of {o['name']}: mean dimension ν and variance before and after")
+        if o["rqmc_gain"] and o["rqmc_gain"]["rows"]:
+            expected.append(f"RQMC gain for {o['name']}: variance of the mean estimate against the number of points")
+        if o["freeze_group"]:
+            expected.append(f"in {o['name']}: measured error against its bound")
+    titles = parsed.titles()
+    assert len(titles) == len(expected) >= 2
+    for title, want in zip(titles, expected, strict=True):
+        assert title.startswith(want) or title.endswith(want)
+
+
+@needs_browser
+@pytest.mark.parametrize("which", ["comparison", "advice"])
+def test_a_browser_shows_the_comparison_and_advice_pages_offline(which, request):
+    page, _ = request.getfixturevalue(which)
+    visit = open_page(BROWSER, page, 1200, 1600)
+    assert visit.returncode == 0 and visit.screenshot.startswith(b"\x89PNG")
+    assert visit.console == [] and visit.requests == []

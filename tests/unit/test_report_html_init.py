@@ -37,3 +37,13 @@ def test_the_notebook_fragment_shows_what_the_terminal_shows():
     assert piece.titles() == [indices_title(o.name) for o in result.outputs[:3]]
     assert len(read_page(html_page(result)).titles()) == 5
     assert not piece.problems and not piece.external
+
+
+def test_two_runs_of_one_model_keep_their_ids_apart_in_one_notebook():
+    import dataclasses
+
+    first = grid_result({}, n_out=2)
+    second = dataclasses.replace(first, design={**first.design, "seed": 12345})
+    ids = [read_page(html_fragment(r)).ids for r in (first, second)]
+    assert ids[0] and not set(ids[0]) & set(ids[1])  # section links and chart ids stay with their own report
+    assert read_page(html_fragment(first)).ids == ids[0]  # and a report's ids do not change between displays

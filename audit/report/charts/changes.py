@@ -18,6 +18,7 @@ from .svg import INK, MID, label, new_figure, styled, to_svg
 
 __all__ = [
     "LIMIT_REACH",
+    "NU_CHANGES_TITLE",
     "TOP_CHANGES",
     "changes_chart",
     "input_changes_chart",
@@ -30,7 +31,8 @@ TOP_CHANGES = 15
 #: A gate's limit is drawn when it lies within this multiple of the largest change (with its interval);
 #: farther, drawing it would squash the changes to a point, and the caption says where it is.
 LIMIT_REACH = 4.0
-_NU_TITLE = "Change of the mean dimension ν, new − old, with paired 95 % intervals"
+#: Title of the chart of ν new − old.
+NU_CHANGES_TITLE = "Change of the mean dimension ν, new − old, with paired 95 % intervals"
 
 
 def input_changes_title(name: str) -> str:
@@ -129,7 +131,7 @@ def nu_changes_chart(result: ComparisonResult, key: str, section: str = "") -> C
         [n for n, _ in rows],
         [e for _, e in rows],
         key,
-        title=_NU_TITLE,
+        title=NU_CHANGES_TITLE,
         caption=_CAPTION,
         axis="change of mean dimension ν",
         section=section,
