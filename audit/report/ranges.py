@@ -19,6 +19,8 @@ explains the marks it used.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 from ..results import Estimate
 from .document import Cell, Note
 from .text import SIGNIFICANT_DIGITS, finite, fmt
@@ -74,17 +76,30 @@ class Marks:
         """A mean dimension: marked outside [1, d]."""
         return self._cell(fmt(e.estimate, digits), place(e, 1.0, float(max(d, 1))))
 
-    def summary_nu(self, value: float | None, d: int, digits: int = SIGNIFICANT_DIGITS) -> str:
-        """ν of a layer summary (a quantile of its units' ν): marked as noise outside [1, d].
+    def summary_nu(
+        self,
+        value: float | None,
+        d: int,
+        units: Sequence[Estimate] = (),
+        intervals: bool = True,
+        digits: int = SIGNIFICANT_DIGITS,
+    ) -> str:
+        """ν of a layer summary (a quantile of its units' ν), marked outside [1, d].
 
-        Summaries leave out the units whose interval of ν lies wholly outside [1, d], so a quantile outside
-        the range comes from units whose interval reaches it: within noise.
+        ``units`` are the ν of the units the summary counts: beyond the range when one of those outside it
+        on the same side is beyond it by its own interval, else within noise. Without units (a layer saved
+        with its summary only), within noise when the run had intervals (``intervals``): summaries leave
+        out the units whose interval lies wholly outside [1, d].
         """
         text = fmt(value, digits)
-        if finite(value) and not 1.0 <= value <= max(d, 1):
-            self.used.add(NOISE)
-            return f"{text} {NOISE}"
-        return text
+        high = float(max(d, 1))
+        if value is None or not finite(value) or 1.0 <= value <= high:
+            return text
+        side = [e for e in units if finite(e.estimate) and (e.estimate < 1.0 if value < 1.0 else e.estimate > high)]
+        beyond = any(place(e, 1.0, high) == "beyond" for e in side) if side else not intervals
+        mark = BEYOND if beyond else NOISE
+        self.used.add(mark)
+        return f"{text} {mark}"
 
     def note(self) -> Note | None:
         """The note explaining the marks used so far (``None`` when none was)."""

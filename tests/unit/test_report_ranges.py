@@ -101,3 +101,7 @@ def test_a_layer_summary_below_1_is_marked_as_noise_and_explained():
     assert any(n.startswith(NOISE) and "[1, d] for ν" in n for n in notes)
     assert Marks().summary_nu(1.5, 8) == fmt(1.5) and Marks().summary_nu(None, 8) == fmt(None)
     assert Marks().summary_nu(9.0, 8).endswith(NOISE)  # above d
+    # the units the summary counts decide: one wholly below 1 is beyond noise; without units or intervals, beyond
+    assert Marks().summary_nu(0.97, 8, [est(0.97, 0.01), est(1.2, 0.1)]).endswith(BEYOND)
+    assert Marks().summary_nu(0.99, 8, [est(0.99, 0.02), est(1.2, 0.1)]).endswith(NOISE)
+    assert Marks().summary_nu(0.99, 8, [], intervals=False).endswith(BEYOND)

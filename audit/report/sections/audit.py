@@ -160,11 +160,16 @@ def layers_table(result: AuditResult, marks: Marks | None = None) -> Table:
         Column("ν weighted", tone="strong"),
     )
     rows = []
+    intervals = int((result.design or {}).get("replicates", 2) or 2) >= 2  # one randomization: no intervals
     for layer in result.layers:
         s = layer.summary
-        quantiles = " / ".join(marks.summary_nu(s.get(k), d) for k in ("nu_min", "nu_median", "nu_p90", "nu_max"))
+        counted = [u.mean_dimension for u in layer.units if not (u.inert or u.unreliable)]
+        counted = [e for e in counted if e is not None]
+        keys = ("nu_min", "nu_median", "nu_p90", "nu_max")
+        quantiles = " / ".join(marks.summary_nu(s.get(k), d, counted, intervals) for k in keys)
         units, inert = fmt_count(layer_units(layer)), fmt_count(layer_inert(layer))
-        rows.append((layer.name, layer.op, units, inert, quantiles, marks.summary_nu(s.get("nu_weighted"), d)))
+        weighted = marks.summary_nu(s.get("nu_weighted"), d, counted, intervals)
+        rows.append((layer.name, layer.op, units, inert, quantiles, weighted))
     return Table(columns, tuple(rows))
 
 
