@@ -64,10 +64,24 @@ def __dir__() -> list[str]:
 
 
 def _render(result: Any) -> Any:
-    """Results shown in a rich console or a notebook: the report layer's renderable."""
+    """Results shown in a rich console: the report layer's renderable."""
     from .report import renderable
 
     return renderable(result)
 
 
-set_renderer(_render)
+def _html(result: Any) -> str:
+    """Results shown in a notebook: the HTML report, charts included."""
+    from .report import html_fragment
+
+    return html_fragment(result)
+
+
+def _summary(result: Any) -> str:
+    """``repr`` of a result: a few lines."""
+    from .report import summary
+
+    return summary(result)
+
+
+set_renderer(_render, html=_html, summary=_summary)

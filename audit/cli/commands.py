@@ -4,12 +4,14 @@ from __future__ import annotations
 
 import argparse
 import json
+import shlex
 import sys
 from pathlib import Path
 from typing import Any
 
 from ..errors import UserError
 from .fromdata import cmd_inputs_from_data
+from .html import check_html_target, write_html
 from .output import check_report_target, console, print_result, progress, save_report
 
 __all__ = ["COMMANDS", "EXIT_GATE", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE"]
@@ -135,19 +137,39 @@ def _memory_limit(args: argparse.Namespace) -> int | None:
 
 
 def _finish(result: Any, args: argparse.Namespace) -> Path | None:
-    """Print the report, then save its JSON (and say where)."""
-    print_result(result, args)
+    """Print the report, then save its JSON and the HTML page if asked (and say where).
+
+    A reader that stops reading (``| head``) never costs the saved reports: they are
+    written first, and only then does the closed pipe end the command, quietly.
+    """
+    closed = False
+    try:
+        print_result(result, args)
+    except BrokenPipeError:
+        closed = True
     saved = save_report(result, args)
-    if saved is not None and not args.quiet and args.format == "text":
-        print(f"Report saved to {saved}")
+    page = write_html(result, args, saved)
+    if closed:
+        raise BrokenPipeError
+    if not args.quiet and args.format == "text":
+        if saved is not None:
+            print(f"Report saved to {saved}")
+        if page is not None:
+            print(f"HTML report saved to {page}")
     return saved
+
+
+def _check_targets(args: argparse.Namespace, protected: list[Any]) -> None:
+    """Refuse, before any work, report paths that would destroy an input of the run."""
+    check_report_target(args.json, protected)
+    check_html_target(getattr(args, "html", None), [*protected, args.json])
 
 
 def cmd_audit(args: argparse.Namespace) -> int:
     from ..studies import execute, prepare
 
     spec = _spec(args)
-    check_report_target(args.json, [args.model, getattr(args, "inputs", None), args.checkpoint])
+    _check_targets(args, [args.model, getattr(args, "inputs", None), args.checkpoint])
     model = _open(args, spec)
     setup = prepare(
         model,
@@ -206,7 +228,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
 
     baseline = load_baseline(args.old)
     spec = None if baseline is not None and not (args.inputs or args.law) else _spec(args)
-    check_report_target(args.json, [args.old, args.new, getattr(args, "inputs", None), args.checkpoint])
+    _check_targets(args, [args.old, args.new, getattr(args, "inputs", None), args.checkpoint])
     old = baseline if baseline is not None else _open(args, spec, args.old)
     new = _open(args, spec if spec is not None else _spec(args), args.new)
     gates = _gates(args)
@@ -247,7 +269,7 @@ def cmd_advise(args: argparse.Namespace) -> int:
     from ..studies import execute_advice, prepare_advice
 
     spec = _spec(args)
-    check_report_target(args.json, [args.model, getattr(args, "inputs", None), args.checkpoint])
+    _check_targets(args, [args.model, getattr(args, "inputs", None), args.checkpoint])
     model = _open(args, spec)
     options: dict[str, Any] = {}
     if args.gain_points is not None:
@@ -330,7 +352,17 @@ def cmd_show(args: argparse.Namespace) -> int:
         raise UserError(f"'{args.report}' is not a JSON file: {exc}.") from exc
     except (KeyError, TypeError, ValueError, AttributeError, RecursionError) as exc:
         raise UserError(f"'{args.report}' is not a netdim report this version can read: {exc}.") from exc
-    print_result(result, args)
+    check_html_target(args.html, [args.report])
+    closed = False
+    try:
+        print_result(result, args)
+    except BrokenPipeError:
+        closed = True
+    page = write_html(result, args, path)
+    if closed:
+        raise BrokenPipeError
+    if page is not None and not args.quiet and args.format == "text":
+        print(f"HTML report saved to {page}")
     return EXIT_OK
 
 
@@ -355,7 +387,7 @@ def cmd_demo(args: argparse.Namespace) -> int:
             f"The bundled greenhouse model is missing from {ZOO}. Reinstall netdim from its source "
             "folder, or rebuild the zoo with `python -m model_zoo.build`."
         )
-    check_report_target(args.json, [str(model_path), str(spec_path)])
+    _check_targets(args, [str(model_path), str(spec_path)])
     spec = load_spec(_short_path(spec_path))
     model = open_model(_short_path(model_path))
     design = DesignOptions(points=args.points, replicates=args.replicates, seed=args.seed)
@@ -363,17 +395,18 @@ def cmd_demo(args: argparse.Namespace) -> int:
     with progress(args, setup.evaluations) as bar:
         result = execute(setup, RunOptions(progress=bar.advance))
     args.format, args.all_outputs = "text", True
-    print_result(result, args)
-    saved = save_report(result, args)
+    _finish(result, args)
     if not args.quiet:
-        if saved is not None:
-            print(f"Report saved to {saved}")
-        v1, v2, sp = (_short_path(p) for p in (model_path, ZOO / "greenhouse_v2.onnx", spec_path))
+        from ..report.widgets import shell_lines
+
+        v1, v2, sp = (shlex.quote(_short_path(p)) for p in (model_path, ZOO / "greenhouse_v2.onnx", spec_path))
+        compare = "\n".join(shell_lines(f"netdim compare {v1} {v2} --inputs {sp}", 80, 2))
+        advise = "\n".join(shell_lines(f"netdim advise {v1} --inputs {sp}", 80, 2))
         print(
             "Next: compare with the retrained surrogate v2\n"
-            f"  netdim compare {v1} {v2} \\\n      --inputs {sp}\n"
+            f"{compare}\n"
             "or ask which inputs to pre-integrate or freeze\n"
-            f"  netdim advise {v1} --inputs {sp}"
+            f"{advise}"
         )
     return EXIT_OK
 

@@ -6,6 +6,7 @@ import argparse
 
 from ..version import __version__
 from . import fromdata
+from .html import add_html_option
 
 __all__ = ["build_parser"]
 
@@ -129,6 +130,7 @@ def _output(p: argparse.ArgumentParser, *, all_outputs: bool) -> None:
     g.add_argument("--json", metavar="PATH", help="write the JSON report there (default: under reports/)")
     g.add_argument("--no-save", action="store_true", help="do not save the JSON report")
     g.add_argument("--format", default="text", choices=("text", "markdown", "json"), help="what to print")
+    add_html_option(g)
     if all_outputs:
         g.add_argument("--all-outputs", action="store_true", help="detail every output, not just the first few")
 
@@ -353,6 +355,7 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("report", metavar="REPORT.json")
     s.add_argument("--format", default="text", choices=("text", "markdown"))
     s.add_argument("--all-outputs", action="store_true", help="detail every output, not just the first few")
+    add_html_option(s)
     _common(s)
 
     dm = sub.add_parser("demo", help="audit the bundled greenhouse surrogate")
@@ -361,5 +364,6 @@ def build_parser() -> argparse.ArgumentParser:
     dm.add_argument("--seed", type=_seed, default=2026, help="seed (default 2026)")
     dm.add_argument("--no-save", action="store_true", help="do not save the JSON report")
     dm.add_argument("--json", metavar="PATH", help="write the JSON report there (default: under reports/)")
+    add_html_option(dm)
     _common(dm)
     return parser

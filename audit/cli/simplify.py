@@ -12,6 +12,7 @@ import argparse
 from collections.abc import Callable
 from typing import Any
 
+from .html import check_html_target, write_html
 from .output import check_report_target, print_result, progress, save_report
 
 __all__ = ["run_simplify"]
@@ -25,7 +26,9 @@ def run_simplify(args: argparse.Namespace, spec: Any, model: Any, design: Any, r
     """Run ``netdim simplify`` with the opened ``model``, its ``spec`` and ``design``; print and save the report."""
     from ..studies.simplify import simplify_model
 
-    check_report_target(args.json, [args.model, getattr(args, "inputs", None), args.checkpoint, args.out])
+    protected = [args.model, getattr(args, "inputs", None), args.checkpoint, args.out]
+    check_report_target(args.json, protected)
+    check_html_target(args.html, [*protected, args.json])
     from ..models.base import feature_count
 
     d = feature_count(model)
@@ -49,8 +52,11 @@ def run_simplify(args: argparse.Namespace, spec: Any, model: Any, design: Any, r
         )
     print_result(result, args)
     saved = save_report(result, args)
+    page = write_html(result, args, saved)
     if not args.quiet and args.format == "text":
         print(f"Simplified model written to {result.written['path']}")
         if saved is not None:
             print(f"Report saved to {saved}")
+        if page is not None:
+            print(f"HTML report saved to {page}")
     return 0

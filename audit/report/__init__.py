@@ -1,10 +1,13 @@
-"""Reports of netdim results: terminal (rich), Markdown, and a progress bar.
+"""Reports of netdim results: terminal (rich), Markdown, HTML with charts, a summary, and a progress bar.
 
 Every result (an audit, a comparison of two models, an advise run) is first
 turned into plain content, a :class:`~audit.report.document.Report`
 (:func:`build_report`); one renderer lays out any report for the terminal
 (:mod:`audit.report.terminal`), one writes it as Markdown
-(:mod:`audit.report.markdown`). A model signature (``netdim layers``) has a
+(:mod:`audit.report.markdown`), one as a self-contained HTML page with
+matplotlib charts (:mod:`audit.report.html`, :mod:`audit.report.charts`;
+matplotlib is imported only then). :func:`summary` is a few lines for a
+result's ``repr``. A model signature (``netdim layers``) has a
 renderer of its own (:mod:`audit.report.signature`).
 
 The report layer reads :mod:`audit.results` only; it never imports Torch,
@@ -25,6 +28,7 @@ from .document import Report
 from .markdown import to_markdown
 from .progress import RunProgress
 from .sections import build_report, check_options
+from .summary import summary
 from .terminal import make_console, to_renderable
 from .text import CAUTION
 from .widgets import AsciiOnly
@@ -34,10 +38,13 @@ __all__ = [
     "Report",
     "RunProgress",
     "build_report",
+    "html_fragment",
+    "html_page",
     "make_console",
     "markdown",
     "render",
     "renderable",
+    "summary",
 ]
 
 
@@ -112,3 +119,32 @@ def markdown(result: Any, **options: Any) -> str:
     if getattr(result, "kind", "audit") in ("audit", "slopes"):
         options.setdefault("all_outputs", True)
     return to_markdown(build_report(result, **options))
+
+
+def html_page(result: Any, **options: Any) -> str:
+    """An audit, comparison or advice report as one self-contained HTML page with charts.
+
+    Parameters
+    ----------
+    result : AuditResult, ComparisonResult or AdviceResult
+        What to show.
+    **options
+        As for :func:`renderable`, except that audits rank the inputs of every
+        output by default (``all_outputs=True``).
+
+    Returns
+    -------
+    str
+        An HTML5 document: inline style and SVG charts, nothing loaded from
+        elsewhere; it closes with the caution.
+    """
+    from .html import html_page as page
+
+    return page(result, **options)
+
+
+def html_fragment(result: Any, **options: Any) -> str:
+    """The HTML report as one element with its style sheet, for a notebook's ``_repr_html_``."""
+    from .html import html_fragment as fragment
+
+    return fragment(result, **options)

@@ -30,6 +30,7 @@ __all__ = [
     "describe_run",
     "layer_inert",
     "layer_units",
+    "output_units",
 ]
 
 # Parameter order of the known marginal laws; other laws list their keys as given.
@@ -249,12 +250,29 @@ def describe_comparison_run(result: Any) -> list[Field]:
     return rows
 
 
-def describe_output(output: OutputResult) -> str:
-    """One line under an output's title: variance, ν with interval, additive share."""
+def output_units(result: Any) -> dict[str, str]:
+    """The unit of each output by name, from the spec's ``[outputs] units`` recorded in ``model.output_units``.
+
+    Units are matched to the outputs in order when there is one per output
+    recorded; otherwise (some outputs left out of the run) none is shown.
+    """
+    model = getattr(result, "model", None) or {}
+    units = model.get("output_units") or []
+    outputs = getattr(result, "outputs", [])
+    if len(units) != len(outputs):
+        return {}
+    return {o.name: str(u) for o, u in zip(outputs, units, strict=True) if u and str(u) != "1"}
+
+
+def describe_output(output: OutputResult, unit: str = "") -> str:
+    """One line under an output's title: mean and variance (in ``unit``), ν with interval, additive share."""
+    squared = f" ({unit})²" if unit else ""
+    mean = f"mean {glue(f'{fmt(output.mean.estimate)} {unit}'.strip())}"
+    variance = f"variance {glue(fmt(output.variance.estimate) + squared)}"
     if output.inert or output.mean_dimension is None:
-        return f"variance {fmt(output.variance.estimate)}: constant under these input laws"
+        return f"{mean}, {variance}: constant under these input laws"
     nu = output.mean_dimension
-    text = f"variance {fmt(output.variance.estimate)}, ν {fmt(nu.estimate)} {fmt_interval(nu.ci_low, nu.ci_high)}"
+    text = f"{mean}, {variance}, mean dimension ν {fmt(nu.estimate)} {fmt_interval(nu.ci_low, nu.ci_high)}"
     if output.first_order:
         text += f", additive share {fmt(output.additive_share)}"
     return text

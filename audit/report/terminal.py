@@ -3,7 +3,8 @@
 :func:`to_renderable` lays out every block with the width-aware widgets of
 :mod:`audit.report.widgets`: section titles as rules, labelled rows with a
 hanging indent, tables that keep numbers whole and move long names to lines
-of their own, findings as bullets with their commands, and the closing
+of their own, findings as bullets with their commands (on one line, or continued with a
+backslash, so that they can be pasted back), and the closing
 caution. Tones become styles (``"strong"`` bold, ``"muted"`` dim, ...), which
 a console without colour simply drops. Safety and ASCII are decided by the
 widgets when the report is printed, from the console's encoding.
@@ -37,7 +38,7 @@ from .document import (
     Table,
 )
 from .text import BAR_WIDTH, CAUTION, share_bar
-from .widgets import FitColumn, FitTable, Styled, TitleRule, WrappedText
+from .widgets import CommandText, FitColumn, FitTable, Styled, TitleRule, WrappedText
 
 __all__ = ["STYLES", "make_console", "to_renderable"]
 
@@ -141,7 +142,7 @@ def _bullets(block: Bullets) -> list[RenderableType]:
     parts: list[RenderableType] = []
     for item in block.items:
         parts.append(WrappedText(item.text, "• ", prefix_style="bold"))
-        parts += [WrappedText(cmd, style=STYLES["command"], indent=_COMMAND_INDENT) for cmd in item.commands]
+        parts += [CommandText(cmd, style=STYLES["command"], indent=_COMMAND_INDENT) for cmd in item.commands]
     return parts
 
 

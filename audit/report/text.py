@@ -34,6 +34,7 @@ __all__ = [
     "GLUE",
     "LIST_LIMIT",
     "SIGNIFICANT_DIGITS",
+    "cell_len",
     "finite",
     "fmt",
     "fmt_count",
@@ -44,6 +45,7 @@ __all__ = [
     "glue",
     "listing",
     "share_bar",
+    "shorten",
     "to_ascii",
     "visible",
 ]
@@ -195,6 +197,51 @@ def listing(items: Sequence[str], limit: int = LIST_LIMIT) -> str:
     return ", ".join(items[:limit]) + f" and {len(items) - limit} more"
 
 
+def cell_len(text: str) -> int:
+    """Terminal cells ``text`` takes: two for wide (East Asian) characters, none for combining marks."""
+    if text.isascii():
+        return len(text)
+    return sum(
+        0 if unicodedata.combining(c) else 2 if unicodedata.east_asian_width(c) in "WF" else 1 for c in text
+    )
+
+
+def shorten(name: str, width: int, ellipsis: str = "…") -> str:
+    """``name`` cut in the middle to at most ``width`` cells: ``features.1…Relu_output_0``.
+
+    Parameters
+    ----------
+    name : str
+        A name (one word: a layer, an input, a path).
+    width : int
+        Cells available (a wide character takes two).
+    ellipsis : str, optional
+        What stands for the part left out (``"..."`` on an ASCII console).
+
+    Returns
+    -------
+    str
+        ``name`` itself when it fits; otherwise its start and its end around
+        ``ellipsis``, the start one cell longer when the room is odd. Names are
+        shortened, never broken across lines: the full name stays in the JSON report.
+    """
+    if cell_len(name) <= width:
+        return name
+    room = max(0, width - cell_len(ellipsis))
+    head_room, tail_room = room - room // 2, room // 2
+    head, used = "", 0
+    for ch in name:
+        if used + cell_len(ch) > head_room:
+            break
+        head, used = head + ch, used + cell_len(ch)
+    tail, used = "", 0
+    for ch in reversed(name[len(head) :]):
+        if used + cell_len(ch) > tail_room:
+            break
+        tail, used = ch + tail, used + cell_len(ch)
+    return head + ellipsis + tail
+
+
 def glue(text: str) -> str:
     """``text`` with its spaces made non-breaking, so that wrapping keeps it on one line."""
     return text.replace(" ", GLUE)
@@ -261,6 +308,8 @@ _ASCII = str.maketrans(
         "×": "x",
         "°": "deg ",
         "•": "*",
+        "†": "~",
+        "‡": "!",
         "─": "-",
         "█": "#",
         "▉": "#",

@@ -97,7 +97,7 @@ class OutputAdvice:
         )
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class AdviceResult(Displayable):
     """Everything one ``advise`` run measured.
 

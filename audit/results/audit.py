@@ -186,7 +186,7 @@ class LayerResult:
         )
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class AuditResult(Displayable):
     """Everything one audit measured.
 

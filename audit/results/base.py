@@ -6,8 +6,9 @@ dataclasses with ``to_dict()`` / ``from_dict()``; the JSON report is
 ``to_dict()`` written with :func:`json.dump`. ``SCHEMA`` is bumped on any
 breaking change of the JSON layout.
 
-Results know nothing of how they are shown. Rich consoles and notebooks ask a
-result for ``__rich__``; that goes through the renderer registered with
+Results know nothing of how they are shown. Rich consoles ask a result for
+``__rich__``, notebooks for ``_repr_html_``, and ``repr`` gives a summary of a
+few lines; each goes through the functions registered with
 :func:`set_renderer` (the :mod:`audit` package registers the report layer's),
 so the dependency points from the report to the results and never back.
 """
@@ -22,21 +23,52 @@ from typing import Any
 __all__ = ["SCHEMA", "Displayable", "Estimate", "FeatureEstimate", "set_renderer"]
 
 _RENDERER: Callable[[Any], Any] | None = None
+_HTML: Callable[[Any], str] | None = None
+_SUMMARY: Callable[[Any], str] | None = None
 
 
-def set_renderer(renderer: Callable[[Any], Any] | None) -> None:
-    """Register the function that turns any result into a rich renderable (``None`` to unset)."""
-    global _RENDERER
-    _RENDERER = renderer
+def set_renderer(
+    renderer: Callable[[Any], Any] | None,
+    *,
+    html: Callable[[Any], str] | None = None,
+    summary: Callable[[Any], str] | None = None,
+) -> None:
+    """Register how results are shown (``None`` unsets).
+
+    Parameters
+    ----------
+    renderer : callable or None
+        Any result -> a rich renderable (``__rich__``).
+    html : callable, optional
+        Any result -> an HTML fragment (``_repr_html_``, a notebook's display).
+    summary : callable, optional
+        Any result -> a few lines of text (``repr``).
+    """
+    global _RENDERER, _HTML, _SUMMARY
+    _RENDERER, _HTML, _SUMMARY = renderer, html, summary
 
 
 class Displayable:
-    """Mix-in: ``__rich__`` through the registered renderer, or a one-line summary without one."""
+    """Mix-in: ``__rich__``, ``_repr_html_`` and a short ``repr`` through the registered functions.
+
+    Without them, ``__rich__`` and ``repr`` are one line and ``_repr_html_``
+    is ``None`` (a notebook then shows the ``repr``). Result classes declare
+    ``@dataclass(repr=False)`` so that this ``repr`` is theirs.
+    """
 
     def __rich__(self) -> Any:
         if _RENDERER is None:
             return f"{type(self).__name__} (import audit to render it)"
         return _RENDERER(self)
+
+    def _repr_html_(self) -> str | None:
+        return None if _HTML is None else _HTML(self)
+
+    def __repr__(self) -> str:
+        if _SUMMARY is None:
+            outputs = getattr(self, "outputs", [])
+            return f"<{type(self).__name__}: {len(outputs)} outputs (import audit for a summary)>"
+        return _SUMMARY(self)
 
 
 SCHEMA = 1

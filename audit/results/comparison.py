@@ -151,7 +151,7 @@ class GateCheck:
         return cls(d["name"], _unnum(d["limit"]), _unnum(d["value"]), bool(d["passed"]), d.get("detail", ""))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class ComparisonResult(Displayable):
     """Two model versions measured on the same randomized points."""
 

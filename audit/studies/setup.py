@@ -167,6 +167,18 @@ def select_layers(model: Model, layers: str | Sequence[str]) -> list[LayerInfo]:
     return chosen
 
 
+def _choices(layers: str | Sequence[str], unit_detail: Sequence[str], outputs: Sequence[str] | None) -> dict[str, Any]:
+    """The choices of a run that differ from the defaults, as a command line would give them."""
+    out: dict[str, Any] = {}
+    if layers != "activations":
+        out["layers"] = layers if isinstance(layers, str) else ",".join(layers)
+    if unit_detail:
+        out["unit_detail"] = list(unit_detail)
+    if outputs is not None and len(outputs) and all(isinstance(x, str) for x in outputs):
+        out["outputs"] = list(outputs)  # names the user gave (a workflow's own index selections are not choices)
+    return out
+
+
 @dataclass
 class Setup:
     """Everything a run needs, resolved and checked before any evaluation."""
@@ -205,6 +217,8 @@ class Setup:
     def job_evaluations(self) -> int:
         """Model evaluations of this setup's own job."""
         return self.design.points * self.design.replicates * self.estimator.rows_per_point()
+    #: What the user chose beyond the defaults (layers, unit detail, outputs): reports repeat it in commands.
+    choices: dict[str, Any] = field(default_factory=dict)
 
     @property
     def dtype(self) -> type:
@@ -385,6 +399,7 @@ def prepare(
     identity = model_identity(model)
     setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
     setup.keep, setup.variables, setup.view = keep, variables, chosen_view
+    setup.choices = _choices(layers, unit_detail, outputs)
     jobs = [(setup.job(), blk)]
     if kind == "both":
         grouped = group_view(variables, spec, shape)
@@ -395,6 +410,7 @@ def prepare(
             model, grouped.names, laws, out_names, chosen, dsg, est, list(groups), gblk, spec, options, [], identity
         )
         setup.companion.keep, setup.companion.variables, setup.companion.view = keep, variables, grouped
+        setup.companion.choices = setup.choices
         jobs.append((setup.companion.job("audit by group"), gblk))
     check_memory(jobs, memory_limit)
     return setup

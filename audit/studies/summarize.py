@@ -34,6 +34,7 @@ __all__ = [
     "model_info",
     "model_signature",
     "output_results",
+    "run_choices",
 ]
 
 
@@ -243,7 +244,34 @@ def design_info(setup: Setup, seconds: float) -> dict[str, Any]:
         "seconds": round(seconds, 3),
         **({"spec": setup.spec.source} if setup.spec.source.endswith(".toml") else {}),
         **({"view": setup.view.kind} if setup.view is not None and setup.view.kind != "inputs" else {}),
+        **({"options": options} if (options := run_choices(setup)) else {}),
     }
+
+
+#: Options a model was opened with that a command line must repeat (the ``open_args`` keys).
+_OPEN_CHOICES = ("input_shape", "torch_class", "torch_arguments", "trust")
+
+
+def run_choices(setup: Setup) -> dict[str, Any]:
+    """What a command repeating this run must give beyond the model, inputs and design.
+
+    The model's opening options (``input_shape``, ``torch_class``,
+    ``torch_arguments``, ``trust``) and the run's choices (``layers``,
+    ``unit_detail``, ``outputs``), each only when it differs from the default;
+    the JSON report keeps them as ``design.options`` so that a report's
+    suggested commands can be pasted as they are.
+    """
+    opened = getattr(setup.model, "open_args", None) or {}
+    out: dict[str, Any] = {}
+    for key in _OPEN_CHOICES:
+        value = opened.get(key)
+        if not value:
+            continue
+        if key == "input_shape":
+            value = {str(k): list(v) for k, v in value.items()} if isinstance(value, dict) else list(value)
+        out[key] = value
+    out.update(getattr(setup, "choices", {}) or {})
+    return out
 
 
 def _inputs_entry(model: Model) -> dict[str, Any]:

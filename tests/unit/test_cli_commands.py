@@ -70,3 +70,27 @@ def test_an_unexpected_failure_exits_1_and_asks_for_a_report(capsys, monkeypatch
     assert main(["layers", "m"]) == 1
     err = capsys.readouterr().err
     assert "unexpected failure: ZeroDivisionError: division by zero" in err and "--debug" in err
+
+
+def test_a_reader_that_stops_reading_never_costs_the_saved_reports(tmp_path, monkeypatch):
+    from reportdata import make_comparison
+
+    from audit.cli import commands
+
+    def closed(result, args):
+        raise BrokenPipeError
+
+    monkeypatch.setattr(commands, "print_result", closed)
+    args = argparse.Namespace(json=str(tmp_path / "r.json"), html=str(tmp_path / "r.html"), quiet=False,
+                              format="text", no_save=False)  # fmt: skip
+    with pytest.raises(BrokenPipeError):  # main() turns it into a quiet exit 0
+        commands._finish(make_comparison(), args)
+    assert (tmp_path / "r.json").is_file() and (tmp_path / "r.html").is_file()
+
+
+def test_html_targets_that_would_destroy_an_input_are_refused_before_any_work(tmp_path, capsys):
+    spec = tmp_path / "s.toml"
+    spec.write_text("[inputs]\nlaw = 'uniform'\n", encoding="utf-8")
+    code = main(["audit", "tests.clifuncs:log_first", "--dim", "2", "--inputs", str(spec), "--html", str(spec)])
+    assert code == EXIT_USAGE and "--html" in capsys.readouterr().err
+    assert spec.read_text(encoding="utf-8") == "[inputs]\nlaw = 'uniform'\n"

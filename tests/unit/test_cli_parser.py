@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from audit.cli import commands, fromdata, output, simplify
+from audit.cli import commands, fromdata, html, output, simplify
 from audit.cli.parser import build_parser
 from audit.version import __version__
 
@@ -107,22 +107,22 @@ def _subparsers() -> dict[str, argparse.ArgumentParser]:
 READERS = {
     "audit": [commands.cmd_audit, commands._spec, commands._open, commands._design, commands._run_options,
               commands._memory_limit, commands._outputs, commands._finish, output.print_result, output.save_report,
-              commands._design_given],
+              commands._design_given, html.write_html],
     "compare": [commands.cmd_compare, commands._spec, commands._open, commands._design, commands._run_options,
                 commands._memory_limit, commands._outputs, commands._finish, output.print_result,
-                output.save_report, commands._design_given, commands._gates],
+                output.save_report, commands._design_given, commands._gates, html.write_html],
     "advise": [commands.cmd_advise, commands._spec, commands._open, commands._design, commands._run,
                commands._run_options, commands._memory_limit, commands._outputs, commands._finish,
-               output.print_result, output.save_report, commands._design_given],
+               output.print_result, output.save_report, commands._design_given, html.write_html],
     "simplify": [commands.cmd_simplify, commands._spec, commands._open, commands._design, commands._run_options,
                  commands._memory_limit, simplify.run_simplify, output.print_result, output.save_report,
-                 commands._design_given],
+                 commands._design_given, html.write_html],
     "slopes": [commands.cmd_slopes, commands._spec, commands._open, commands._design, commands._run,
                commands._run_options, commands._memory_limit, commands._outputs, commands._finish,
-               output.print_result, output.save_report, commands._design_given],
+               output.print_result, output.save_report, commands._design_given, html.write_html],
     "layers": [commands.cmd_layers, commands._spec, commands._open],
-    "show": [commands.cmd_show, output.print_result],
-    "demo": [commands.cmd_demo, output.print_result, output.save_report],
+    "show": [commands.cmd_show, output.print_result, html.write_html],
+    "demo": [commands.cmd_demo, commands._finish, output.print_result, output.save_report, html.write_html],
     "inputs-from-data": [fromdata.cmd_inputs_from_data],
 }  # fmt: skip
 

@@ -61,3 +61,19 @@ def test_an_audit_loads_only_what_its_model_needs(tmp_path):
     assert _modules_after_cli(onnx_args, tmp_path) == []
     func_args = ["audit", "model_zoo.functions:ishigami", "--inputs", "model_zoo/ishigami.toml", *common]
     assert _modules_after_cli(func_args, root) == []
+
+
+def test_notebooks_get_the_html_report_and_repr_a_summary_once_audit_is_imported():
+    from htmlcheck import read_page
+
+    from audit.report.charts.indices import indices_title
+    from audit.results import Estimate, FeatureEstimate, OutputResult
+
+    e = Estimate(1.0, 0.9, 1.1, 0.05)
+    output = OutputResult("y", e, e, e, [FeatureEstimate("x0", Estimate(0.6, 0.5, 0.7, 0.05))])
+    result = audit.AuditResult({"source": "m", "format": "onnx"}, [{"name": "x0", "law": "normal"}],
+                               {"points": 8}, [output])  # fmt: skip
+    html = result._repr_html_()
+    assert html.startswith('<div class="netdim"')
+    assert read_page(html).titles() == [indices_title("y", first_order=False)]  # no first-order indices given
+    assert repr(result).startswith("AuditResult of m (onnx): 1 inputs, 1 outputs") and len(repr(result)) < 500

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -17,6 +18,7 @@ from audit.report.describe import (
     describe_run,
     layer_inert,
     layer_units,
+    output_units,
 )
 from audit.report.document import Field
 from audit.report.text import GLUE, fmt, fmt_interval
@@ -73,11 +75,23 @@ def test_design_rows_leave_out_what_is_missing_and_say_how_points_are_shared():
     assert describe_model(None) == "unknown model" and describe_model({"source": "f"}) == "f"
 
 
-def test_output_line_has_variance_nu_interval_and_share():
+def test_output_line_has_mean_variance_nu_interval_and_share():
     o = OutputResult("y", est(1.0, 0.1), est(2.5, 0.1), est(1.2, 0.01), [], [])
-    assert describe_output(o) == f"variance {fmt(2.5)}, ν {fmt(1.2)} {fmt_interval(1.19, 1.21)}"
+    nu = f"mean dimension ν {fmt(1.2)} {fmt_interval(1.19, 1.21)}"
+    assert describe_output(o) == f"mean {fmt(1.0)}, variance {fmt(2.5)}, {nu}"
+    assert describe_output(o, "°C").replace(GLUE, " ") == f"mean {fmt(1.0)} °C, variance {fmt(2.5)} (°C)², {nu}"
     inert = OutputResult("z", est(0.0, 0.0), Estimate(0.0, 0.0, 0.0, 0.0), None, inert=True)
-    assert describe_output(inert) == "variance 0: constant under these input laws"
+    assert describe_output(inert) == "mean 0, variance 0: constant under these input laws"
+
+
+def test_output_units_follow_the_outputs_when_there_is_one_each():
+    result = make_result()
+    names = [o.name for o in result.outputs]
+    units = ["°C", "%", "1", ""][: len(names)] + [""] * (len(names) - 4)
+    with_units = dataclasses.replace(result, model={**result.model, "output_units": units})
+    assert output_units(with_units) == {names[0]: "°C", names[1]: "%"}  # "1" (no unit) and "" are not shown
+    short = dataclasses.replace(result, model={**result.model, "output_units": ["°C"]})
+    assert output_units(short) == {}  # not one per output (some outputs left out): none shown
 
 
 def test_layer_counts_fall_back_to_units_and_shape():

@@ -7,6 +7,7 @@ from reportdata import layer, make_result, render_text, squash
 
 from audit.report.findings import derive_findings
 from audit.report.findings.layers import CHAIN_LIMIT, below_one, dead_units, depth
+from audit.report.ranges import BEYOND
 from audit.report.text import fmt
 from audit.results import AuditResult
 
@@ -24,7 +25,7 @@ def test_estimates_below_one_are_flagged_as_noise_and_not_clamped():
     assert "1 interval lies entirely below 1" in below.text and f"lowest {fmt(0.97)}" in below.text
     assert "N = 1,024 points" in below.text and "sampling noise" in below.text
     text = render_text(result)
-    assert f"{fmt(0.97)} / " in text  # the layer's minimum, shown as estimated
+    assert f"{fmt(0.97)} {BEYOND} / " in text  # the layer's minimum, shown as estimated, its interval below 1
     assert squash(below.text) in squash(text)
 
 

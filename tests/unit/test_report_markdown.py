@@ -38,13 +38,13 @@ def test_markdown_tables_parse_and_carry_the_same_numbers():
     overview = tables[0]
     assert [row[0] for row in overview[2:]] == [o.name for o in result.outputs]
     for row, o in zip(overview[2:], result.outputs, strict=True):
-        assert row[1] == fmt(o.variance.estimate)
+        assert row[1:3] == [fmt(o.mean.estimate), fmt(o.variance.estimate)]
         if o.mean_dimension is None:
-            assert row[2] == "inert (constant)"
+            assert row[3] == "inert (constant)"
         else:
             md_ = o.mean_dimension
-            assert row[2] == fmt(md_.estimate)
-            assert row[3] == fmt_interval(md_.ci_low, md_.ci_high)
+            assert row[3] == fmt(md_.estimate)
+            assert row[4] == fmt_interval(md_.ci_low, md_.ci_high)
     cells = {c for table in tables for row in table for c in row}
     missing = sorted(
         s for s in expected_numbers(result, result.outputs[:3], THRESHOLD) if s not in cells and s not in md

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 
@@ -11,7 +12,15 @@ from reportdata import N_FEATURES, THRESHOLD, est, make_result, render_text
 from audit.report import build_report, markdown
 from audit.report.document import Bar, Bullets, Cell, Fields, Note, Paragraph, Table
 from audit.report.findings import derive_findings
-from audit.report.sections.audit import SECTION_TITLES, audit_report, inputs_section, outputs_table
+from audit.report.sections.audit import (
+    MAX_UNITS,
+    SECTION_TITLES,
+    UNIT_TITLE,
+    audit_report,
+    inputs_section,
+    outputs_table,
+)
+from audit.report.terms import LEGEND_TITLE, explain
 from audit.report.text import fmt, fmt_interval, fmt_setting
 from audit.results import AuditResult, Estimate, FeatureEstimate, OutputResult
 
@@ -32,33 +41,46 @@ def test_sections_in_order_with_their_blocks():
     assert isinstance(report.sections[-1].blocks[0], Bullets)
     note = report.sections[5].blocks[0]
     assert note == Note("… 1 more output not ranked here; --all-outputs (all_outputs=True) ranks them.")
-    assert build_report(make_result()) == report
+    built = build_report(make_result())
+    assert built == explain(report) and built.sections[-1].title == LEGEND_TITLE
 
 
 def test_outputs_table_groups_nu_with_its_interval_and_marks_inert_outputs():
     result = make_result()
     table = outputs_table(result)
     assert [c.header for c in table.columns] == [
-        "output", "variance", "ν", "95 % interval", "additive share", "leading inputs",
+        "output", "mean", "variance", "mean dimension ν", "95 % interval", "additive share", "leading inputs",
     ]  # fmt: skip
-    assert [c.role for c in table.columns] == ["name", "number", "number", "number", "number", "note"]
-    assert table.columns[2].group == table.columns[3].group == "ν and 95 % interval"
+    assert [c.role for c in table.columns] == ["name", "number", "number", "number", "number", "number", "note"]
+    assert table.columns[3].group == table.columns[4].group == "mean dimension ν and 95 % interval"
     first = result.outputs[0]
-    assert table.rows[0][:4] == (
+    assert table.rows[0][:5] == (
         first.name,
+        fmt(first.mean.estimate),
         fmt(first.variance.estimate),
         fmt(first.mean_dimension.estimate),
         fmt_interval(first.mean_dimension.ci_low, first.mean_dimension.ci_high),
     )
-    assert table.rows[2][4] == ""  # no first-order indices: no additive share
-    assert table.rows[3] == ("alarm_flag", fmt(0.0), Cell("inert (constant)", "muted"), "", "", "")
+    assert table.rows[2][5] == ""  # no first-order indices: no additive share
+    inert = result.outputs[3]
+    assert table.rows[3] == ("alarm_flag", fmt(inert.mean.estimate), fmt(0.0), Cell("inert (constant)", "muted"),
+                             "", "", "")  # fmt: skip
+
+
+def test_outputs_table_shows_the_units_of_the_spec():
+    result = make_result()
+    units = ["°C", "%"] + [""] * (len(result.outputs) - 2)
+    table = outputs_table(dataclasses.replace(result, model={**result.model, "output_units": units}))
+    assert [c.header for c in table.columns][:3] == ["output", "unit", "mean"]
+    assert [row[1] for row in table.rows] == units
 
 
 def test_inputs_section_ranks_folds_and_draws_bars():
     o = make_result().outputs[0]
     section = inputs_section(o, THRESHOLD)
     heading, table, folded = section.blocks
-    assert isinstance(heading, Paragraph) and heading.text.startswith(f"variance {fmt(o.variance.estimate)}, ν ")
+    lead = f"mean {fmt(o.mean.estimate)}, variance {fmt(o.variance.estimate)}, mean dimension ν "
+    assert isinstance(heading, Paragraph) and heading.text.startswith(lead)
     assert isinstance(table, Table) and [c.role for c in table.columns][3] == "bar"
     ranked = [f for f in o.ranked() if f.value.estimate >= THRESHOLD]
     assert [row[0] for row in table.rows] == [f.feature for f in ranked]
@@ -139,3 +161,25 @@ def test_single_randomization_and_fast_estimator():
     assert found["no_interval"].subjects == ("inside_temperature",)
     md = markdown(result)
     assert "  - vent_opening triangular(0, 0.2, 1)" in md
+
+
+def test_layers_measured_unit_by_unit_get_a_section_of_their_own():
+    result = make_result()
+    layer = result.layers[1]
+    names = [f["name"] for f in result.inputs]
+    detailed = [
+        dataclasses.replace(u, total_index=[FeatureEstimate(n, est(0.5 / (k + 1), 0.01)) for k, n in enumerate(names)])
+        for u in layer.units
+    ]
+    with_detail = dataclasses.replace(result, layers=[result.layers[0], dataclasses.replace(layer, units=detailed)])
+    report = audit_report(with_detail)
+    titles = [s.title for s in report.sections]
+    at = titles.index(UNIT_TITLE.format(name=layer.name))
+    assert titles[at - 1] == SECTION_TITLES["layers"] and UNIT_TITLE.format(name=result.layers[0].name) not in titles
+    table, more = report.sections[at].blocks[:2]
+    assert isinstance(table, Table) and len(table.rows) == MAX_UNITS
+    by_variance = sorted(detailed, key=lambda u: -u.variance.estimate)[:MAX_UNITS]
+    assert [row[0] for row in table.rows] == [u.unit for u in by_variance]
+    assert table.rows[0][-1] == f"{names[0]} {fmt(0.5, 3)}, {names[1]} {fmt(0.25, 3)}, {names[2]} {fmt(0.5 / 3, 3)}"
+    assert more == Note(f"… {len(detailed) - MAX_UNITS} more units; every unit's indices are in the JSON report.")
+    assert "Units of encoder.relu2" in render_text(with_detail)

@@ -29,14 +29,17 @@ def test_wrap_breaks_at_spaces_but_never_inside_relations_or_intervals():
             assert whole in joined, (width, lines)
     assert wrap(f"a{GLUE}b c", 3) == ["a b", "c"]  # glue is shown as a space
     assert wrap("one\ntwo", 20) == ["one", "two"]
-    assert wrap("x" * 25, 10) == ["x" * 10, "x" * 10, "x" * 5]
+    assert wrap("x" * 25, 10) == ["xxxxx…xxxx"]
 
 
-def test_long_words_fold_at_a_separator_near_the_end():
+def test_long_words_are_shortened_in_the_middle_never_broken():
     word = "/encoder/blocks.0/attention/softmax/Softmax_output_0"
-    lines = wrap(word, 20)
-    assert "".join(lines) == word and all(len(line) <= 20 for line in lines)
-    assert lines[0].endswith(("/", "_", ".", "-"))
+    # 20 cells: 19 around the one-cell ellipsis, the start taking the odd one (10 + 9)
+    assert wrap(f"layer {word} here", 20) == ["layer", word[:10] + "…" + word[-9:], "here"]
+    assert wrap(word, 20, "...") == [word[:9] + "..." + word[-8:]]  # 17 cells around "..."
+    # a name glued to its number is shortened alone: the number stays whole
+    glued = wrap(f"{word}{GLUE}1.234", 24)
+    assert glued == [word[:9] + "…" + word[-8:] + " 1.234"] and len(glued[0]) == 24
 
 
 def test_wrapped_text_hangs_its_continuation_lines_under_the_text():

@@ -80,17 +80,18 @@ def test_greenhouse_and_onnx_layer_names_read_well_at_80_and_use_the_room_at_120
         assert ", ".join(f.feature for f in o.ranked()[:3]) in narrow[at + 1]
 
 
-def test_absurdly_long_names_fold_only_on_lines_of_their_own():
+def test_absurdly_long_names_are_shortened_in_the_middle_on_lines_of_their_own():
     absurd = "sensor_" + "_".join(f"segment{k}" for k in range(16))  # 150 characters
     result = named_result([absurd, *GREENHOUSE_INPUTS[:3]], [absurd], [])
     text = render_text(result)
     expected = expected_numbers(result, result.outputs, THRESHOLD)
     assert_whole(text, expected, 80)
-    lines = [line.strip() for line in text.splitlines()]
-    assert absurd in "".join(lines)  # folded, nothing lost
-    # the folded name's lines carry nothing but the name
-    pieces = [line for line in lines if line and line in absurd and len(line) > 20]
-    assert "".join(pieces[:2]) in absurd
+    lines = text.splitlines()
+    assert not any(absurd in line for line in lines) and all(len(line) <= 80 for line in lines)
+    # never broken across lines: shortened, its start and end kept around one ellipsis
+    short = [line.strip() for line in lines if line.strip().startswith("sensor_segment0") and "…" in line]
+    assert short and all(s.endswith("segment15") or "segment15" in s for s in short)
+    assert not any(line.strip().startswith("segment") for line in lines)  # no piece of a broken name
 
 
 @pytest.mark.parametrize("width", [30, 44, 60])

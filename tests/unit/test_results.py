@@ -195,10 +195,20 @@ def test_the_model_signature():
 
 
 def test_results_are_shown_through_the_registered_renderer(monkeypatch):
-    monkeypatch.setattr(audit.results.base, "_RENDERER", None)
+    for name in ("_RENDERER", "_HTML", "_SUMMARY"):
+        monkeypatch.setattr(audit.results.base, name, None)
     assert _audit().__rich__() == "AuditResult (import audit to render it)"
-    set_renderer(lambda result: f"rendered {result.kind}")
+    assert _audit()._repr_html_() is None  # a notebook then shows the repr
+    assert repr(_audit()) == f"<AuditResult: {len(_audit().outputs)} outputs (import audit for a summary)>"
+    set_renderer(lambda result: f"rendered {result.kind}", html=lambda r: f"<p>{r.kind}</p>", summary=lambda r: "few")
     assert _comparison().__rich__() == "rendered comparison"
+    assert _comparison()._repr_html_() == "<p>comparison</p>" and repr(_comparison()) == "few"
+
+
+def test_results_repr_is_short_not_the_dataclass_dump():
+    for result in (_audit(), _comparison()):
+        assert len(repr(result).splitlines()) <= 8 and len(repr(result)) < 2000
+        assert not repr(result).startswith(f"{type(result).__name__}(model=")
 
 
 def test_json_round_trip(net_advice):

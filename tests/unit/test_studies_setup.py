@@ -147,3 +147,10 @@ def test_inputs_and_models_are_resolved_from_what_the_user_gives():
     assert resolve_model(model, spec) is model
     opened = resolve_model("model_zoo.functions:ishigami", InputSpec(count=3))
     assert opened.format == "python" and opened.inputs[0].shape == (3,)
+
+
+def test_choices_beyond_the_defaults_are_kept_for_the_report():
+    assert prepare(Layered(), "normal", design=DESIGN).choices == {}
+    setup = prepare(Layered(), "normal", design=DESIGN, layers=["pre", "act"], unit_detail=["pre"], outputs=["y[1]"])
+    assert setup.choices == {"layers": "pre,act", "unit_detail": ["pre"], "outputs": ["y[1]"]}
+    assert prepare(Layered(), "normal", design=DESIGN, layers="none").choices == {"layers": "none"}

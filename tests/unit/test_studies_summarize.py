@@ -24,6 +24,7 @@ from audit.studies.summarize import (
     model_info,
     model_signature,
     output_results,
+    run_choices,
 )
 
 R, G, K = 6, 3, 3
@@ -153,3 +154,20 @@ def test_model_signature_lists_tensors_layers_and_notices():
     assert sig.source == "layered" and sig.features == 3
     assert [t.name for t in sig.outputs] == ["y"] and [x.name for x in sig.layers] == ["pre", "act"]
     assert sig.layers[1].units == 4 and sig.notices == ["a remark of the backend"]
+
+
+def test_the_design_records_what_a_command_must_repeat():
+    plain = prepare(Layered(), "normal", design=DesignOptions(points=64, seed=1))
+    assert "options" not in design_info(plain, 0.0) and run_choices(plain) == {}
+    model = Layered()
+    model.open_args = {"ref": "/m.pt", "torch_class": "pkg:Net", "torch_arguments": {"hidden": 4}, "trust": False,
+                       "input_shape": (1, 3)}  # fmt: skip
+    setup = prepare(model, "normal", design=DesignOptions(points=64, seed=1), layers="pre", unit_detail=["pre"])
+    assert design_info(setup, 0.0)["options"] == {
+        "input_shape": [1, 3], "torch_class": "pkg:Net", "torch_arguments": {"hidden": 4},
+        "layers": "pre", "unit_detail": ["pre"],
+    }  # fmt: skip
+    model.open_args = {"ref": "/m.onnx", "input_shape": {"a": (2,), "b": (1, 4)}, "trust": True}
+    assert run_choices(prepare(model, "normal", design=DesignOptions(points=64, seed=1), layers="none")) == {
+        "input_shape": {"a": [2], "b": [1, 4]}, "trust": True, "layers": "none",
+    }  # fmt: skip

@@ -4,7 +4,9 @@
 :func:`~audit.report.sections.audit.audit_report`,
 :func:`~audit.report.sections.comparison.comparison_report` and
 :func:`~audit.report.sections.advice.advice_report`. Sections produce
-Unicode text and plain data only; renderers lay them out.
+Unicode text and plain data only; renderers lay them out. Every report is
+finished by :func:`audit.report.terms.explain` (ν named at first mention, the
+legend of the terms used).
 """
 
 from __future__ import annotations
@@ -13,6 +15,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from ..document import Report
+from ..terms import explain
 from .advice import advice_report
 from .audit import audit_report
 from .comparison import comparison_report
@@ -56,6 +59,8 @@ def build_report(result: Any, **options: Any) -> Report:
     Returns
     -------
     Report
+        With "mean dimension ν" named at its first mention in every section
+        and closed by the legend of the terms it uses (:func:`audit.report.terms.explain`).
 
     Raises
     ------
@@ -65,13 +70,14 @@ def build_report(result: Any, **options: Any) -> Report:
     check_options(options)
     kind = getattr(result, "kind", "audit")
     if kind == "audit":
-        return audit_report(result, **options)
+        return explain(audit_report(result, **options))
     if kind == "comparison":
-        return comparison_report(result)
+        return explain(comparison_report(result))
     if kind == "advice":
-        return advice_report(result)
+        return explain(advice_report(result))
     if kind == "simplified":
-        return simplified_report(result)
+        return explain(simplified_report(result))
     if kind == "slopes":
-        return slopes_report(result, **{k: v for k, v in options.items() if k in ("all_outputs", "max_outputs")})
+        shown = {k: v for k, v in options.items() if k in ("all_outputs", "max_outputs")}
+        return explain(slopes_report(result, **shown))
     raise TypeError(f"no report for a result of kind {kind!r}")

@@ -12,9 +12,10 @@ from __future__ import annotations
 import math
 
 from ...results import AdviceResult, FreezeGroup, OutputAdvice, RqmcGain
-from ..describe import describe_output, describe_run
+from ..describe import describe_output, describe_run, output_units
 from ..document import Block, Cell, CellValue, Column, Fields, Heading, Note, Paragraph, Report, Section, Table
 from ..findings import derive_advice_findings
+from ..ranges import Marks
 from ..text import fmt, fmt_count, fmt_interval, fmt_percent, fmt_setting, listing
 from .audit import SECTION_TITLES, findings_block
 
@@ -40,8 +41,10 @@ ADVICE_TITLES = {
 }
 
 
-def candidates_table(output: OutputAdvice) -> Table:
-    """The pre-integration candidates of one output, best first."""
+def candidates_table(output: OutputAdvice, marks: Marks | None = None) -> Table:
+    """The pre-integration candidates of one output, best first (estimates outside their range marked)."""
+    marks = marks or Marks()
+    d_after = max(1, len(output.audit.total_index) - 1)
     columns = (
         Column("input", "name"),
         Column("total index"),
@@ -58,8 +61,8 @@ def candidates_table(output: OutputAdvice) -> Table:
         rows.append(
             (
                 c.feature,
-                fmt(c.total_index.estimate),
-                "constant" if nu is None else fmt(nu.estimate),
+                marks.index(c.total_index),
+                "constant" if nu is None else marks.nu(nu, d_after),
                 "" if nu is None else fmt_interval(nu.ci_low, nu.ci_high),
                 fmt(vi.measured.estimate),
                 fmt(vi.predicted.estimate),
@@ -121,13 +124,14 @@ def gain_lines(gain: RqmcGain) -> list[str]:
     ]
 
 
-def freeze_table(output: OutputAdvice) -> Table:
+def freeze_table(output: OutputAdvice, marks: Marks | None = None) -> Table:
     """Inputs below the freeze threshold, smallest total index first, and whether they are grouped."""
+    marks = marks or Marks()
     columns = (Column("input", "name"), Column("total index"), Column("95 % interval"), Column("in group", "text"))
     rows = tuple(
         (
             f.feature,
-            fmt(f.total_index.estimate),
+            marks.index(f.total_index),
             fmt_interval(f.total_index.ci_low, f.total_index.ci_high),
             "yes" if f.grouped else "no (over budget)",
         )
@@ -151,15 +155,16 @@ def group_line(group: FreezeGroup) -> str:
     )
 
 
-def output_section(output: OutputAdvice, freeze_threshold: float) -> Section:
-    """Everything advised for one output."""
-    blocks: list[Block] = [Paragraph(describe_output(output.audit))]
+def output_section(output: OutputAdvice, freeze_threshold: float, unit: str = "") -> Section:
+    """Everything advised for one output (``unit``: the output's unit, for its mean and variance)."""
+    blocks: list[Block] = [Paragraph(describe_output(output.audit, unit))]
     title = ADVICE_TITLES["output"].format(name=output.name)
     if output.audit.inert or output.audit.mean_dimension is None:
         return Section(title, tuple(blocks))
     blocks.append(Heading(ADVICE_TITLES["candidates"]))
+    marks = Marks()
     if output.preintegrate:
-        blocks += [candidates_table(output), Paragraph(nu_line(output)), Note(nodes_line(output))]
+        blocks += [candidates_table(output, marks), Paragraph(nu_line(output)), Note(nodes_line(output))]
     else:
         blocks.append(Note("No candidates (a single input, or none with a total index worth integrating)."))
     gain = output.rqmc_gain
@@ -170,12 +175,13 @@ def output_section(output: OutputAdvice, freeze_threshold: float) -> Section:
     if not output.freeze:
         blocks.append(Note("None: every input matters at this threshold."))
     else:
-        blocks.append(freeze_table(output))
+        blocks.append(freeze_table(output, marks))
         if output.freeze_group is not None:
             blocks.append(Paragraph(group_line(output.freeze_group)))
         else:
             blocks.append(Note("None fits the error budget on its own; nothing is grouped."))
-    return Section(title, tuple(blocks))
+    note = marks.note()
+    return Section(title, (*blocks, note) if note else tuple(blocks))
 
 
 def advice_report(result: AdviceResult) -> Report:
@@ -194,7 +200,8 @@ def advice_report(result: AdviceResult) -> Report:
     """
     sections = [Section(SECTION_TITLES["header"], (Fields(tuple(describe_run(result))),))]
     eps = result.settings.get("freeze_threshold", math.nan)
-    sections += [output_section(o, eps) for o in result.outputs]
+    units = output_units(result)
+    sections += [output_section(o, eps, units.get(o.name, "")) for o in result.outputs]
     found = derive_advice_findings(result)
     empty = "Nothing to advise under the rules used here."
     sections.append(Section(ADVICE_TITLES["findings"], (findings_block(found, empty),)))

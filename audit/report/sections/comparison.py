@@ -12,6 +12,7 @@ from ...results import ComparisonResult, Estimate, OutputResult
 from ..describe import describe_comparison_run
 from ..document import Block, Cell, CellValue, Column, Field, Fields, Heading, Note, Report, Section, Table
 from ..findings.comparison import MARK, change_note, counts, excludes_zero, tolerance
+from ..ranges import Marks
 from ..text import fmt, fmt_count
 
 __all__ = [
@@ -27,7 +28,7 @@ __all__ = [
 
 COMPARISON_TITLES = {
     "run": "Models and run",
-    "outputs": "Mean dimension, old → new",
+    "outputs": "Mean dimension ν, old → new",
     "inputs": "Inputs whose total index moved",
     "layers": "Hidden layers in both models",
     "gates": "Gates",
@@ -80,17 +81,19 @@ def outputs_table(result: ComparisonResult) -> Table:
 def moved_blocks(result: ComparisonResult) -> list[Block]:
     """Per output with moved inputs: its name, then the inputs (at most :data:`MAX_MOVED`), largest change first."""
     blocks: list[Block] = []
+    marks = Marks()
     columns = (Column("input", "name"), Column("old"), Column("new"), Column("change", tone="strong"), Column("95 %"))
     for o in result.outputs:
         if not o.moved:
             continue
         by = {c.feature: c for c in o.total_index_change}
-        old = {f.feature: f.value.estimate for f in o.old.total_index}
-        new = {f.feature: f.value.estimate for f in o.new.total_index}
+        old = {f.feature: f.value for f in o.old.total_index}
+        new = {f.feature: f.value for f in o.new.total_index}
         rows: list[tuple[CellValue, ...]] = []
         for name in o.moved[:MAX_MOVED]:
             change, half = fmt_change(by[name].value, tolerance(result, "total_index") if _gated(result) else None)
-            rows.append((name, fmt(old.get(name), 3), fmt(new.get(name), 3), change, half))
+            cells = [marks.index(side[name], 3) if name in side else "n/a" for side in (old, new)]
+            rows.append((name, *cells, change, half))
         blocks += [Heading(o.name), Table(columns, tuple(rows))]
         if len(o.moved) > MAX_MOVED:
             blocks.append(Note(f"… {len(o.moved) - MAX_MOVED} more moved"))
@@ -101,7 +104,8 @@ def moved_blocks(result: ComparisonResult) -> list[Block]:
             blocks.append(Note(note))
         else:
             blocks.append(Note("No input's total index changed significantly (every interval contains 0)."))
-    return blocks
+    note = marks.note()
+    return [*blocks, note] if note else blocks
 
 
 def layers_blocks(result: ComparisonResult) -> list[Block]:

@@ -19,8 +19,9 @@ transliterated (:func:`audit.report.text.to_ascii`) and rules are drawn with
 Text is wrapped at plain spaces only (:func:`wrap`); a non-breaking space
 (:data:`audit.report.text.GLUE`) keeps its neighbours on one line and is
 shown as a plain space. A word longer than a whole line (an absurdly long
-name) is folded, at a ``/``, ``_``, ``.`` or ``-`` when one is near the end
-of the line. No line carries trailing spaces.
+name) is never broken across lines: it is shortened in the middle with an
+ellipsis (:func:`audit.report.text.shorten`; ``...`` on an ASCII console),
+the full name staying in the JSON report. No line carries trailing spaces.
 """
 
 from __future__ import annotations
@@ -30,14 +31,13 @@ from rich.console import Console, ConsoleOptions, RenderableType, RenderResult
 from rich.rule import Rule
 from rich.text import Text
 
-from ..text import GLUE, to_ascii, visible
+from ..text import GLUE, shorten, to_ascii, visible
 
 __all__ = ["AsciiOnly", "Styled", "TitleRule", "WrappedText", "clean", "safe_text", "wrap"]
 
 #: Plain text, or pieces of ``(text, rich style)`` shown one after the other.
 Styled = str | tuple[tuple[str, str], ...]
 
-_SEPARATORS = "/_.-," + GLUE
 _GLUE_BOTH = frozenset({"=", "≥", "≤", "<", ">", "±", "≈", "~", ">=", "<=", "+/-"})
 _GLUE_NEXT = frozenset({"ν", "(ν", "nu", "(nu"})
 
@@ -75,23 +75,6 @@ def safe_text(value: Styled, style: str = "", *, ascii_only: bool = False) -> Te
 # ----------------------------------------------------------------------------- wrapping
 
 
-def _fold(word: str, width: int) -> tuple[str, str]:
-    """Split ``word`` (wider than ``width``) into a head that fits and the rest."""
-    used, cut = 0, 0
-    for i, ch in enumerate(word):
-        used += cell_len(ch)
-        if used > width:
-            break
-        cut = i + 1
-    cut = max(cut, 1)
-    head = word[:cut]
-    best = max(head.rfind(s) for s in _SEPARATORS)
-    if best >= max(1, width // 2) - 1 and best + 1 < len(word):
-        cut = best + 1
-    head, rest = word[:cut], word[cut:]
-    return head.rstrip(GLUE), rest.lstrip(GLUE)
-
-
 def _glued(words: list[str]) -> list[str]:
     """Words joined by GLUE in relations (``N = 256``, ``ν ≥ 1``), ``ν 1.05`` and ``[a, b]``."""
     out: list[str] = []
@@ -108,7 +91,20 @@ def _glued(words: list[str]) -> list[str]:
     return out
 
 
-def wrap(text: str, width: int) -> list[str]:
+def _fit_word(word: str, width: int, ellipsis: str) -> str:
+    """A word (glued words, such as ``ν 1.05``, count as one) shortened in the middle to ``width``."""
+    if cell_len(word) <= width:
+        return word
+    pieces = word.split(GLUE)
+    longest = max(range(len(pieces)), key=lambda i: cell_len(pieces[i]))
+    rest = cell_len(word) - cell_len(pieces[longest])
+    if rest < width - cell_len(ellipsis) - 2:  # shorten the long name, keep the numbers glued to it
+        pieces[longest] = shorten(pieces[longest], width - rest, ellipsis)
+        return GLUE.join(pieces)
+    return shorten(word, width, ellipsis)
+
+
+def wrap(text: str, width: int, ellipsis: str = "…") -> list[str]:
     """Wrap ``text`` into lines at most ``width`` cells wide.
 
     Parameters
@@ -117,14 +113,16 @@ def wrap(text: str, width: int) -> list[str]:
         Text; ``"\\n"`` starts a new line, runs of spaces count as one.
     width : int
         Cells per line (at least 1).
+    ellipsis : str, optional
+        What stands for the middle of a word shortened to fit (``"..."`` for ASCII).
 
     Returns
     -------
     list of str
         Lines broken at plain spaces, but never inside a relation such as
         ``N = 256`` or ``ν ≥ 1``, an interval ``[low, high]``, nor between
-        ``ν`` and its value; a word wider than ``width`` is folded.
-        Non-breaking spaces are returned as plain spaces.
+        ``ν`` and its value; a word wider than ``width`` is shortened in the
+        middle, never broken. Non-breaking spaces are returned as plain spaces.
     """
     width = max(1, int(width))
     lines: list[str] = []
@@ -137,10 +135,7 @@ def wrap(text: str, width: int) -> list[str]:
                 continue
             if line:
                 lines.append(line)
-            while cell_len(word) > width:
-                head, word = _fold(word, width)
-                lines.append(head)
-            line = word
+            line = _fit_word(word, width, ellipsis)
         lines.append(line)
     return [line.replace(GLUE, " ") for line in lines]
 
@@ -179,16 +174,20 @@ class WrappedText:
         if width - lead < self._MIN_TEXT:  # too narrow for a hanging indent
             if prefix.strip():
                 yield Text(prefix.rstrip(), style=self.prefix_style)
-            for line in wrap(text, width):
+            for line in wrap(text, width, _ellipsis(options)):
                 yield Text(line, style=self.style)
             return
-        for k, line in enumerate(wrap(text, width - lead)):
+        for k, line in enumerate(wrap(text, width - lead, _ellipsis(options))):
             head = prefix if k == 0 else ""
             out = Text(" " * self.indent)
             out.append(head.ljust(cell_len(prefix)), style=self.prefix_style)
             out.append(line, style=self.style)
             out.rstrip()
             yield out
+
+
+def _ellipsis(options: ConsoleOptions) -> str:
+    return "..." if options.ascii_only else "…"
 
 
 def _rule_characters(options: ConsoleOptions) -> str:

@@ -9,7 +9,8 @@ width it is given at render time instead, and degrades in steps:
 2. ``note`` columns (long free text such as a list of names) move to an
    indented line of their own under each row;
 3. names too long for the room left move to a line of their own above their
-   row (the name column is dropped when no name fits);
+   row (the name column is dropped when no name fits); a name wider than the
+   whole line is shortened in the middle (``…``), never broken;
 4. ``extra`` columns (a bar that repeats a number) are dropped;
 5. on a console too narrow for the numeric columns themselves, each row
    becomes a name line followed by ``header: value`` pairs.
@@ -29,7 +30,7 @@ from rich.cells import cell_len
 from rich.console import Console, ConsoleOptions, RenderResult
 from rich.text import Text
 
-from ..text import GLUE
+from ..text import GLUE, shorten
 from .lines import Styled, clean, safe_text, wrap
 
 __all__ = ["FitColumn", "FitTable", "split_header"]
@@ -118,7 +119,8 @@ class FitTable:
             [safe_text(cell, col.style, ascii_only=a) for cell, col in zip(row, self.columns, strict=True)]
             for row in self.rows
         ]
-        grid = _Grid(self.columns, [clean(c.header, a) for c in self.columns], rows, rule="-" if a else "─")
+        grid = _Grid(self.columns, [clean(c.header, a) for c in self.columns], rows, rule="-" if a else "─",
+                     ellipsis="..." if a else "…")
         yield from grid.lines(options.max_width)
 
 
@@ -129,8 +131,10 @@ class _Grid:
     NAME_MIN = 8
     INDENT = 2
 
-    def __init__(self, columns: list[FitColumn], headers: list[str], rows: list[list[Text]], rule: str) -> None:
-        self.columns, self.headers, self.rows, self.rule = columns, headers, rows, rule
+    def __init__(
+        self, columns: list[FitColumn], headers: list[str], rows: list[list[Text]], rule: str, ellipsis: str = "…"
+    ) -> None:
+        self.columns, self.headers, self.rows, self.rule, self.ellipsis = columns, headers, rows, rule, ellipsis
         self.heads = [self._head(i) for i in range(len(columns))]
 
     def _head(self, i: int) -> list[str]:
@@ -227,7 +231,7 @@ class _Grid:
     def _name_lines(self, name: Text, width: int) -> list[Text]:
         if cell_len(name.plain) <= width:
             return [name]
-        return [Text(line, style=name.style) for line in wrap(name.plain, width)]
+        return [Text(shorten(name.plain, width, self.ellipsis), style=name.style)]
 
     def _notes(self, row: list[Text], plan: _Plan, width: int) -> list[Text]:
         out: list[Text] = []
@@ -238,7 +242,7 @@ class _Grid:
             prefix = " " * self.INDENT + f"{self.headers[i]}: "
             aligned = width - cell_len(prefix)
             if aligned >= 12 and all(cell_len(w) <= aligned for w in value.split(" ")):
-                lines = wrap(value, aligned)
+                lines = wrap(value, aligned, self.ellipsis)
                 out += [
                     Text((prefix if k == 0 else " " * cell_len(prefix)) + line, style="dim")
                     for k, line in enumerate(lines)
@@ -246,7 +250,7 @@ class _Grid:
                 continue
             # an item too long to sit under the label: hang the continuation lines instead
             hang = self.INDENT + 2
-            lines = wrap(f"{self.headers[i]}: {value}", max(1, width - hang))
+            lines = wrap(f"{self.headers[i]}: {value}", max(1, width - hang), self.ellipsis)
             out += [Text((" " * (self.INDENT if k == 0 else hang)) + line, style="dim") for k, line in enumerate(lines)]
         return out
 
@@ -271,7 +275,7 @@ class _Grid:
                 continue
             if line:
                 out.append(Text(" " * indent + line))
-            parts = wrap(pair, avail)
+            parts = wrap(pair, avail, self.ellipsis)
             out += [Text(" " * indent + p) for p in parts[:-1]]
             line = parts[-1]
         if line:
