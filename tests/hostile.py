@@ -26,6 +26,7 @@ __all__ = [
     "Payload",
     "batch_centred_graph",
     "hostile_names_graph",
+    "huge",
     "payload_bytes",
     "pickled_constant_pt2",
     "pickled_weight_pt2",
