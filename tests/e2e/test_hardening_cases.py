@@ -72,7 +72,8 @@ def test_pickled_payloads_of_an_export_archive_never_run(case, good, tmp_path, c
         _exits(capsys, args, 2, "as a pickled Python object")
         assert not marker.exists(), command
     _exits(capsys, ["compare", str(good["onnx"]), str(path), *SMALL], 2, "could run code stored in the file")
-    assert not marker.exists()
+    _exits(capsys, ["audit", str(path), *SMALL, "--cluster", "local:1"], 2, "could run code stored in the file")
+    assert not marker.exists()  # refused before a cluster starts: no worker reopens the file
 
 
 # -- outputs checked -------------------------------------------------------------------------
