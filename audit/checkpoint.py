@@ -14,12 +14,15 @@ temporary file in the same folder and renames it, so a kill during a write
 leaves the previous checkpoint intact. Merging a task's sums and marking it
 done happen with interrupts deferred, so a task is never counted twice. A
 lock file keeps two runs off one checkpoint; loading checks that the sums
-agree with the finished row ranges.
+agree with the finished row ranges, and that every job's arrays still hash to
+the SHA-256 consistency record written with them (an edited or damaged value
+is refused, not resumed).
 """
 
 from __future__ import annotations
 
 import contextlib
+import hashlib
 import itertools
 import json
 import math
@@ -47,18 +50,38 @@ MAX_BYTES = 8 << 30
 _HELD: set[str] = set()
 
 
+def _digest(arrays: dict[str, np.ndarray], prefix: str) -> str:
+    """SHA-256 of every array of one job (name, dtype, shape and bytes), its consistency record aside."""
+    h = hashlib.sha256()
+    for key in sorted(k for k in arrays if k.startswith(prefix) and k != prefix + "check"):
+        value = np.ascontiguousarray(arrays[key])
+        h.update(f"{key}|{value.dtype.str}|{value.shape}|".encode())
+        h.update(value.tobytes())
+    return h.hexdigest()
+
+
 @contextlib.contextmanager
 def _deferred_interrupts() -> Iterator[None]:
-    """Hold SIGINT / SIGTERM until the block ends (main thread, POSIX); elsewhere run plainly."""
-    if threading.current_thread() is not threading.main_thread() or not hasattr(signal, "pthread_sigmask"):
+    """Hold SIGINT / SIGTERM until the block ends (main thread); elsewhere run plainly.
+
+    The signals are caught by handlers of this block and raised again, to the handlers
+    in place before, when it ends. (Blocking them with a thread signal mask is not enough:
+    the process may have other threads, such as a runtime's thread pool, and a signal
+    sent to the process reaches any thread that does not block it.)
+    """
+    if threading.current_thread() is not threading.main_thread():
         yield
         return
-    held = {signal.SIGINT, signal.SIGTERM}
-    old = signal.pthread_sigmask(signal.SIG_BLOCK, held)
+    caught: list[int] = []
+    held = (signal.SIGINT, signal.SIGTERM)
+    previous = {sig: signal.signal(sig, lambda signum, _frame: caught.append(signum)) for sig in held}
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+        for sig, handler in previous.items():
+            signal.signal(sig, signal.SIG_DFL if handler is None else handler)
+        for sig in dict.fromkeys(caught):
+            signal.raise_signal(sig)
 
 
 def _differences(saved: dict[str, Any], current: dict[str, Any]) -> list[str]:
@@ -212,6 +235,8 @@ class Checkpoint:
                     "fingerprint": json.loads(str(data[prefix + "fingerprint"])),
                     "done": np.asarray(data[prefix + "done"], dtype=np.int64).reshape(-1, 3),
                     "sums": fields,
+                    "check": str(data.get(prefix + "check", "")),
+                    "intact": str(data.get(prefix + "check", "")) == _digest(data, prefix),
                 }
         except (KeyError, ValueError, TypeError) as exc:
             raise self._bad(f"its contents are malformed ({type(exc).__name__}: {exc})") from exc
@@ -266,6 +291,11 @@ class Checkpoint:
                         f"{rows[rep]} are recorded as finished"
                     )
                 record.sums[name][rep] = sums
+        if not saved["intact"]:
+            raise self._bad(
+                f"the sums or finished rows of '{job.name}' do not match the consistency record written with "
+                "them (the file was edited or damaged)"
+            )
         record.done = [Task(int(r), int(s), int(n)) for r, s, n in saved["done"]]
         record.rows_done = int(rows.sum())
 
@@ -291,6 +321,7 @@ class Checkpoint:
                     for rep, state in reps.items():
                         for field, value in state.items():
                             arrays[f"{prefix}s/{gi}/{rep}/{field}"] = value
+                arrays[prefix + "check"] = np.array(saved["check"])  # kept as read: never re-signed
                 continue
             arrays[prefix + "fingerprint"] = np.array(json.dumps(record.fingerprint))
             arrays[prefix + "done"] = np.array([(t.rep, t.start, t.n) for t in record.done], dtype=np.int64).reshape(
@@ -301,6 +332,7 @@ class Checkpoint:
                     if sums is not None:
                         for field, value in sums.state().items():
                             arrays[f"{prefix}s/{gi}/{rep}/{field}"] = value
+            arrays[prefix + "check"] = np.array(_digest(arrays, prefix))
         tmp = self.path.with_name(f".{self.path.name}.{os.getpid()}.tmp.npz")
         try:
             with open(tmp, "wb") as f:

@@ -16,7 +16,7 @@ import pytest
 import audit.checkpoint
 from audit.checkpoint import FORMAT, Checkpoint
 from audit.design import Design
-from audit.engine import Group, iter_tasks, run
+from audit.engine import Group, Task, iter_tasks, run
 from audit.errors import UserError
 from audit.estimators import FreezeError, PrefixMeans
 
@@ -256,6 +256,10 @@ TAMPERED = {
     "wrong format string": (lambda d: d.update({"format": np.array("netdim checkpoint 1")}), "not written by this"),
     "fingerprint missing": (_drop("j0/fingerprint"), "malformed"),
     "malformed sums": (_drop("j0/s/0/0/mean"), "the sums of 'out' are malformed"),
+    "a sum's value edited": (
+        lambda d: d.update({"j0/s/0/0/mean": d["j0/s/0/0/mean"] + 1.0}),
+        "do not match the consistency record",
+    ),
 }
 
 
@@ -353,3 +357,30 @@ def test_the_record_of_a_finished_job_holds_every_row(tmp_path):
         record = store.records["test"]
         assert record.rows_done == 512 and len(record.done) == 4
         assert all(s.rows == 256 for s in record.sums["out"])
+
+
+def test_an_interrupt_between_merging_two_groups_of_a_task_waits_until_the_task_is_recorded(tmp_path):
+    import signal
+
+    from audit.checkpoint import _SavedRecord
+
+    job = checks.job("jansen", Design(LAWS, 64, 2, 1), [Group("out", 3, True), Group("h", 3, False)])
+    record = _SavedRecord(job, {})
+    merged = []
+
+    class Part:
+        rows = 64
+
+        def __init__(self, name, interrupt):
+            self.name, self.interrupt = name, interrupt
+
+        def merge(self, other):
+            merged.append(other.name)
+            if other.interrupt:  # a Ctrl-C after the first group's merge, before the second's
+                os.kill(os.getpid(), signal.SIGINT)
+
+    record.add(Task(0, 0, 32), {"out": Part("out", False), "h": Part("h", False)})
+    with pytest.raises(KeyboardInterrupt):
+        record.add(Task(0, 32, 32), {"out": Part("out", True), "h": Part("h", False)})
+    assert merged == ["out", "h"]  # both groups merged before the interrupt arrived ...
+    assert [t.start for t in record.done] == [0, 32] and record.rows_done == 64  # ... and the task recorded once
