@@ -97,3 +97,15 @@ def test_the_chart_carries_its_grid_and_draws_at_most_the_panel_limit():
     assert chart.shape == (2, 3) and chart.svg.count("<image") == MAX_PANELS + 1  # and the colour bar's
     assert ">p0<" in chart.svg and f">p{MAX_PANELS - 1}<" in chart.svg and f">p{MAX_PANELS}<" not in chart.svg
     assert heatmap_chart([], layout, "h", title="t", caption="c") is None
+
+
+def test_a_grouped_run_paints_every_input_with_its_group_index():
+    """Indices measured per group (patches of an image): each pixel of a patch shows that patch's index."""
+    names = [f"p{i}" for i in range(4)]
+    groups = [{"name": "left", "inputs": ["p0", "p2"]}, {"name": "right", "inputs": ["p1", "p3"]}]
+    out = OutputResult("y", est(1.0, 0.1), est(1.2, 0.1), est(2.0, 0.1),
+                       [FeatureEstimate("left", est(0.7, 0.1)), FeatureEstimate("right", est(0.4, 0.1))])  # fmt: skip
+    (panel,) = output_panels([out], names, groups)
+    assert panel.values == (0.7, 0.4, 0.7, 0.4)
+    (plain,) = output_panels([out], names)  # without the groups nothing matches an input: no value
+    assert all(np.isnan(v) for v in plain.values)

@@ -48,6 +48,7 @@ _GRID_CAPTION = (
     "(estimates below 0, noise around a negligible index, take the colour of 0)."
 )
 _SHARED = " Every panel has the same colour scale."
+_GROUPED = " Indices were measured per group of inputs: every input shows its group's total index."
 _OVERALL_CAPTION = (
     " Each output's indices are weighted by its variance: the share of the outputs' summed variance that "
     "involves the input."
@@ -61,16 +62,19 @@ def _audit_charts(result: Any, prefix: str, wanted: Any) -> list[Chart]:
 
     names = [str(i.get("name", k)) for k, i in enumerate(result.inputs)]
     charts: list[Chart | None] = []
-    panels = output_panels(result.outputs, names)
+    groups = list(getattr(result, "groups", None) or [])
+    panels = output_panels(result.outputs, names, groups)
     for k, layout in enumerate(input_layouts(result.model, names) if wanted(SECTION_TITLES["outputs"]) else []):
         section = SECTION_TITLES["outputs"]
         if len(panels) > 1:
             title = _grid_title(layout.name, layout.grid, layout.summed, "for all outputs together")
+            caption = _GRID_CAPTION + (_GROUPED if groups else "") + _OVERALL_CAPTION
             charts.append(heatmap_chart([overall_panel(panels)], layout, f"{prefix}all{k}", title=title,
-                                        caption=_GRID_CAPTION + _OVERALL_CAPTION, section=section))
+                                        caption=caption, section=section))
         title = _grid_title(layout.name, layout.grid, layout.summed, "per output" if len(panels) > 1 else "")
+        caption = _GRID_CAPTION + (_GROUPED if groups else "") + _SHARED
         charts.append(heatmap_chart(panels, layout, f"{prefix}grid{k}", title=title.rstrip(", "),
-                                    caption=_GRID_CAPTION + _SHARED, section=section))
+                                    caption=caption, section=section))
         for j, layer in enumerate(x for x in result.layers if any(u.total_index for u in x.units)):
             if j >= MAX_CHARTED or not wanted(UNIT_TITLE.format(name=layer.name)):
                 continue

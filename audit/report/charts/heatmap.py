@@ -155,15 +155,25 @@ def grid_values(values: Sequence[float], layout: Layout) -> np.ndarray:
     return picked.reshape(layout.grid)
 
 
-def _totals(indices: Sequence[FeatureEstimate], names: Sequence[str]) -> tuple[float, ...]:
+def _totals(
+    indices: Sequence[FeatureEstimate], names: Sequence[str], member_of: Mapping[str, str] | None = None
+) -> tuple[float, ...]:
     by = {f.feature: f.value.estimate for f in indices}
-    return tuple(float(by.get(n, math.nan)) for n in names)
+    member_of = member_of or {}
+    return tuple(float(by.get(member_of.get(n, n), math.nan)) for n in names)
 
 
-def output_panels(outputs: Sequence[OutputResult], names: Sequence[str]) -> list[Panel]:
-    """A panel per output with total indices (inert outputs and exact functions of others left out)."""
+def output_panels(
+    outputs: Sequence[OutputResult], names: Sequence[str], groups: Sequence[Mapping[str, Any]] = ()
+) -> list[Panel]:
+    """A panel per output with total indices (inert outputs and exact functions of others left out).
+
+    With ``groups`` (a grouped run: each group's ``name`` and ``inputs``), every input
+    takes the total index of its group.
+    """
+    member_of = {str(x): str(g["name"]) for g in groups for x in g.get("inputs", [])}
     return [
-        Panel(o.name, _totals(o.total_index, names), o.variance.estimate)
+        Panel(o.name, _totals(o.total_index, names, member_of), o.variance.estimate)
         for o in outputs
         if o.total_index and not (o.inert or o.relation) and o.mean_dimension is not None
     ]
