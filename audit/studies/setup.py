@@ -42,6 +42,7 @@ __all__ = [
     "inputs_spec",
     "model_identity",
     "prepare",
+    "probe_rate",
     "resolve_model",
     "select_layers",
     "value_eps",
@@ -269,14 +270,9 @@ def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | Non
 UNTIMED_EVALUATIONS = 10_000_000
 
 
-def check_time(job: engine.Job, evaluations: int, budget: float | None, block: int | None = None) -> None:
-    """Refuse, before any work, a run whose estimated time exceeds ``budget`` seconds.
-
-    The rate comes from timing one small task of ``job`` (the second of two, so that a
-    runtime's first-call cost does not count); ``evaluations`` is the whole run's.
-    """
-    if budget is None or evaluations <= UNTIMED_EVALUATIONS:
-        return
+def probe_rate(job: engine.Job, block: int | None = None) -> float:
+    """Model evaluations a second, timed on one small task of ``job`` (the second of two, so
+    that a runtime's first-call cost does not count)."""
     import time
 
     per = job.estimator.rows_per_point() * job.cost
@@ -287,7 +283,20 @@ def check_time(job: engine.Job, evaluations: int, budget: float | None, block: i
         t0 = time.perf_counter()
         engine.run_task(job, engine.Task(0, 0, n))
         seconds = time.perf_counter() - t0
-    rate = n * per / max(seconds, 1e-9)
+    return n * per / max(seconds, 1e-9)
+
+
+def check_time(
+    job: engine.Job, evaluations: int, budget: float | None, block: int | None = None, rate: float | None = None
+) -> None:
+    """Refuse, before any work, a run whose estimated time exceeds ``budget`` seconds.
+
+    The rate (evaluations a second) is ``rate`` when given, else :func:`probe_rate` of
+    ``job``; ``evaluations`` is the whole run's.
+    """
+    if budget is None or evaluations <= UNTIMED_EVALUATIONS:
+        return
+    rate = probe_rate(job, block) if rate is None else rate
     need = evaluations / rate
     if need > budget:
         raise UserError(
