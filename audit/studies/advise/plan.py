@@ -219,7 +219,6 @@ def fit_plan(plan: AdvicePlan, max_evaluations: int | None) -> AdvicePlan:
             "or `replicates`, or run one part alone with `only`."
         )
     p.cuts += cuts
-    p.notices = [*p.notices, f"Cut to fit {limit:,} evaluations (`max_evaluations`): {'; '.join(cuts)}."]
     return p
 
 

@@ -150,10 +150,9 @@ def execute_advice(
                     "used. The model is probably not smooth in that input."
                 )
         if over:
-            cuts.append(f"not integrated out, over the evaluation budget after the node check: {', '.join(over)}")
-            notices.append(
-                f"Over the evaluation budget of {limit:,} (`max_evaluations`), these inputs were not "
-                f"integrated out after their node check asked for more nodes than planned: {', '.join(over)}."
+            cuts.append(
+                "not integrated out, their node check asking for more nodes than planned and the audit "
+                f"no longer fitting the budget: {', '.join(over)}"
             )
         candidates: dict[int, list[Candidate]] = {}
         for k in live:
