@@ -93,8 +93,8 @@ class PhaseLog:
     >>> log = PhaseLog(lines.append, 100)
     >>> log.start("audit", 100)
     >>> log.end("audit", 100)
-    >>> [line.split(":")[1].strip()[:14] for line in lines]
-    ['audit started', 'audit finished']
+    >>> [line.split(",")[0] for line in lines]
+    ['netdim advise: audit started', 'netdim advise: audit finished']
     """
 
     def __init__(self, write: Callable[[str], None], total: int) -> None:
