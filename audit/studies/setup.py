@@ -270,13 +270,14 @@ def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | Non
 UNTIMED_EVALUATIONS = 10_000_000
 
 
-def probe_rate(job: engine.Job, block: int | None = None) -> float:
-    """Model evaluations a second, timed on one small task of ``job`` (the second of two, so
-    that a runtime's first-call cost does not count)."""
+def probe_rate(job: engine.Job, block: int | None = None, evaluations: int = 4096) -> float:
+    """Model evaluations a second, timed on one task of ``job`` of at most ``evaluations``
+    evaluations and ``block`` points (the second of two, so that a runtime's first-call cost
+    does not count)."""
     import time
 
     per = job.estimator.rows_per_point() * job.cost
-    n = max(1, min(job.design.points, block or job.design.points, 4096 // per))
+    n = max(1, min(job.design.points, block or job.design.points, evaluations // per))
     n = 1 << (n.bit_length() - 1)  # a power of two, as scrambled Sobol' points like
     seconds = 0.0
     for _ in range(2):

@@ -63,6 +63,10 @@ ADVICE_SETTINGS = (
 )
 
 
+#: Evaluations of the timed first block behind the plan's time estimate (about 0.1 s for most models).
+PROBE_EVALUATIONS = 1 << 16
+
+
 def _no_line(line: str) -> None:
     return None
 
@@ -97,8 +101,8 @@ def execute_advice(
     s = plan.setup
     first = s.job("audit")
     rate = None
-    if log is not None:
-        rate = probe_rate(first, s.block)
+    if log is not None:  # a first block of real size: tiny tasks understate the rate of wide models
+        rate = probe_rate(first, s.block, PROBE_EVALUATIONS)
         for line in plan_lines(plan, rate):
             log(line)
     check_time(first, plan.evaluations, run.time_budget, s.block, rate=rate)
