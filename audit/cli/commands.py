@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import UserError
+from .advise import budget_settings, stderr_lines
 from .fromdata import cmd_inputs_from_data
 from .html import check_html_target, write_html
 from .output import check_report_target, console, print_result, progress, save_report
@@ -291,9 +292,10 @@ def cmd_advise(args: argparse.Namespace) -> int:
         memory_limit=_memory_limit(args),
         outputs=_outputs(args),
         **options,
+        **budget_settings(args),
     )
     with progress(args, plan.evaluations) as bar:
-        result = execute_advice(plan, _run(args, bar))
+        result = execute_advice(plan, _run(args, bar), **stderr_lines(args, bar.drawing))
     _finish(result, args)
     return EXIT_OK
 

@@ -89,6 +89,8 @@ FLAGS = {
     "gradient_points": "--gradient-points",
     "screen": "--screen",
     "indices": "--no-indices",
+    "only": "--only",
+    "max_evaluations": "--max-evaluations",
 }
 
 
@@ -254,6 +256,11 @@ class _Bar:
 
     def advance(self, n: int, phase: str) -> None:
         self._bar.advance(n, phase=phase)
+
+    @property
+    def drawing(self) -> bool:
+        """Whether the bar draws (standard error is a terminal and the run is not quiet)."""
+        return self._bar.enabled
 
 
 def progress(args: argparse.Namespace, total: int) -> _Bar:

@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 
 from ..version import __version__
-from . import fromdata
+from . import advise, fromdata
 from .html import add_html_option
 
 __all__ = ["build_parser"]
@@ -245,6 +245,7 @@ def _advise(sub: argparse._SubParsersAction) -> None:
         metavar="N,N,...",
         help="point counts for the measured RQMC gain (default 256,...,16384; empty to skip)",
     )
+    advise.add_budget_options(ad)
     _running(ad)
     _model_loading(ad)
     _output(ad, all_outputs=False)

@@ -111,8 +111,14 @@ class AdviceResult(Displayable):
     outputs : list of OutputAdvice
     settings : dict
         ``top``, ``nodes``, ``tolerance``, ``node_cap``, ``pilot``,
-        ``freeze_threshold``, ``freeze_budget``, ``gain_points``.
+        ``freeze_threshold``, ``freeze_budget``, ``gain_points``, ``only``, ``max_evaluations``.
     notices : list of str
+    skipped : dict
+        Parts of the advice that were not done (``"pre-integration"``, ``"rqmc gain"``,
+        ``"freezing"``), each with the reason; their lists in ``outputs`` are empty, not measured.
+    plan : dict
+        The plan made before the run: ``evaluations`` per phase and in ``total`` (an estimate),
+        ``max_evaluations`` (the budget given, or ``None``) and ``cuts`` (what was cut to fit it).
     """
 
     model: dict[str, Any]
@@ -121,6 +127,8 @@ class AdviceResult(Displayable):
     outputs: list[OutputAdvice]
     settings: dict[str, Any] = field(default_factory=dict)
     notices: list[str] = field(default_factory=list)
+    skipped: dict[str, str] = field(default_factory=dict)
+    plan: dict[str, Any] = field(default_factory=dict)
 
     kind = KIND
 
@@ -146,6 +154,8 @@ class AdviceResult(Displayable):
             "settings": dict(self.settings),
             "outputs": [o.to_dict() for o in self.outputs],
             "notices": list(self.notices),
+            "skipped": dict(self.skipped),
+            "plan": dict(self.plan),
         }
 
     @classmethod
@@ -163,4 +173,6 @@ class AdviceResult(Displayable):
             outputs=[OutputAdvice.from_dict(o) for o in d["outputs"]],
             settings=dict(d.get("settings", {})),
             notices=list(d.get("notices", [])),
+            skipped=dict(d.get("skipped", {})),
+            plan=dict(d.get("plan", {})),
         )

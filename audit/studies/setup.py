@@ -40,6 +40,7 @@ __all__ = [
     "inputs_spec",
     "model_identity",
     "prepare",
+    "probe_rate",
     "resolve_model",
     "select_layers",
     "value_eps",
@@ -193,25 +194,34 @@ def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | Non
 UNTIMED_EVALUATIONS = 10_000_000
 
 
-def check_time(job: engine.Job, evaluations: int, budget: float | None, block: int | None = None) -> None:
-    """Refuse, before any work, a run whose estimated time exceeds ``budget`` seconds.
-
-    The rate comes from timing one small task of ``job`` (the second of two, so that a
-    runtime's first-call cost does not count); ``evaluations`` is the whole run's.
-    """
-    if budget is None or evaluations <= UNTIMED_EVALUATIONS:
-        return
+def probe_rate(job: engine.Job, block: int | None = None, evaluations: int = 4096) -> float:
+    """Model evaluations a second, timed on one task of ``job`` of at most ``evaluations``
+    evaluations and ``block`` points (the second of two, so that a runtime's first-call cost
+    does not count)."""
     import time
 
     per = job.estimator.rows_per_point() * job.cost
-    n = max(1, min(job.design.points, block or job.design.points, 4096 // per))
+    n = max(1, min(job.design.points, block or job.design.points, evaluations // per))
     n = 1 << (n.bit_length() - 1)  # a power of two, as scrambled Sobol' points like
     seconds = 0.0
     for _ in range(2):
         t0 = time.perf_counter()
         engine.run_task(job, engine.Task(0, 0, n))
         seconds = time.perf_counter() - t0
-    rate = n * per / max(seconds, 1e-9)
+    return n * per / max(seconds, 1e-9)
+
+
+def check_time(
+    job: engine.Job, evaluations: int, budget: float | None, block: int | None = None, rate: float | None = None
+) -> None:
+    """Refuse, before any work, a run whose estimated time exceeds ``budget`` seconds.
+
+    The rate (evaluations a second) is ``rate`` when given, else :func:`probe_rate` of
+    ``job``; ``evaluations`` is the whole run's.
+    """
+    if budget is None or evaluations <= UNTIMED_EVALUATIONS:
+        return
+    rate = probe_rate(job, block) if rate is None else rate
     need = evaluations / rate
     if need > budget:
         raise UserError(

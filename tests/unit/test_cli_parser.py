@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from audit.cli import commands, fromdata, html, output, simplify
+from audit.cli import advise, commands, fromdata, html, output, simplify
 from audit.cli.parser import build_parser
 from audit.version import __version__
 
@@ -113,7 +113,8 @@ READERS = {
                 output.save_report, commands._design_given, commands._gates, html.write_html],
     "advise": [commands.cmd_advise, commands._spec, commands._open, commands._design, commands._run,
                commands._run_options, commands._memory_limit, commands._outputs, commands._finish,
-               output.print_result, output.save_report, commands._design_given, html.write_html],
+               output.print_result, output.save_report, commands._design_given, advise.budget_settings,
+               advise.stderr_lines, html.write_html],
     "simplify": [commands.cmd_simplify, commands._spec, commands._open, commands._design, commands._run_options,
                  commands._memory_limit, simplify.run_simplify, output.print_result, output.save_report,
                  commands._design_given, html.write_html],

@@ -77,3 +77,48 @@ def test_missing_candidates_freezing_and_groups_are_said_in_notes():
     empty = advice_report(AdviceResult({}, [], {}, []))
     assert empty.sections[-1].blocks == (Paragraph("Nothing to advise under the rules used here."),)
     assert empty.title == "Advice for model"
+
+
+def test_parts_not_done_are_said_once_and_not_shown_as_empty_sections():
+    from dataclasses import replace
+
+    from audit.report import markdown
+    from audit.report.sections.advice import left_out_lines
+
+    base = make_advice()
+    bare = [OutputAdvice(o.audit, freeze=o.freeze, freeze_group=o.freeze_group) for o in base.outputs]
+    skipped = {"pre-integration": "not asked for: only freezing", "rqmc gain": "not asked for: only freezing"}
+    plan = {"evaluations": {}, "total": 10, "max_evaluations": 5000, "cuts": ["RQMC gain left out"]}
+    result = replace(base, outputs=bare, skipped=skipped, plan=plan)
+    report = advice_report(result)
+    assert report.sections[1].title == ADVICE_TITLES["left_out"]
+    assert left_out_lines(result) == [
+        "Pre-integration: not done (not asked for: only freezing).",
+        "RQMC gain: not done (not asked for: only freezing).",
+        "Evaluation budget 5,000: RQMC gain left out.",
+    ]
+    first = report.sections[2]
+    headings = [b.text for b in first.blocks if isinstance(b, Heading)]
+    assert headings == [ADVICE_TITLES["freeze"].format(eps="0.001")]  # no candidates heading, no gain heading
+    assert Note("Pre-integration: not done (not asked for: only freezing).") in first.blocks
+    text = markdown(result)
+    assert (
+        "No candidates" not in text and text.count("Pre-integration: not done") == 1 + 2
+    )  # once up top, per live output
+    frozen = replace(base, skipped={"freezing": "not asked for: only pre-integration"})
+    blocks = advice_report(frozen).sections[2].blocks
+    assert ADVICE_TITLES["freeze"].format(eps="0.001") not in [b.text for b in blocks if isinstance(b, Heading)]
+    assert Note("Freezing: not done (not asked for: only pre-integration).") in blocks
+    assert [s.title for s in advice_report(base).sections][1] != ADVICE_TITLES[
+        "left_out"
+    ]  # nothing left out: no section
+
+
+def test_a_gain_left_out_by_the_budget_is_noted_under_the_candidates():
+    from dataclasses import replace
+
+    base = make_advice()
+    outs = [replace(o, rqmc_gain=None) for o in base.outputs]
+    result = replace(base, outputs=outs, skipped={"rqmc gain": "left out to fit the evaluation budget"})
+    blocks = advice_report(result).sections[2].blocks
+    assert Note("RQMC gain: not measured (left out to fit the evaluation budget).") in blocks

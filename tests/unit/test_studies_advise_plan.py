@@ -6,7 +6,7 @@ from advice_cases import phi_ridge
 from audit.errors import UserError
 from audit.models.python import PythonModel
 from audit.studies import prepare_advice
-from audit.studies.advise import ADVICE_SETTINGS, DEFAULT_GAIN_POINTS, FREEZE_BUDGET, FREEZE_THRESHOLD
+from audit.studies.advise import ADVICE_SETTINGS, DEFAULT_GAIN_POINTS, FREEZE_BUDGET, FREEZE_THRESHOLD, fit_plan
 from audit.studies.options import DesignOptions
 
 
@@ -76,3 +76,81 @@ def test_the_cost_estimate_grows_with_what_is_asked_for():
     assert cost(gain_points=()) < base < cost(gain_points=(256, 32768))
     one = prepare_advice(PythonModel(lambda x: x[:, 0], 1, source="one"), "normal", points=256, seed=1)
     assert one.evaluations == one.setup.evaluations  # a single input: the audit alone
+
+
+# ----------------------------------------------------------------------------- parts and budget
+
+RIDGE = PythonModel(phi_ridge, 6, source="ridge")
+
+
+def test_only_chooses_one_part_and_the_plan_costs_only_it():
+    full = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1)
+    freezing = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1, only="freezing")
+    pre = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1, only="pre-integration")
+    assert freezing.skipped.keys() == {"pre-integration", "rqmc gain"} and freezing.candidates == 0
+    assert pre.skipped.keys() == {"freezing"} and pre.candidates == full.candidates == 3
+    f, p, a = freezing.phases, pre.phases, full.phases
+    assert f == {**a, "node_check": 0, "preintegrated": 0, "gain": 0}
+    assert p == {**a, "freeze_check": 0}
+    assert freezing.evaluations + pre.evaluations == full.evaluations + full.setup.evaluations  # the audit twice
+    assert freezing.settings()["only"] == "freezing" and full.settings()["only"] is None
+    with pytest.raises(UserError) as e:
+        prepare_advice(RIDGE, "normal", only="freeze")
+    assert "valid choices: freezing, pre-integration" in e.value.message and "`only`" in e.value.message
+
+
+def test_a_plan_that_fits_its_budget_is_not_cut():
+    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1)
+    fitted = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1, max_evaluations=plan.evaluations)
+    assert fitted.evaluations == plan.evaluations and fitted.cuts == [] and fitted.max_evaluations == plan.evaluations
+    assert fitted.record()["total"] == plan.evaluations and fitted.record()["cuts"] == []
+
+
+def test_the_gain_point_counts_go_first_and_only_as_far_as_needed():
+    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1)
+    r, nodes = 4, plan.nodes
+    # dropping 16384 alone saves 8192 * r * (1 + nodes) evaluations: a budget just below the full plan needs one cut
+    limit = plan.evaluations - 1
+    fitted = fit_plan(plan, limit)
+    assert fitted.gain_points == plan.gain_points[:-1] and fitted.nodes == nodes
+    assert fitted.evaluations == plan.evaluations - (16384 - 8192) * r * (1 + nodes) <= limit
+    kept, given = "256, 512, 1024, 2048, 4096, 8192", "256, 512, 1024, 2048, 4096, 8192, 16384"
+    assert fitted.cuts == [f"RQMC gain point counts cut to {kept} (from {given})"]
+
+
+def test_then_the_nodes_then_the_candidates_then_the_gain():
+    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1)
+    s = plan.setup
+    n, r, d = 256, 4, 6
+    audit, freeze = s.evaluations, n * r * 2
+
+    def pre(cands: int, nodes: int) -> int:  # node checks (pilot, 3m rows a point) and Jansen audits of d - 1 inputs
+        return cands * (plan.pilot * 3 * nodes + n * r * (d + 1) * nodes)
+
+    gain2 = 512 * r  # two gain counts left (256, 512): the model's prefix means at n = 512, per node
+    # nodes halved to the floor (4) with 3 candidates and the two smallest gain counts
+    at_floor = audit + pre(3, 4) + gain2 * (1 + 4) + freeze
+    fitted = fit_plan(plan, at_floor)
+    assert fitted.evaluations == at_floor and fitted.nodes == 4 and fitted.candidates == 3
+    assert fitted.gain_points == (256, 512)
+    one = audit + pre(1, 4) + gain2 * 5 + freeze
+    fitted = fit_plan(plan, one)
+    assert fitted.candidates == 1 and fitted.evaluations == one and not fitted.skipped
+    smallest = audit + pre(1, 4) + freeze
+    fitted = fit_plan(plan, smallest)
+    assert fitted.evaluations == smallest and "rqmc gain" in fitted.skipped
+    assert [c.split(" cut")[0] for c in fitted.cuts] == [
+        "RQMC gain point counts", "starting Gauss nodes", "inputs integrated out", "RQMC gain left out",
+    ]  # fmt: skip
+    assert fitted.notices == plan.notices  # the cuts are in the plan (and the report's "left out"), not notices
+    with pytest.raises(UserError) as e:
+        fit_plan(plan, smallest - 1)
+    assert f"needs about {smallest:,} model evaluations" in e.value.message and "`max_evaluations`" in e.value.message
+
+
+def test_the_smallest_plan_of_one_part_is_that_part_alone():
+    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1, only="freezing")
+    with pytest.raises(UserError, match=f"needs about {plan.evaluations:,} model evaluations"):
+        fit_plan(plan, plan.evaluations - 1)
+    with pytest.raises(UserError, match="`max_evaluations` must be a whole number"):
+        fit_plan(plan, 0)

@@ -81,3 +81,66 @@ def test_both_estimators_are_used_for_every_audit(estimator):
     res = advise_function(_quadratic, "normal", dim=3, estimator=estimator, top=1, **KW)
     assert res.design["estimator"] == estimator
     assert all(o.best is not None and o.best.mean_dimension_after is not None for o in res.outputs)
+
+
+# ----------------------------------------------------------------------------- parts, budget, lines
+
+
+def test_only_freezing_runs_no_pre_integration_and_says_so():
+    res = advise_function(_quadratic, "normal", dim=3, only="freezing", **KW)
+    phases = res.design["evaluations_by_phase"]
+    assert phases["node_check"] == phases["preintegrated"] == phases["gain"] == 0 and phases["freeze_check"] > 0
+    assert all(o.preintegrate == [] and o.rqmc_gain is None for o in res.outputs)
+    assert set(res.skipped) == {"pre-integration", "rqmc gain"} and res.settings["only"] == "freezing"
+    assert res.outputs[1].freeze_group.features == ["x0"]
+    again = type(res).from_dict(res.to_dict())
+    assert again.skipped == res.skipped and again.plan == res.plan
+
+
+def test_only_pre_integration_runs_no_freeze_check():
+    res = advise_function(_quadratic, "normal", dim=3, only="pre-integration", **KW)
+    assert res.design["evaluations_by_phase"]["freeze_check"] == 0 and set(res.skipped) == {"freezing"}
+    assert all(o.freeze == [] and o.freeze_group is None for o in res.outputs)
+    assert all(o.preintegrate and o.rqmc_gain is not None for o in res.outputs)
+
+
+def test_the_budget_holds_when_the_node_check_asks_for_more_nodes_than_planned():
+    from advice_cases import step, step_theta
+
+    f, d = step(step_theta(4)), 4  # a step: no Gauss rule settles, the node check goes to its cap
+    full = advise_function(f, "normal", dim=d, points=128, replicates=4, seed=5, gain_points=(64, 128))
+    limit = full.design["evaluations"] // 4
+    res = advise_function(f, "normal", dim=d, points=128, replicates=4, seed=5, gain_points=(64, 128),
+                          max_evaluations=limit)  # fmt: skip
+    assert res.design["evaluations"] <= limit < full.design["evaluations"]
+    assert res.plan["max_evaluations"] == limit and res.plan["total"] <= limit
+    assert any(c.startswith("not integrated out, their node check asking for more") for c in res.plan["cuts"])
+    kept = {c.feature for o in res.outputs for c in o.preintegrate}
+    assert kept < {c.feature for o in full.outputs for c in o.preintegrate}
+
+
+def test_the_time_budget_is_checked_against_the_whole_plan(monkeypatch):
+    import audit.studies.setup as setup
+    from audit.errors import UserError
+    from audit.studies import prepare_advice
+
+    monkeypatch.setattr(setup, "UNTIMED_EVALUATIONS", 0)
+    model = PythonModel(_quadratic, 3, source="quadratic")
+    plan = prepare_advice(model, "normal", **KW)
+    assert plan.evaluations > 2 * plan.setup.evaluations
+    with pytest.raises(UserError) as e:
+        advise_model(model, "normal", time_budget=1e-9, **KW)
+    assert f"({plan.evaluations:,} model evaluations at about" in e.value.message
+
+
+def test_the_plan_and_phase_lines_go_to_the_callables_given():
+    from audit.studies import execute_advice, prepare_advice
+
+    plan = prepare_advice(PythonModel(_quadratic, 3, source="quadratic"), "normal", **KW)
+    said, phases = [], []
+    res = execute_advice(plan, log=said.append, phase_lines=phases.append)
+    assert said[0].startswith("netdim advise plan: 3 inputs") and "an estimate" in said[-1]
+    started = [line for line in phases if " started, " in line]
+    finished = [line for line in phases if " finished, " in line]
+    assert len(started) == len(finished) == 2 + len(set(c.feature for o in res.outputs for c in o.preintegrate)) + 1
+    assert f"({res.design['evaluations']:,} of {plan.evaluations:,} planned done" in finished[-1]

@@ -1,6 +1,7 @@
 """The content of an advise report, as a :class:`~audit.report.document.Report`.
 
-Sections: model and run; per output the audit line, the pre-integration
+Sections: model and run; what the run left out (a part not asked for, a cut to
+fit the evaluation budget), when anything was; per output the audit line, the pre-integration
 candidates (ν before → after, the variance check Var f̃ = σ² − τ̄²_ℓ), the
 measured RQMC gain and the inputs that can be frozen; findings in plain
 words (:mod:`audit.report.findings.advice`). Text meant for the terminal
@@ -27,6 +28,7 @@ __all__ = [
     "gain_lines",
     "gain_table",
     "group_line",
+    "left_out_lines",
     "nodes_line",
     "nu_line",
     "output_section",
@@ -38,7 +40,22 @@ ADVICE_TITLES = {
     "gain": "RQMC gain with {feature} integrated out",
     "freeze": "Inputs to freeze (total index below {eps} at the interval's upper end)",
     "findings": SECTION_TITLES["findings"],
+    "left_out": "Left out of this run",
 }
+
+#: The parts an advise run can leave out (keys of ``AdviceResult.skipped``) as a report names them.
+PART_NAMES = {"pre-integration": "Pre-integration", "rqmc gain": "RQMC gain", "freezing": "Freezing"}
+
+
+def left_out_lines(result: AdviceResult) -> list[str]:
+    """What the run did not do, and what it cut to fit its evaluation budget, one sentence each."""
+    lines = [f"{PART_NAMES.get(part, part)}: not done ({why})." for part, why in result.skipped.items()]
+    plan = result.plan or {}
+    if plan.get("max_evaluations") is not None:
+        cuts = plan.get("cuts") or []
+        what = "; ".join(cuts) if cuts else "nothing was cut"
+        lines.append(f"Evaluation budget {fmt_count(plan['max_evaluations'])}: {what}.")
+    return lines
 
 
 def candidates_table(output: OutputAdvice, marks: Marks | None = None) -> Table:
@@ -155,14 +172,31 @@ def group_line(group: FreezeGroup) -> str:
     )
 
 
-def output_section(output: OutputAdvice, freeze_threshold: float, unit: str = "") -> Section:
-    """Everything advised for one output (``unit``: the output's unit, for its mean and variance)."""
+def output_section(
+    output: OutputAdvice, freeze_threshold: float, unit: str = "", skipped: dict[str, str] | None = None
+) -> Section:
+    """Everything advised for one output (``unit``: the output's unit, for its mean and variance); parts in
+    ``skipped`` (part → reason) get one note, not a section."""
+    skipped = skipped or {}
     blocks: list[Block] = [Paragraph(describe_output(output.audit, unit))]
     title = ADVICE_TITLES["output"].format(name=output.name)
     if output.audit.inert or output.audit.mean_dimension is None:
         return Section(title, tuple(blocks))
-    blocks.append(Heading(ADVICE_TITLES["candidates"]))
     marks = Marks()
+    if "pre-integration" in skipped:
+        blocks.append(Note(f"Pre-integration: not done ({skipped['pre-integration']})."))
+    else:
+        blocks += _candidates_blocks(output, skipped, marks)
+    if "freezing" in skipped:
+        blocks.append(Note(f"Freezing: not done ({skipped['freezing']})."))
+    else:
+        blocks += _freeze_blocks(output, freeze_threshold, marks)
+    note = marks.note()
+    return Section(title, (*blocks, note) if note else tuple(blocks))
+
+
+def _candidates_blocks(output: OutputAdvice, skipped: dict[str, str], marks: Marks) -> list[Block]:
+    blocks: list[Block] = [Heading(ADVICE_TITLES["candidates"])]
     if output.preintegrate:
         blocks += [candidates_table(output, marks), Paragraph(nu_line(output)), Note(nodes_line(output))]
     else:
@@ -171,7 +205,13 @@ def output_section(output: OutputAdvice, freeze_threshold: float, unit: str = ""
     if gain is not None:
         blocks += [Heading(ADVICE_TITLES["gain"].format(feature=gain.feature)), gain_table(gain)]
         blocks += [Paragraph(line) for line in gain_lines(gain)]
-    blocks.append(Heading(ADVICE_TITLES["freeze"].format(eps=fmt_setting(freeze_threshold))))
+    elif output.preintegrate and "rqmc gain" in skipped:
+        blocks.append(Note(f"RQMC gain: not measured ({skipped['rqmc gain']})."))
+    return blocks
+
+
+def _freeze_blocks(output: OutputAdvice, freeze_threshold: float, marks: Marks) -> list[Block]:
+    blocks: list[Block] = [Heading(ADVICE_TITLES["freeze"].format(eps=fmt_setting(freeze_threshold)))]
     if not output.freeze:
         blocks.append(Note("None: every input matters at this threshold."))
     else:
@@ -180,8 +220,7 @@ def output_section(output: OutputAdvice, freeze_threshold: float, unit: str = ""
             blocks.append(Paragraph(group_line(output.freeze_group)))
         else:
             blocks.append(Note("None fits the error budget on its own; nothing is grouped."))
-    note = marks.note()
-    return Section(title, (*blocks, note) if note else tuple(blocks))
+    return blocks
 
 
 def advice_report(result: AdviceResult) -> Report:
@@ -199,9 +238,12 @@ def advice_report(result: AdviceResult) -> Report:
         section per output (:func:`output_section`) and the findings.
     """
     sections = [Section(SECTION_TITLES["header"], (Fields(tuple(describe_run(result))),))]
+    left_out = left_out_lines(result)
+    if left_out:
+        sections.append(Section(ADVICE_TITLES["left_out"], tuple(Paragraph(line) for line in left_out)))
     eps = result.settings.get("freeze_threshold", math.nan)
     units = output_units(result)
-    sections += [output_section(o, eps, units.get(o.name, "")) for o in result.outputs]
+    sections += [output_section(o, eps, units.get(o.name, ""), result.skipped) for o in result.outputs]
     found = derive_advice_findings(result)
     empty = "Nothing to advise under the rules used here."
     sections.append(Section(ADVICE_TITLES["findings"], (findings_block(found, empty),)))

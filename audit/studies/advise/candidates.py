@@ -28,7 +28,7 @@ from ..setup import OUTPUTS, prepare
 from ..summarize import GroupStats, estimate, output_results
 from .plan import AdvicePlan
 
-__all__ = ["Integrated", "candidate", "choose_candidates", "integrate", "rank_key"]
+__all__ = ["Integrated", "candidate", "choose_candidates", "integrate", "node_check", "rank_key"]
 
 
 @dataclass
@@ -71,11 +71,9 @@ def choose_candidates(plan: AdvicePlan, audits: list[OutputResult], live: list[i
     return tops, union, notices
 
 
-def integrate(plan: AdvicePlan, index: int, scale: np.ndarray, session: Session) -> Integrated:
-    """Choose the Gauss rule for input ``index`` and audit the pre-integrated model (one engine job)."""
+def node_check(plan: AdvicePlan, index: int, scale: np.ndarray, session: Session) -> NodeCheck:
+    """Choose the Gauss rule for integrating input ``index`` out, on the pilot points."""
     s = plan.setup
-    seed = s.design.seed
-    name = s.names[index]
     check = choose_nodes(
         s.model,
         s.laws,
@@ -85,11 +83,24 @@ def integrate(plan: AdvicePlan, index: int, scale: np.ndarray, session: Session)
         cap=plan.node_cap,
         floor=plan.node_floor,
         pilot=plan.pilot,
-        seed=child_seed(seed, PILOT, index),
+        seed=child_seed(s.design.seed, PILOT, index),
         scale=scale,
     )
     if session.options.progress is not None:
-        session.options.progress(check.evaluations, f"pre-integrating {name}: node check")
+        session.options.progress(check.evaluations, f"pre-integrating {s.names[index]}: node check")
+    return check
+
+
+def integrate(
+    plan: AdvicePlan, index: int, scale: np.ndarray, session: Session, check: NodeCheck | None = None
+) -> Integrated:
+    """Audit the model with input ``index`` integrated out (one engine job), after its node check
+    (:func:`node_check`, run here unless given)."""
+    s = plan.setup
+    seed = s.design.seed
+    name = s.names[index]
+    if check is None:
+        check = node_check(plan, index, scale, session)
     pm = PreIntegratedModel(s.model, s.laws, index, check.nodes, feature_names=s.names)
     names = [n for j, n in enumerate(s.names) if j != index]
     laws = [law for j, law in enumerate(s.laws) if j != index]

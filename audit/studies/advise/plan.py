@@ -1,12 +1,21 @@
-"""Plan an advise run: settings checked and the cost estimated before any evaluation."""
+"""Plan an advise run: settings checked and the cost estimated before any evaluation.
+
+The plan holds the parts to run (``only``: freezing or pre-integration alone) and,
+with ``max_evaluations``, is cut to fit that budget (:func:`fit_plan`): first the
+largest RQMC gain point counts (down to two), then the starting Gauss nodes (down
+to ``node_floor``), then the candidates integrated out (down to one), then the
+gain altogether; a budget that even the smallest plan exceeds is refused. While the
+run goes, a candidate whose node check asks for more nodes than planned is left
+out when its audit would no longer fit (:func:`~audit.studies.advise.run.execute_advice`).
+"""
 
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
-from ...errors import UserError, check_int, check_number
+from ...errors import UserError, check_choice, check_int, check_number
 from ...estimators import make_estimator
 from ...inputs import InputSpec, Law
 from ...models.base import Model
@@ -14,7 +23,15 @@ from ...quadrature import MAX_NODES
 from ..options import DesignOptions
 from ..setup import Setup, prepare
 
-__all__ = ["DEFAULT_GAIN_POINTS", "FREEZE_BUDGET", "FREEZE_THRESHOLD", "AdvicePlan", "prepare_advice"]
+__all__ = [
+    "DEFAULT_GAIN_POINTS",
+    "FREEZE_BUDGET",
+    "FREEZE_THRESHOLD",
+    "PARTS",
+    "AdvicePlan",
+    "fit_plan",
+    "prepare_advice",
+]
 
 #: Point counts n of the RQMC gain measurement (prefixes of one sequence per randomization).
 DEFAULT_GAIN_POINTS = tuple(2**p for p in range(8, 15))
@@ -22,6 +39,18 @@ DEFAULT_GAIN_POINTS = tuple(2**p for p in range(8, 15))
 FREEZE_THRESHOLD = 1e-3
 #: Largest bound 2 Σ τ̄²_j / σ² (upper interval end) on the mean squared error of a frozen group.
 FREEZE_BUDGET = 0.01
+#: The parts of the advice that ``only`` can choose.
+PARTS = ("freezing", "pre-integration")
+#: Phases of an advise run, in the order they run (keys of ``AdvicePlan.phases``).
+PHASES = ("audit", "node_check", "preintegrated", "gain", "freeze_check")
+#: How each phase is named in the printed plan, phase lines and messages.
+PHASE_LABELS = {
+    "audit": "audit",
+    "node_check": "node checks",
+    "preintegrated": "pre-integrated audits",
+    "gain": "RQMC gain",
+    "freeze_check": "freeze check",
+}
 
 
 @dataclass
@@ -29,8 +58,10 @@ class AdvicePlan:
     """A prepared advise run: the audit's :class:`~audit.studies.setup.Setup` and the advice settings.
 
     ``evaluations`` is an estimate made before any run (it assumes ``nodes``
-    Gauss nodes, ``min(top, d)`` candidates, one best candidate and one freeze
-    group; the pilot check may halve or double the nodes).
+    Gauss nodes, :attr:`candidates` inputs integrated out, one best candidate and
+    one freeze group; the pilot check may halve or double the nodes). ``only`` names the one
+    part to run (``None``: both); ``cuts`` says what was cut to fit ``max_evaluations``
+    and ``skipped`` which parts are not done, with the reason.
     """
 
     setup: Setup
@@ -45,18 +76,52 @@ class AdvicePlan:
     freeze_budget: float
     gain_points: tuple[int, ...]
     notices: list[str] = field(default_factory=list)
+    only: str | None = None
+    max_evaluations: int | None = None
+    cuts: list[str] = field(default_factory=list)
+    skipped: dict[str, str] = field(default_factory=dict)
+
+    def does(self, part: str) -> bool:
+        """Whether ``part`` (one of :data:`PARTS`) is run."""
+        return part not in self.skipped
+
+    @property
+    def candidates(self) -> int:
+        """Inputs the plan integrates out, at most (0 when pre-integration is not done): ``top`` per
+        output, distinct across the outputs, capped by ``max_candidates`` and d."""
+        s = self.setup
+        d, outputs = s.design.d, max(1, len(s.output_names))
+        if d < 2 or not self.does("pre-integration"):
+            return 0
+        return min(self.top * outputs, d, self.max_candidates)
+
+    def preintegrated_cost(self, nodes: int) -> int:
+        """Evaluations of one pre-integrated audit with ``nodes`` Gauss nodes."""
+        s = self.setup
+        d, n, r = s.design.d, s.design.points, s.design.replicates
+        return n * r * make_estimator(s.estimator.name, d=d - 1, points=n).rows_per_point() * nodes
+
+    @property
+    def phases(self) -> dict[str, int]:
+        """Planned evaluations per phase (:data:`PHASES`), an estimate."""
+        s = self.setup
+        n, r = s.design.points, s.design.replicates
+        out = dict.fromkeys(PHASES, 0)
+        out["audit"] = s.evaluations
+        if s.design.d < 2:
+            return out
+        cands = self.candidates
+        out["node_check"] = cands * self.pilot * 3 * self.nodes
+        out["preintegrated"] = cands * self.preintegrated_cost(self.nodes)
+        if cands and self.does("rqmc gain"):
+            out["gain"] = max(self.gain_points, default=0) * r * (1 + self.nodes)
+        if self.does("freezing"):
+            out["freeze_check"] = n * r * 2
+        return out
 
     @property
     def evaluations(self) -> int:
-        s = self.setup
-        d, n, r = s.design.d, s.design.points, s.design.replicates
-        if d < 2:
-            return s.evaluations
-        per = make_estimator(s.estimator.name, d=d - 1, points=n).rows_per_point()
-        cands = min(self.top, d, self.max_candidates)
-        pilot = self.pilot * 3 * self.nodes
-        gain = max(self.gain_points, default=0) * r * (1 + self.nodes)
-        return s.evaluations + cands * (pilot + n * r * per * self.nodes) + gain + n * r * 2
+        return sum(self.phases.values())
 
     def settings(self) -> dict[str, Any]:
         return {
@@ -70,7 +135,91 @@ class AdvicePlan:
             "freeze_threshold": self.freeze_threshold,
             "freeze_budget": self.freeze_budget,
             "gain_points": list(self.gain_points),
+            "only": self.only,
+            "max_evaluations": self.max_evaluations,
         }
+
+    def record(self) -> dict[str, Any]:
+        """The plan as the result keeps it: evaluations per phase and in total, the budget and the cuts."""
+        return {
+            "evaluations": self.phases,
+            "total": self.evaluations,
+            "max_evaluations": self.max_evaluations,
+            "cuts": list(self.cuts),
+        }
+
+
+def _listed(values: Sequence[int]) -> str:
+    return ", ".join(map(str, values))
+
+
+def fit_plan(plan: AdvicePlan, max_evaluations: int | None) -> AdvicePlan:
+    """The plan cut to at most ``max_evaluations`` planned evaluations (unchanged when it fits or ``None``).
+
+    Cuts, each only as far as needed, in this order: the largest RQMC gain point
+    counts (two stay), the starting Gauss nodes (halved, not below ``node_floor``;
+    the node check still doubles them when the tolerance needs it, and the run then
+    leaves out a candidate that no longer fits), the number of inputs integrated out
+    (one stays), and last the RQMC gain itself.
+
+    Parameters
+    ----------
+    plan : AdvicePlan
+    max_evaluations : int or None
+        The evaluation budget.
+
+    Returns
+    -------
+    AdvicePlan
+        With ``max_evaluations`` set, and ``cuts`` (and ``skipped``) saying what was cut.
+
+    Raises
+    ------
+    UserError
+        When even the smallest plan needs more, stating its cost.
+
+    Examples
+    --------
+    >>> from audit.models.python import PythonModel
+    >>> plan = prepare_advice(PythonModel(lambda x: x.sum(axis=1), 4, source="sum"), "normal", seed=1)
+    >>> fitted = fit_plan(plan, plan.evaluations // 2)
+    >>> fitted.evaluations <= plan.evaluations // 2, bool(fitted.cuts)
+    (True, True)
+    """
+    if max_evaluations is None:
+        return plan
+    limit = check_int(max_evaluations, "max_evaluations", 1)
+    p = replace(plan, max_evaluations=limit, cuts=list(plan.cuts), skipped=dict(plan.skipped))
+    if p.evaluations <= limit:
+        return p
+    cuts: list[str] = []
+    gains = p.gain_points
+    while p.evaluations > limit and len(p.gain_points) > 2 and p.phases["gain"]:
+        p = replace(p, gain_points=p.gain_points[:-1])
+    if p.gain_points != gains:
+        cuts.append(f"RQMC gain point counts cut to {_listed(p.gain_points)} (from {_listed(gains)})")
+    nodes = p.nodes
+    while p.evaluations > limit and p.candidates and p.nodes // 2 >= max(1, p.node_floor):
+        p = replace(p, nodes=p.nodes // 2)
+    if p.nodes != nodes:
+        cuts.append(f"starting Gauss nodes cut to {p.nodes} (from {nodes}; the node check may still raise them)")
+    count = p.candidates
+    while p.evaluations > limit and p.candidates > 1:
+        p = replace(p, max_candidates=p.candidates - 1)
+    if p.candidates != count:
+        cuts.append(f"inputs integrated out cut to {p.candidates} (from {count})")
+    if p.evaluations > limit and p.phases["gain"]:
+        p = replace(p, skipped={**p.skipped, "rqmc gain": "left out to fit the evaluation budget"})
+        cuts.append("RQMC gain left out")
+    if p.evaluations > limit:
+        parts = ", ".join(f"{PHASE_LABELS[k]} {v:,}" for k, v in p.phases.items() if v)
+        raise UserError(
+            f"Even the smallest advise plan needs about {p.evaluations:,} model evaluations ({parts}), more "
+            f"than the budget of {limit:,} (`max_evaluations`). Raise `max_evaluations`, use fewer `points` "
+            "or `replicates`, or run one part alone with `only`."
+        )
+    p.cuts += cuts
+    return p
 
 
 def _gain_points(points: Sequence[int]) -> tuple[int, ...]:
@@ -106,6 +255,8 @@ def prepare_advice(
     block: int | None = None,
     memory_limit: int | None = None,
     outputs: Sequence[str] | None = None,
+    only: str | None = None,
+    max_evaluations: int | None = None,
     **design_options: Any,
 ) -> AdvicePlan:
     """Resolve and check everything an advise run needs, before any evaluation.
@@ -146,6 +297,10 @@ def prepare_advice(
         Points per task and the memory the run may use (bytes).
     outputs : list of str, optional
         Output units or tensors to advise on (default: the spec's ``[outputs] keep``, else all).
+    only : {"freezing", "pre-integration"}, optional
+        Run this part of the advice alone (default both); the result says what was not done.
+    max_evaluations : int, optional
+        Evaluation budget: the plan is cut to fit it (:func:`fit_plan`, which says how).
 
     Returns
     -------
@@ -172,6 +327,8 @@ def prepare_advice(
     eps = check_number(freeze_threshold, "freeze_threshold", 0.0, 1.0, low_open=True)
     budget = check_number(freeze_budget, "freeze_budget", 0.0, 2.0, low_open=True)
     gains = _gain_points(gain_points)
+    if only is not None:
+        check_choice(only, "only", PARTS)
     if design.view not in (None, "inputs"):
         raise UserError(
             f"Advice integrates out and freezes single inputs, so it runs over inputs only; `view` {design.view} "
@@ -196,4 +353,15 @@ def prepare_advice(
     notices = list(setup.notices)
     if setup.design.d < 2:
         notices.append("The model has a single input: there is nothing to pre-integrate against.")
-    return AdvicePlan(setup, plan_top, cands, plan_nodes, tol, cap, floor, plan_pilot, eps, budget, gains, notices)
+    skipped: dict[str, str] = {}
+    if only is not None:
+        skipped = {part: f"not asked for: only {only}" for part in PARTS if part != only}
+        if only == "freezing":
+            skipped["rqmc gain"] = skipped["pre-integration"]
+    if not gains and only != "freezing":
+        skipped["rqmc gain"] = "no gain point counts given"
+    plan = AdvicePlan(
+        setup, plan_top, cands, plan_nodes, tol, cap, floor, plan_pilot, eps, budget, gains, notices, only=only
+    )
+    plan.skipped = skipped
+    return fit_plan(plan, max_evaluations)

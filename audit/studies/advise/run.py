@@ -36,9 +36,10 @@ from ...results import AdviceResult, Candidate, OutputAdvice, RqmcGain
 from ..audit import function_model
 from ..options import RunOptions, split_options
 from ..session import Session
-from ..setup import OUTPUTS, check_time, inputs_spec, resolve_model
+from ..setup import OUTPUTS, check_time, inputs_spec, probe_rate, resolve_model
 from ..summarize import GroupStats, design_info, inputs_info, model_info, output_results
-from .candidates import Integrated, candidate, choose_candidates, integrate, rank_key
+from .budget import PhaseLog, plan_lines
+from .candidates import Integrated, candidate, choose_candidates, integrate, node_check, rank_key
 from .freeze import freeze
 from .gain import gain, prefix_variances
 from .plan import AdvicePlan, prepare_advice
@@ -57,10 +58,26 @@ ADVICE_SETTINGS = (
     "freeze_threshold",
     "freeze_budget",
     "gain_points",
+    "only",
+    "max_evaluations",
 )
 
 
-def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceResult:
+#: Evaluations of the timed first block behind the plan's time estimate (about 0.1 s for most models).
+PROBE_EVALUATIONS = 1 << 16
+
+
+def _no_line(line: str) -> None:
+    return None
+
+
+def execute_advice(
+    plan: AdvicePlan,
+    run: RunOptions | None = None,
+    *,
+    log: Callable[[str], None] | None = None,
+    phase_lines: Callable[[str], None] | None = None,
+) -> AdviceResult:
     """Run a prepared advise study and build its result.
 
     Parameters
@@ -68,7 +85,13 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
     plan : AdvicePlan
         From :func:`~audit.studies.advise.plan.prepare_advice`.
     run : RunOptions, optional
-        Progress, checkpoint, cluster (see :class:`~audit.studies.options.RunOptions`).
+        Progress, checkpoint, cluster, time budget (see :class:`~audit.studies.options.RunOptions`);
+        the time budget is checked against the whole plan.
+    log : callable, optional
+        Given the plan's lines (:func:`~audit.studies.advise.budget.plan_lines`, with a time
+        estimate timed on the model's first block) before any work.
+    phase_lines : callable, optional
+        Given one line as each phase starts and ends (:class:`~audit.studies.advise.budget.PhaseLog`).
 
     Returns
     -------
@@ -76,25 +99,53 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
     """
     run = run or RunOptions()
     s = plan.setup
-    check_time(s.job("audit"), plan.evaluations, run.time_budget, s.block)
+    first = s.job("audit")
+    rate = None
+    if log is not None:  # a first block of real size: tiny tasks understate the rate of wide models
+        rate = probe_rate(first, s.block, PROBE_EVALUATIONS)
+        for line in plan_lines(plan, rate):
+            log(line)
+    check_time(first, plan.evaluations, run.time_budget, s.block, rate=rate)
     relations = s.find_relations()
     t0 = time.perf_counter()
     phases = {"audit": s.evaluations, "node_check": 0, "preintegrated": 0, "gain": 0, "freeze_check": 0}
     notices = [*plan.notices, *relations]
+    skipped, cuts = dict(plan.skipped), list(plan.cuts)
+    steps = PhaseLog(phase_lines or _no_line, plan.evaluations)
+    limit, reserve = plan.max_evaluations, plan.phases["freeze_check"]
+
+    def fits(cost: int) -> bool:
+        return limit is None or sum(phases.values()) + cost + reserve <= limit
+
     with Session(run) as session:
-        main = GroupStats.of(session.run(s.job("audit"), block=s.block)[OUTPUTS], s.design.ddof, s.eps())
+        steps.start("audit", s.evaluations)
+        main = GroupStats.of(session.run(first, block=s.block)[OUTPUTS], s.design.ddof, s.eps())
+        steps.end("audit", s.evaluations)
         audits = output_results(main, list(s.output_names), s.names, s.redundant)
         live = [k for k, o in enumerate(audits) if not o.inert and o.total_index]
 
-        tops, union, more = choose_candidates(plan, audits, live)
-        notices += more
+        tops: dict[int, list[int]] = {k: [] for k in live}
+        union: list[int] = []
+        if plan.candidates:
+            tops, union, more = choose_candidates(plan, audits, live)
+            notices += more
         scale = np.sqrt(np.maximum(main.var.mean(axis=0), 0.0))
         integrated: dict[int, Integrated] = {}
+        over: list[str] = []
         for j in union:
-            it = integrate(plan, j, scale, session)
+            planned = plan.pilot * 3 * plan.nodes + plan.preintegrated_cost(plan.nodes)
+            steps.start(f"pre-integrating {s.names[j]}", planned)
+            check = node_check(plan, j, scale, session)
+            phases["node_check"] += check.evaluations
+            cost = plan.preintegrated_cost(check.nodes)
+            if not fits(cost):
+                over.append(f"{s.names[j]} ({check.nodes} nodes: {cost:,} evaluations)")
+                steps.end(f"pre-integrating {s.names[j]} (node check only)", check.evaluations)
+                continue
+            it = integrate(plan, j, scale, session, check)
             integrated[j] = it
-            phases["node_check"] += it.check.evaluations
             phases["preintegrated"] += it.evaluations - it.check.evaluations
+            steps.end(f"pre-integrating {s.names[j]}", it.evaluations)
             if not it.check.converged:
                 notices.append(
                     f"Integrating {s.names[j]} out: the {it.check.nodes // 2}- and "
@@ -102,29 +153,51 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
                     f"output sd (tolerance {plan.tolerance:g}); the {it.check.nodes}-node rule was "
                     "used. The model is probably not smooth in that input."
                 )
+        if over:
+            cuts.append(
+                "not integrated out, their node check asking for more nodes than planned and the audit "
+                f"no longer fitting the budget: {', '.join(over)}"
+            )
         candidates: dict[int, list[Candidate]] = {}
         for k in live:
-            cs = [candidate(plan, main, k, audits[k].total_index[j].value, integrated[j]) for j in tops[k]]
+            cs = [
+                candidate(plan, main, k, audits[k].total_index[j].value, integrated[j])
+                for j in tops[k]
+                if j in integrated
+            ]
             candidates[k] = sorted(cs, key=rank_key)
 
         gains: dict[int, RqmcGain] = {}
-        if plan.gain_points and any(candidates.get(k) for k in live):
+        if plan.does("rqmc gain") and any(candidates.get(k) for k in live):
             n_max, reps = max(plan.gain_points), s.design.replicates
-            before = prefix_variances(plan, s.model, s.laws, 1, "RQMC gain of the model", session)
-            phases["gain"] += n_max * reps
-            for feature in dict.fromkeys(candidates[k][0].feature for k in live if candidates.get(k)):
-                j = s.names.index(feature)
-                pm = integrated[j].model
-                laws = [law for i, law in enumerate(s.laws) if i != j]
-                label = f"RQMC gain with {feature} integrated out"
-                after = prefix_variances(plan, pm, laws, pm.cost, label, session)
-                phases["gain"] += n_max * reps * pm.cost
-                for k in live:
-                    if candidates.get(k) and candidates[k][0].feature == feature:
-                        gains[k] = gain(plan, before, after, k, feature, pm.cost)
+            features = list(dict.fromkeys(candidates[k][0].feature for k in live if candidates.get(k)))
+            cost = n_max * reps * (1 + sum(integrated[s.names.index(f)].model.cost for f in features))
+            if fits(cost):
+                steps.start("RQMC gain", cost)
+                before = prefix_variances(plan, s.model, s.laws, 1, "RQMC gain of the model", session)
+                phases["gain"] += n_max * reps
+                for feature in features:
+                    j = s.names.index(feature)
+                    pm = integrated[j].model
+                    laws = [law for i, law in enumerate(s.laws) if i != j]
+                    label = f"RQMC gain with {feature} integrated out"
+                    after = prefix_variances(plan, pm, laws, pm.cost, label, session)
+                    phases["gain"] += n_max * reps * pm.cost
+                    for k in live:
+                        if candidates.get(k) and candidates[k][0].feature == feature:
+                            gains[k] = gain(plan, before, after, k, feature, pm.cost)
+                steps.end("RQMC gain", phases["gain"])
+            else:
+                skipped["rqmc gain"] = f"left out: its {cost:,} evaluations do not fit the evaluation budget"
+                cuts.append("RQMC gain left out")
 
-        items, groups, n_freeze = freeze(plan, audits, main, live, session)
-        phases["freeze_check"] += n_freeze
+        items: dict = {}
+        groups: dict = {}
+        if plan.does("freezing"):
+            steps.start("freeze check", reserve)
+            items, groups, n_freeze = freeze(plan, audits, main, live, session)
+            phases["freeze_check"] += n_freeze
+            steps.end("freeze check", n_freeze)
     notices += session.notices
     outputs = [
         OutputAdvice(
@@ -142,7 +215,10 @@ def execute_advice(plan: AdvicePlan, run: RunOptions | None = None) -> AdviceRes
     )
     design["evaluations"] = int(sum(phases.values()))
     design["evaluations_by_phase"] = phases
-    return AdviceResult(model_info(s), inputs_info(s), design, outputs, plan.settings(), notices)
+    record = {**plan.record(), "cuts": cuts}
+    return AdviceResult(
+        model_info(s), inputs_info(s), design, outputs, plan.settings(), notices, skipped=skipped, plan=record
+    )
 
 
 def advise_model(model: Any, inputs: InputSpec | str | Sequence[Law] | None = None, **options: Any) -> AdviceResult:
@@ -160,7 +236,8 @@ def advise_model(model: Any, inputs: InputSpec | str | Sequence[Law] | None = No
         ``memory_limit``, ``block``) and the settings of
         :func:`~audit.studies.advise.plan.prepare_advice` (``top``, ``nodes``,
         ``tolerance``, ``node_cap``, ``node_floor``, ``pilot``, ``max_candidates``,
-        ``freeze_threshold``, ``freeze_budget``, ``gain_points``, ``outputs``).
+        ``freeze_threshold``, ``freeze_budget``, ``gain_points``, ``outputs``, ``only``:
+        ``"freezing"`` or ``"pre-integration"`` alone, ``max_evaluations``: a budget the plan is cut to).
 
     Returns
     -------
