@@ -192,6 +192,8 @@ def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | Non
 
 #: Below this many evaluations no run is timed against the budget (even at 100 rows a second it ends within a day).
 UNTIMED_EVALUATIONS = 10_000_000
+#: Most evaluations a timing probe of the time check takes (a block of the run's own size).
+LARGEST_PROBE = 1 << 16
 
 
 def probe_rate(job: engine.Job, block: int | None = None, evaluations: int = 4096) -> float:
@@ -221,7 +223,14 @@ def check_time(
     """
     if budget is None or evaluations <= UNTIMED_EVALUATIONS:
         return
-    rate = probe_rate(job, block) if rate is None else rate
+    if rate is None:
+        # a small probe overstates the time of fast models (a runtime's cost per call dominates it), so
+        # before refusing, time larger blocks, up to what the run itself uses, while a probe stays short
+        probe = 4096
+        rate = probe_rate(job, block, probe)
+        while evaluations / rate > budget and probe < LARGEST_PROBE and probe / rate < 1.0:
+            probe *= 4
+            rate = max(rate, probe_rate(job, block, probe))
     need = evaluations / rate
     if need > budget:
         raise UserError(

@@ -105,3 +105,29 @@ def test_choices_beyond_the_defaults_are_kept_for_the_report():
     setup = prepare(Layered(), "normal", design=DESIGN, layers=["pre", "act"], unit_detail=["pre"], outputs=["y[1]"])
     assert setup.choices == {"layers": "pre,act", "unit_detail": ["pre"], "outputs": ["y[1]"]}
     assert prepare(Layered(), "normal", design=DESIGN, layers="none").choices == {"layers": "none"}
+
+
+def _timed_job(per_call: float, per_row: float):
+    import time
+
+    import estimator_checks as checks
+
+    from audit.design import Design
+
+    def func(x):
+        time.sleep(per_call + per_row * len(x))
+        return checks.evaluator(x)
+
+    return checks.job("jansen", Design(checks.LAWS, 16384, 2, 1), [engine.Group("out", 3)], func)
+
+
+def test_the_time_check_times_larger_blocks_before_refusing_a_fast_model():
+    """A cost per call dominates a small probe; the run's own blocks are far faster (common practice, no source)."""
+    from audit.studies.setup import check_time, probe_rate
+
+    fast = _timed_job(per_call=0.02, per_row=0.0)
+    assert 2e7 / probe_rate(fast, None, 4096) > 30  # the small probe alone would refuse
+    check_time(fast, 2 * 10**7, budget=30.0)  # larger blocks show the run fits
+    slow = _timed_job(per_call=0.0, per_row=2e-5)  # 50 000 rows a second whatever the block
+    with pytest.raises(UserError, match="beyond the time budget"):
+        check_time(slow, 2 * 10**7, budget=30.0)
