@@ -45,6 +45,8 @@ GAPS = (
     "Peak memory is one run per N (not paired); it is the whole process's peak, imports included.",
     "Options limiting advise (freezing only, pre-integration only, a budget) are listed when `--help` shows "
     "them, but not timed: their names were not known when the suite was written.",
+    "The cost of the fast ν estimator against d (once in tests/bench/bench_speed.py, now removed) is not "
+    "measured.",
     "Dask is measured on a local cluster only (no remote scheduler), and its speed-up includes the cluster's "
     "start-up.",
 )
