@@ -131,6 +131,6 @@ def memory(settings: Settings, models: dict[str, Path]) -> list[dict]:
                 peaks[large], peaks[small], 1.1, unit="MiB",
                 command=" ".join(_audit_args(Path(str(rel)), "all", large, 2)),
                 reference_command=f"the same with --points {small}",
-                note="peak RSS of the child (os.wait4 ru_maxrss)")
+                note="peak RSS of the child, /usr/bin/time -f %M")
         )  # fmt: skip
     return rows

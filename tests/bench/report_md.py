@@ -27,7 +27,7 @@ CAUTION = (
 def _num(x: float, unit: str = "") -> str:
     if x is None or (isinstance(x, float) and math.isnan(x)):
         return "–"
-    return f"{x:.3g}{unit}"
+    return f"{x:.0f}{unit}" if unit == " MiB" else f"{x:.3g}{unit}"
 
 
 def _met(r: dict) -> str:
@@ -95,7 +95,8 @@ def render(results: dict) -> str:
         f"## {SECTIONS['memory']}",
         "",
         "Peak resident memory of `netdim audit --layers all` (2 randomizations) at the large N over the small "
-        "N, each the child's own `ru_maxrss` (`os.wait4`). Memory is not timing noise: one pair per model.",
+        "N, each the child's own `ru_maxrss` as `/usr/bin/time -f %M` reports it. Memory is not timing noise: "
+        "one pair per model.",
         "",
         *_table(results["memory"], "peak, large N", "peak, small N"),
         f"## {SECTIONS['startup']}",
