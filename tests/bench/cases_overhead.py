@@ -1,0 +1,136 @@
+"""Measures a and b: overhead against raw inference, and peak memory against N.
+
+The 64-256-256-10 ReLU MLP is built here from code (fixed torch seed) and exported
+to ONNX into a temporary folder; the digits CNN is the bundled
+``model_zoo/digits_cnn.onnx``. The reference is :mod:`raw_inference`: the same number
+of rows (the audit's ``design["evaluations"]``, N(d+2)R for the Jansen estimator)
+through the same kind of onnxruntime session, in batches of the rows netdim puts in
+one task (``design["block"]`` points × rows per point), outputs only.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from cases_common import HERE, ZOO, Settings, child, netdim_cmd, paired, row
+
+__all__ = ["LAYER_CASES", "build_mlp", "memory", "overhead"]
+
+#: (label, --layers value, target): outputs only ≤ 1.15×, hidden layers ≤ 1.5× (issue 19).
+LAYER_CASES = (
+    ("outputs only", "none", 1.15),
+    ("activation layers", "activations", 1.5),
+    ("every layer", "all", 1.5),
+)
+
+
+def build_mlp(folder: Path) -> Path:
+    """A 64-256-256-10 ReLU MLP with torch seed 0, exported to ``folder/mlp_64_256_256_10.onnx``."""
+    import torch
+
+    sys.path.insert(0, str(ZOO.parent))
+    from model_zoo.export import export_onnx
+
+    torch.manual_seed(0)
+    net = torch.nn.Sequential(
+        torch.nn.Linear(64, 256),
+        torch.nn.ReLU(),
+        torch.nn.Linear(256, 256),
+        torch.nn.ReLU(),
+        torch.nn.Linear(256, 10),
+    )
+    return export_onnx(net, torch.zeros(4, 64), folder / "mlp_64_256_256_10.onnx")
+
+
+def _audit_args(path: Path, layers: str, points: int, replicates: int) -> list[str]:
+    return [
+        "audit", str(path), "--law", "uniform", "--points", str(points), "--replicates", str(replicates),
+        "--seed", "1", "--layers", layers, "--no-save", "-q",
+    ]  # fmt: skip
+
+
+def _sizes(settings: Settings, model: str, layers: str) -> tuple[int, int]:
+    if model == "mlp":
+        return settings.mlp_none if layers == "none" else settings.mlp_layers
+    return settings.cnn_none if layers == "none" else settings.cnn_layers
+
+
+def _steady(path: Path, layers: str, points: int, replicates: int, pairs: int) -> tuple[dict, dict]:
+    """In one process, after a warm-up: ``audit_model`` on an opened model against the raw loop."""
+    from raw_inference import RawRunner
+
+    import audit
+
+    model = audit.open_model(str(path))
+    audit.audit_model(model, "uniform", points=min(points, 64), replicates=2, seed=1, layers=layers)
+    state: dict = {}
+
+    def netdim() -> float:
+        import time
+
+        t0 = time.perf_counter()
+        r = audit.audit_model(model, "uniform", points=points, replicates=replicates, seed=1, layers=layers)
+        state["design"] = r.design
+        return time.perf_counter() - t0
+
+    def raw() -> float:
+        d = state["design"]
+        batch = d["block"] * d["evaluations"] // (d["points"] * d["replicates"])
+        if state.get("batch") != batch:
+            state["runner"], state["batch"] = RawRunner(str(path), batch), batch
+            state["runner"].run(batch)  # warm-up of the reference's session
+        return state["runner"].run(d["evaluations"])
+
+    times = paired({"netdim": netdim, "raw": raw}, pairs)
+    return times, {"evaluations": state["design"]["evaluations"], "batch": state["batch"]}
+
+
+def overhead(settings: Settings, models: dict[str, Path]) -> list[dict]:
+    """Whole-process and steady-state ratios netdim / raw inference for every model and layer case."""
+    rows = []
+    for key, path in models.items():
+        for label, layers, target in LAYER_CASES:
+            if (key, layers) not in settings.overhead_cases:
+                continue
+            points, replicates = _sizes(settings, key, layers)
+            times, info = _steady(path, layers, points, replicates, settings.pairs)
+            rel = path.relative_to(path.parents[1]) if key == "cnn" else path.name
+            cmd = netdim_cmd(*_audit_args(path, layers, points, replicates))
+            raw_cmd = [sys.executable, str(HERE / "raw_inference.py"), str(path), str(info["evaluations"]),
+                       str(info["batch"])]  # fmt: skip
+            whole = paired({"netdim": lambda c=cmd: child(c)[0], "raw": lambda c=raw_cmd: child(c)[0]},
+                           settings.pairs)  # fmt: skip
+            args = " ".join(_audit_args(Path(str(rel)), layers, points, replicates))
+            ref = f"raw_inference.py {rel} {info['evaluations']} {info['batch']}"
+            note = f"{info['evaluations']:,} rows in batches of {info['batch']:,}"
+            for mode, t in (("whole process", whole), ("steady state", times)):
+                rows.append(
+                    row(f"{key.upper()} · {label} · {mode}", t["netdim"], t["raw"], target,
+                        command=f"netdim {args}" if mode == "whole process" else f"audit_model(layers={layers!r})",
+                        reference_command=ref, note=note)
+                )  # fmt: skip
+    return rows
+
+
+def memory(settings: Settings, models: dict[str, Path]) -> list[dict]:
+    """Peak RSS (own rusage of each child) of ``netdim audit --layers all`` at the large N against the small N."""
+    small, large = settings.memory_points
+    rows = []
+    pairs = 1  # memory is not timing noise
+    for key, path in models.items():
+        if key not in settings.memory_models:
+            continue
+        runs = {
+            n: (lambda n=n, path=path: child(netdim_cmd(*_audit_args(path, "all", n, 2)))[1]) for n in (large, small)
+        }
+        peaks = paired(runs, pairs)
+        rel = path.relative_to(path.parents[1]) if key == "cnn" else path.name
+        rows.append(
+            row(f"{key.upper()} · every layer · N = 2^{large.bit_length() - 1} / 2^{small.bit_length() - 1}",
+                peaks[large], peaks[small], 1.1, unit="MiB",
+                command=" ".join(_audit_args(Path(str(rel)), "all", large, 2)),
+                reference_command=f"the same with --points {small}",
+                note="peak RSS of the child, /usr/bin/time -f %M")
+        )  # fmt: skip
+    return rows
