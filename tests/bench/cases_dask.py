@@ -1,4 +1,5 @@
-"""Measure f: ``--cluster local:2`` against one process, whole-process wall times of ``netdim audit``.
+"""Measure f: ``--cluster local:2`` against one process: whole-process wall times of ``netdim audit``, and
+the steady state (in this process, a cluster started once and warmed up, against the same audit here).
 
 The inference-bound case is :mod:`cases_ode` (single-threaded, its per-row cost
 dominates); the ONNX case is the 64-256-256-10 MLP, whose onnxruntime session already
@@ -75,4 +76,41 @@ def dask_cases(settings: Settings, mlp: Path) -> list[dict]:
                             command=f"netdim {shown} --cluster local:2", reference_command=f"netdim {shown}",
                             note=f"{note}; results differ by at most {diff:.1e} (relative)"))  # fmt: skip
             rows[-1]["largest_relative_difference"] = diff
+    rows.append(_steady(settings, points, replicates, steps))
     return rows
+
+
+def _steady(settings: Settings, points: int, replicates: int, steps: int) -> dict:
+    """The simulator audited in this process, on a local cluster started once, against no cluster."""
+    import importlib
+    import os
+    import sys
+    import time
+
+    os.environ["NETDIM_BENCH_STEPS"] = str(steps)  # read by cases_ode here and in the workers
+    os.environ["PYTHONPATH"] = os.pathsep.join(filter(None, [str(HERE), os.environ.get("PYTHONPATH", "")]))
+    if str(HERE) not in sys.path:
+        sys.path.insert(0, str(HERE))
+    import cases_ode
+
+    importlib.reload(cases_ode)
+    import audit
+    from audit.cluster import close, connect
+
+    kw = {"dim": 6, "points": points, "replicates": replicates, "seed": 1}
+
+    def timed(**extra) -> float:
+        t0 = time.perf_counter()
+        audit.audit_function(cases_ode.simulate, "uniform", **kw, **extra)
+        return time.perf_counter() - t0
+
+    client = connect("local:2")
+    try:
+        audit.audit_function(cases_ode.simulate, "uniform", **{**kw, "points": 64}, cluster=client)  # warm-up
+        t = paired({"two": lambda: timed(cluster=client), "one": timed}, settings.pairs)
+    finally:
+        close(client)
+    shown = f"audit_function(cases_ode.simulate, 'uniform', dim=6, points={points}, replicates={replicates})"
+    return row("inference-bound Python simulator, steady state (cluster started once)", t["two"], t["one"], 1.8,
+               higher_is_better=True, command=f"{shown} with cluster=<local:2 client>", reference_command=shown,
+               note=f"{steps} Euler steps per row; the cluster's start-up (about 3 s here) left out")  # fmt: skip
