@@ -30,6 +30,8 @@ __all__ = ["DaskExecutor", "connect", "portable_dumps", "portable_loads"]
 
 #: Tasks kept in flight per worker.
 IN_FLIGHT = 4
+#: The environment variable dask sets for its workers to return memory to the system.
+TRIM = "MALLOC_TRIM_THRESHOLD_"
 
 
 class _Portable(pickle.Pickler):
@@ -93,7 +95,13 @@ def connect(address: str) -> Any:
                 f"{cores} cores, got '{address}'."
             )
         workers = int(tail) if tail else cores
-        cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
+        import dask
+
+        # dask starts workers with MALLOC_TRIM_THRESHOLD_ set, which also fixes glibc's mmap threshold: every
+        # array of 128 KiB or more is then mapped and unmapped afresh, and a numpy-bound model ran 3.4x slower
+        # in a worker than here (measured: 3.2 s against 0.94 s a call). Local workers keep the usual malloc.
+        with dask.config.set({f"distributed.nanny.pre-spawn-environ.{TRIM}": None}):
+            cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None)
         return Client(cluster)
     try:
         return Client(address, timeout=10)

@@ -73,17 +73,17 @@ class Settings:
 FULL = Settings(
     name="full",
     pairs=5,
-    mlp_none=(2048, 2),
-    mlp_layers=(1024, 2),
-    cnn_none=(2048, 2),
-    cnn_layers=(1024, 2),
+    mlp_none=(8192, 2),
+    mlp_layers=(4096, 2),
+    cnn_none=(8192, 2),
+    cnn_layers=(4096, 2),
     memory_points=(2**10, 2**14),
-    advise=(128, 2),
+    advise=(512, 4),
     advise_extra=(),
     scipy_points=2**13,
     scipy_replicates=8,
     scipy_dims=(3, 6, 20, 50),
-    dask_ode=(2048, 4, 2000),
+    dask_ode=(4096, 4, 2000),
     dask_mlp=(1024, 2),
 )
 
