@@ -1,23 +1,20 @@
 """The input spec of a simplified model: its kept inputs with their laws, as a TOML file beside it.
 
 So that the written model can be audited at once (``netdim audit FILE --inputs FILE.toml``), the
-spec lists the kept inputs with the source spec's laws and units, and the outputs' names and units.
-Strings are written as TOML basic strings (JSON escaping is valid TOML), numbers with ``repr``.
+spec lists the kept inputs with the source spec's laws (every parameter in full: an empirical law's
+knots, a discrete law's values and probabilities) and units, and the outputs' names and units,
+written by the spec writer of :mod:`audit.inputs.tomlwrite`.
 """
 
 from __future__ import annotations
 
-import json
 from collections.abc import Sequence
 from pathlib import Path
 
+from ..inputs.tomlwrite import TomlWriter
 from .plan import ExportPlan
 
 __all__ = ["spec_path", "spec_text"]
-
-
-def _quote(value: object) -> str:
-    return json.dumps(value, ensure_ascii=False)
 
 
 def spec_path(model_path: str | Path) -> Path:
@@ -36,17 +33,26 @@ def spec_text(
     units = list(units) or [""] * plan.d
     what = "; ".join([f"{i.feature} integrated out" for i in plan.integrated]
                      + [f"{f.feature} frozen at {f.value:.9g}" for f in plan.frozen])  # fmt: skip
-    lines = [f"# netdim input spec of a simplified model ({what}).", f"title = {_quote(title or what)}", ""]
-    lines += ["[inputs]", f"count = {len(plan.kept)}", ""]
+    w = TomlWriter()
+    w.comment(f"netdim input spec of a simplified model ({what}).")
+    w.key("title", title or what)
+    w.blank()
+    w.table("inputs")
+    w.key("count", len(plan.kept))
+    w.blank()
     for j in plan.kept:
-        lines += ["[[inputs.feature]]", f"name = {_quote(plan.names[j])}"]
-        for key, value in plan.laws[j].to_dict().items():
-            lines.append(f"{key} = {_quote(value) if isinstance(value, str) else repr(float(value))}")
+        law = plan.laws[j]
+        w.array_table("inputs.feature")
+        w.key("name", plan.names[j])
+        w.key("law", law.kind)
+        for key, value in law.params.items():
+            w.key(key, list(value) if isinstance(value, tuple) else value)
         if units[j]:
-            lines.append(f"unit = {_quote(units[j])}")
-        lines.append("")
+            w.key("unit", units[j])
+        w.blank()
     if outputs:
-        lines += ["[outputs]", f"names = {_quote(list(outputs))}"]
+        w.table("outputs")
+        w.key("names", list(outputs))
         if output_units:
-            lines.append(f"units = {_quote(list(output_units))}")
-    return "\n".join(lines) + "\n"
+            w.key("units", list(output_units))
+    return w.text()
