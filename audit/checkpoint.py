@@ -22,6 +22,7 @@ is refused, not resumed).
 from __future__ import annotations
 
 import contextlib
+import glob
 import hashlib
 import itertools
 import json
@@ -141,6 +142,9 @@ class Checkpoint:
         self._last = -math.inf
         self._lock = self.path.with_name(self.path.name + ".lock")
         self._acquire()
+        for stale in self.path.parent.glob(f".{glob.escape(self.path.name)}.*.tmp.npz"):
+            with contextlib.suppress(OSError):  # half-written by a killed run: this run holds the lock now
+                stale.unlink()
         try:
             self._saved = self._read()
         except BaseException:

@@ -102,9 +102,10 @@ def map_to_laws(u: np.ndarray, laws: Sequence[Law], groups: list[tuple[Law, np.n
     groups = groups if groups is not None else _law_groups(laws)
     u = np.clip(u, EPS, 1 - EPS)
     x = np.empty_like(u)
-    for law, cols in groups:
-        c = cols if copies == 1 else np.concatenate([cols + k * d for k in range(copies)])
-        x[:, c] = law.ppf(u[:, c])
+    with np.errstate(over="ignore"):  # an inverse CDF that overflows is reported by the engine, by name
+        for law, cols in groups:
+            c = cols if copies == 1 else np.concatenate([cols + k * d for k in range(copies)])
+            x[:, c] = law.ppf(u[:, c])
     return x
 
 

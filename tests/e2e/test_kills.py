@@ -64,9 +64,7 @@ def _kill_during_a_write(run: list[str], ckpt: Path) -> bool:
             break
         time.sleep(0.0005)
     proc.wait(timeout=30)
-    left = bool(_temporaries(ckpt))
-    for tmp in _temporaries(ckpt):  # what the killed write left behind
-        tmp.unlink()
+    left = bool(_temporaries(ckpt))  # what the killed write left behind; the next run sweeps it away
     return proc.returncode == -signal.SIGKILL and left
 
 
@@ -86,12 +84,11 @@ def _kill_and_resume(tmp_path: Path, kills: int, replicates: int, window: float)
                 proc.send_signal(signal.SIGKILL)  # no chance to clean up: only what was saved survives
                 landed += 1
         proc.wait(timeout=60)
-        for tmp in _temporaries(ckpt):
-            tmp.unlink()
         assert proc.returncode in (0, -signal.SIGKILL), proc.stderr.read() if proc.stderr else ""
     resumed = subprocess.run([sys.executable, "-m", "audit", *run], env=ENV, cwd=ROOT, capture_output=True, text=True,
                              timeout=600)  # fmt: skip
     assert resumed.returncode == 0, resumed.stderr
+    assert not _temporaries(ckpt)  # half-written copies of killed runs are removed by the next run
     fresh = subprocess.run([sys.executable, "-m", "audit", *args, "--json", str(tmp_path / "fresh.json")], env=ENV,
                            cwd=ROOT, capture_output=True, text=True, timeout=600)  # fmt: skip
     assert fresh.returncode == 0, fresh.stderr

@@ -384,3 +384,13 @@ def test_an_interrupt_between_merging_two_groups_of_a_task_waits_until_the_task_
         record.add(Task(0, 32, 32), {"out": Part("out", True), "h": Part("h", False)})
     assert merged == ["out", "h"]  # both groups merged before the interrupt arrived ...
     assert [t.start for t in record.done] == [0, 32] and record.rows_done == 64  # ... and the task recorded once
+
+
+def test_half_written_copies_of_a_killed_run_are_removed_when_the_checkpoint_opens(tmp_path):
+    path = tmp_path / "run.npz"
+    stale = tmp_path / ".run.npz.12345.tmp.npz"  # what a kill during a save leaves
+    other = tmp_path / ".other.npz.12345.tmp.npz"  # another checkpoint's: not touched
+    stale.write_bytes(b"partial")
+    other.write_bytes(b"partial")
+    with Checkpoint(path):
+        assert not stale.exists() and other.exists()

@@ -151,3 +151,13 @@ def test_one_hot_inputs_give_valid_rows_and_leave_other_columns_as_they_were():
     assert hot.input_of(3) == 1 and hot.input_of(4) == 2
     with pytest.raises(ValueError, match=r"discrete law on 0\.\.2"):
         Design([_Law("uniform"), _Law("normal")], 8, 2, seed=1, columns=[(0,), (1, 2, 3)])
+
+
+def test_an_inverse_cdf_that_overflows_gives_infinities_quietly():
+    """The engine names the law that overflowed (exit 2); numpy's own warning would only add noise above it."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        x = map_to_laws(np.array([[0.999]]), [Law("lognormal", {"log_mean": 0.0, "log_sd": 400.0})])
+    assert np.isinf(x).all()
