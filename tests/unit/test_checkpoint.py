@@ -380,8 +380,13 @@ def test_an_interrupt_between_merging_two_groups_of_a_task_waits_until_the_task_
                 os.kill(os.getpid(), signal.SIGINT)
 
     record.add(Task(0, 0, 32), {"out": Part("out", False), "h": Part("h", False)})
-    with pytest.raises(KeyboardInterrupt):
-        record.add(Task(0, 32, 32), {"out": Part("out", True), "h": Part("h", False)})
+    # Python's own Ctrl-C handler, whatever this process inherited (a shell's background job ignores SIGINT)
+    before = signal.signal(signal.SIGINT, signal.default_int_handler)
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            record.add(Task(0, 32, 32), {"out": Part("out", True), "h": Part("h", False)})
+    finally:
+        signal.signal(signal.SIGINT, before)
     assert merged == ["out", "h"]  # both groups merged before the interrupt arrived ...
     assert [t.start for t in record.done] == [0, 32] and record.rows_done == 64  # ... and the task recorded once
 
