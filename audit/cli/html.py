@@ -11,12 +11,11 @@ message says how to write it again from the JSON.
 from __future__ import annotations
 
 import argparse
-import contextlib
-import os
 from pathlib import Path
 from typing import Any
 
 from ..errors import UserError
+from .output import check_target
 
 __all__ = ["HTML_HELP", "add_html_option", "check_html_target", "write_html"]
 
@@ -37,16 +36,6 @@ def _is_page(path: Path) -> bool:
         return False
 
 
-def _same(a: Path, b: str | None) -> bool:
-    if not b:
-        return False
-    with contextlib.suppress(OSError, ValueError):
-        if a.resolve() == Path(b).resolve():
-            return True
-        return a.exists() and Path(b).exists() and os.path.samefile(a, b)
-    return False
-
-
 def check_html_target(path: str | None, protected: list[str | None]) -> None:
     """Refuse, before any work, an ``--html`` path that would overwrite something else than a netdim page.
 
@@ -63,28 +52,7 @@ def check_html_target(path: str | None, protected: list[str | None]) -> None:
         When the path is one of ``protected``, a folder, or an existing file
         that netdim did not write.
     """
-    if not path:
-        return
-    target = Path(path)
-    if any(_same(target, other) for other in protected):
-        raise UserError(
-            f"--html '{path}' is the model, input spec, checkpoint or JSON report of this run; writing the page "
-            "there would destroy it. Give another path, such as reports/run.html."
-        )
-    if target.is_dir():
-        raise UserError(f"--html '{path}' is a folder; give a file path such as reports/run.html.")
-    if target.exists() and not _is_page(target):
-        raise UserError(
-            f"--html '{path}' exists and is not a netdim HTML report; netdim does not overwrite it. "
-            "Give another path, or remove the file first."
-        )
-
-
-def _shareable(path: Path) -> None:
-    """Give the page the usual permissions of a new file (the temporary file it was written as has 0600)."""
-    mask = os.umask(0)
-    os.umask(mask)
-    os.chmod(path, 0o666 & ~mask)
+    check_target("--html", path, protected, _is_page, "HTML report", "reports/run.html")
 
 
 def write_html(result: Any, args: argparse.Namespace, saved: Path | None = None) -> Path | None:
@@ -112,9 +80,7 @@ def write_html(result: Any, args: argparse.Namespace, saved: Path | None = None)
 
     text = report.html_page(result)
     try:
-        written = _write_atomic(Path(path), text)
-        _shareable(written)
-        return written
+        return _write_atomic(Path(path), text)
     except OSError as exc:
         why = exc.strerror or str(exc)
     again = (

@@ -154,28 +154,40 @@ def _is_report(path: Path) -> bool:
         return False
 
 
-def check_report_target(path: str | None, protected: list[str]) -> None:
-    """Refuse, before any work, a ``--json`` path that would overwrite something other than a netdim report."""
+def same_file(a: Path, b: str | None) -> bool:
+    """Whether ``a`` and ``b`` name the same file (by path, or by inode when both exist)."""
+    if not b:
+        return False
+    with contextlib.suppress(OSError, ValueError):
+        if a.resolve() == Path(b).resolve():
+            return True
+        return a.exists() and Path(b).exists() and os.path.samefile(a, b)
+    return False
+
+
+def check_target(flag: str, path: str | None, protected: list[Any], ours: Any, what: str, example: str) -> None:
+    """Refuse, before any work, a report path (``flag``) that is one of ``protected``, a folder, or an
+    existing file that ``ours`` (a predicate) does not recognise as a netdim ``what``."""
     if not path:
         return
     target = Path(path)
-    for other in protected:
-        with contextlib.suppress(OSError, ValueError):
-            same = target.resolve() == Path(other).resolve() if other else False
-            if other and Path(other).exists() and target.exists():
-                same = same or os.path.samefile(target, other)
-            if same:
-                raise UserError(
-                    f"--json '{path}' is the model, input spec or checkpoint of this run; writing the report "
-                    "there would destroy it. Give another path."
-                )
-    if target.is_dir():
-        raise UserError(f"--json '{path}' is a folder; give a file path such as reports/run.json.")
-    if target.exists() and not _is_report(target):
+    if any(same_file(target, other) for other in protected):
         raise UserError(
-            f"--json '{path}' exists and is not a netdim report; netdim does not overwrite it. "
+            f"{flag} '{path}' is the model, input spec, checkpoint or another report of this run; writing the "
+            f"{what} there would destroy it. Give another path, such as {example}."
+        )
+    if target.is_dir():
+        raise UserError(f"{flag} '{path}' is a folder; give a file path such as {example}.")
+    if target.exists() and not ours(target):
+        raise UserError(
+            f"{flag} '{path}' exists and is not a netdim {what}; netdim does not overwrite it. "
             "Give another path, or remove the file first."
         )
+
+
+def check_report_target(path: str | None, protected: list[str]) -> None:
+    """Refuse, before any work, a ``--json`` path that would overwrite something other than a netdim report."""
+    check_target("--json", path, protected, _is_report, "report", "reports/run.json")
 
 
 def _default_path(source: str) -> Path:
@@ -193,6 +205,9 @@ def _write_atomic(path: Path, text: str, *, exclusive: bool = False) -> Path:
             f.write(text)
             f.flush()
             os.fsync(f.fileno())
+        mask = os.umask(0)  # a report is for sharing: the permissions of a new file, not mkstemp's 0600
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)
         if not exclusive:
             os.replace(tmp, path)
             return path

@@ -30,9 +30,9 @@ def test_the_target_is_refused_when_it_would_destroy_something(tmp_path):
     other.write_text("<html>mine</html>", encoding="utf-8")
     check_html_target(None, [])
     check_html_target(str(tmp_path / "new.html"), [str(model)])
-    with pytest.raises(UserError, match="is the model, input spec, checkpoint or JSON report"):
+    with pytest.raises(UserError, match="is the model, input spec, checkpoint or another report of this run"):
         check_html_target(str(model), [str(model)])
-    with pytest.raises(UserError, match="is the model, input spec, checkpoint or JSON report"):
+    with pytest.raises(UserError, match="is the model, input spec, checkpoint or another report of this run"):
         check_html_target(str(tmp_path / "r.json"), [None, str(tmp_path / "r.json")])  # the JSON report's path
     with pytest.raises(UserError, match="is a folder"):
         check_html_target(str(tmp_path), [])

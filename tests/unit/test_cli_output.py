@@ -143,14 +143,14 @@ def test_check_report_target_refuses_what_is_not_a_report(tmp_path):
     notes.write_text("mine")
     report = tmp_path / "old.json"
     report.write_text(json.dumps(_result().to_dict(), indent=2))
-    for target, needle in ((model, "is the model, input spec or checkpoint of this run"),
-                           (spec, "is the model, input spec or checkpoint"),
+    for target, needle in ((model, "is the model, input spec, checkpoint or another report of this run"),
+                           (spec, "is the model, input spec, checkpoint or another report"),
                            (tmp_path, "is a folder"), (notes, "exists and is not a netdim report")):  # fmt: skip
         with pytest.raises(UserError, match=needle):
             check_report_target(str(target), [str(model), str(spec)])
     link = tmp_path / "link.json"
     link.symlink_to(model)
-    with pytest.raises(UserError, match="is the model, input spec or checkpoint"):
+    with pytest.raises(UserError, match="is the model, input spec, checkpoint or another report"):
         check_report_target(str(link), [str(model)])
     check_report_target(str(report), [str(model)])  # an earlier report may be replaced
     check_report_target(str(tmp_path / "new.json"), [str(model)])
@@ -211,3 +211,16 @@ def test_json_onto_the_checkpoint_is_refused_before_any_work(tmp_path, capsys):
     code = main(["audit", "clifuncs:two_outputs", "--dim", "2", "--points", "64", "--checkpoint", path,
                  "--json", path, "--quiet"])  # fmt: skip
     assert code == 2 and f"--json '{path}'" in capsys.readouterr().err
+
+
+def test_reports_are_written_with_the_permissions_of_a_new_file(tmp_path):
+    """A report is for sharing: the umask decides, not the temporary file's 0600 (common practice, no source)."""
+    import os
+    import stat
+
+    mask = os.umask(0o022)
+    try:
+        path = _write_atomic(tmp_path / "r.json", "{}")
+    finally:
+        os.umask(mask)
+    assert stat.S_IMODE(path.stat().st_mode) == 0o644

@@ -28,7 +28,7 @@ def as_shell_reads(lines: list[str]) -> list[str]:
 
 
 LONG = (
-    "netdim audit /work/wt-html/model_zoo/digits_cnn.pt --inputs /work/wt-html/model_zoo/digits_cnn.toml "
+    "netdim audit /home/me/projects/zoo/digits_cnn.pt --inputs /home/me/projects/zoo/digits_cnn.toml "
     "--outputs digit_1,digit_7 --replicates 2 --layers features.1 --unit-detail features.1 "
     "--input-shape 1,8,8 --points 256"
 )
