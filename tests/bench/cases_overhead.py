@@ -5,7 +5,8 @@ to ONNX into a temporary folder; the digits CNN is the bundled
 ``model_zoo/digits_cnn.onnx``. The reference is :mod:`raw_inference`: the same number
 of rows (the audit's ``design["evaluations"]``, N(d+2)R for the Jansen estimator)
 through the same kind of onnxruntime session, in batches of the rows netdim puts in
-one task (``design["block"]`` points × rows per point), outputs only.
+one task (``design["block"]`` points × rows per point; for outputs alone, the at most
+``audit.models.onnx.OUTPUT_ROWS`` rows netdim feeds per call), outputs only.
 """
 
 from __future__ import annotations
@@ -77,6 +78,10 @@ def _steady(path: Path, layers: str, points: int, replicates: int, pairs: int) -
     def raw() -> float:
         d = state["design"]
         batch = d["block"] * d["evaluations"] // (d["points"] * d["replicates"])
+        if layers == "none":  # netdim runs outputs alone in calls of at most OUTPUT_ROWS rows: the same here
+            from audit.models.onnx import OUTPUT_ROWS
+
+            batch = min(batch, OUTPUT_ROWS)
         if state.get("batch") != batch:
             state["runner"], state["batch"] = RawRunner(str(path), batch), batch
             state["runner"].run(batch)  # warm-up of the reference's session
