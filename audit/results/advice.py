@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from .audit import AuditResult, OutputResult
-from .base import SCHEMA, Displayable
+from .base import SCHEMA, Displayable, check_header
 from .freezing import FreezeGroup, FreezeItem
 from .preintegration import Candidate, GainRow, RqmcGain, VarianceIdentity
 
@@ -160,12 +160,7 @@ class AdviceResult(Displayable):
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> AdviceResult:
-        if d.get("tool") != "netdim":
-            raise ValueError('not a netdim report (missing "tool": "netdim")')
-        if d.get("schema") != SCHEMA:
-            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
-        if d.get("kind") != KIND:
-            raise ValueError(f"not an advice report (kind {d.get('kind')!r}, expected {KIND!r})")
+        check_header(d, KIND, "advice")
         return cls(
             model=d["model"],
             inputs=d["inputs"],

@@ -6,7 +6,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dict, _opt_estimate
+from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dict, _opt_estimate, check_header
 
 __all__ = ["AuditResult", "LayerResult", "OutputResult", "PairEstimate", "UnitResult"]
 
@@ -256,10 +256,7 @@ class AuditResult(Displayable):
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> AuditResult:
-        if d.get("tool") != "netdim":
-            raise ValueError('not a netdim report (missing "tool": "netdim")')
-        if d.get("schema") != SCHEMA:
-            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
+        check_header(d)
         return cls(
             model=d["model"],
             inputs=d["inputs"],

@@ -20,7 +20,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["SCHEMA", "Displayable", "Estimate", "FeatureEstimate", "set_renderer"]
+__all__ = ["SCHEMA", "Displayable", "Estimate", "FeatureEstimate", "check_header", "set_renderer"]
 
 _RENDERER: Callable[[Any], Any] | None = None
 _HTML: Callable[[Any], str] | None = None
@@ -72,6 +72,17 @@ class Displayable:
 
 
 SCHEMA = 1
+
+
+def check_header(d: dict[str, Any], kind: str | None = None, noun: str = "") -> None:
+    """Refuse a dict that is not a netdim report of this schema (and, with ``kind``, of that kind)."""
+    if d.get("tool") != "netdim":
+        raise ValueError('not a netdim report (missing "tool": "netdim")')
+    if d.get("schema") != SCHEMA:
+        raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
+    if kind is not None and d.get("kind") != kind:
+        article = "an" if noun[:1] in "aeiou" else "a"
+        raise ValueError(f"not {article} {noun} report (kind {d.get('kind')!r}, expected {kind!r})")
 
 
 def _num(x: float | None) -> float | None:

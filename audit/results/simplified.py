@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from .audit import OutputResult
-from .base import SCHEMA, Displayable, Estimate, _num, _unnum
+from .base import SCHEMA, Displayable, Estimate, _num, _unnum, check_header
 from .preintegration import VarianceIdentity
 
 __all__ = ["OutputShift", "SimplifiedResult"]
@@ -155,12 +155,7 @@ class SimplifiedResult(Displayable):
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> SimplifiedResult:
-        if d.get("tool") != "netdim":
-            raise ValueError('not a netdim report (missing "tool": "netdim")')
-        if d.get("schema") != SCHEMA:
-            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
-        if d.get("kind") != KIND:
-            raise ValueError(f"not a simplify report (kind {d.get('kind')!r}, expected {KIND!r})")
+        check_header(d, KIND, "simplify")
         return cls(
             model=d["model"],
             inputs=d["inputs"],

@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dict, _opt_estimate, _unnum
+from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dict, _opt_estimate, _unnum, check_header
 
 __all__ = [
     "Direction",
@@ -337,10 +337,7 @@ class SlopesResult(Displayable):
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> SlopesResult:
-        if d.get("tool") != "netdim":
-            raise ValueError('not a netdim report (missing "tool": "netdim")')
-        if d.get("schema") != SCHEMA:
-            raise ValueError(f"report schema {d.get('schema')!r} is not supported (expected {SCHEMA})")
+        check_header(d)
         return cls(
             d["model"],
             d["inputs"],
