@@ -239,9 +239,9 @@ def cmd_compare(args: argparse.Namespace) -> int:
     from ..models.base import feature_count
 
     estimator, points = design.get("estimator", "jansen"), int(design.get("points", 1024))
-    per = make_estimator(estimator, d=feature_count(new), points=points).rows_per_point()
+    chosen = make_estimator(estimator, d=feature_count(new), points=points)
     sides = 1 if baseline is not None else 2
-    total = sides * points * int(design.get("replicates", 8)) * per
+    total = sides * points * int(design.get("replicates") or chosen.replicates) * chosen.rows_per_point()
     with progress(args, total) as bar:
         # the paired run reports each row once for both models
         paired = not args.independent and baseline is None

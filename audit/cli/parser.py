@@ -75,7 +75,9 @@ def _inputs(p: argparse.ArgumentParser) -> None:
 def _design(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("design")
     g.add_argument("--points", type=int, help="points N per randomization, a power of two (default 1024)")
-    g.add_argument("--replicates", type=int, help="independent randomizations R (default 8)")
+    g.add_argument(
+        "--replicates", type=int, help="independent randomizations R (default 8; 32 with the fast estimator)"
+    )
     g.add_argument("--seed", type=_seed, help="seed for the randomizations (default: fresh, recorded in the report)")
     g.add_argument("--sampler", help=SAMPLER_HELP)
     g.add_argument("--estimator", help=_estimator_help())

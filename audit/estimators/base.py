@@ -10,6 +10,9 @@ The protocol (:class:`Estimator`):
 
 ``name``, ``label``
     Registry name (recorded in reports and checkpoints) and what reports call it.
+``replicates``
+    Randomizations R used when the user sets none (8 for most; more where a
+    t-interval over 8 would under-cover).
 ``copies``
     Blocks of d uniform columns each design point needs (2: A and B).
 ``rows_per_point()``
@@ -124,6 +127,7 @@ class Estimator(Protocol):
 
     name: str
     label: str
+    replicates: int
     copies: int
 
     def rows_per_point(self) -> int: ...

@@ -167,6 +167,7 @@ class Fast:
     )
     copies = 2
     first_order = False
+    replicates = 8
 
     @classmethod
     def build(cls, d: int, points: int, groups: Any = None) -> Fast:

@@ -167,6 +167,7 @@ class GradientEstimator:
     help = "E[(∂f/∂z_j)²] and E[∇f ∇fᵀ] from N gradient evaluations per randomization"
     copies = 1
     first_order = False
+    replicates = 8
 
     def __init__(self, d: int, directions: bool = True) -> None:
         self.d = int(d)

@@ -19,6 +19,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import warnings
 from typing import NamedTuple
 
@@ -39,7 +40,19 @@ class Interval(NamedTuple):
     std_error: np.ndarray
 
 
+@functools.lru_cache(maxsize=256)
+def _t_scalar(level: float, df: float) -> float:
+    from scipy import stats
+
+    return float(stats.t.ppf(0.5 + level / 2, df))
+
+
 def _t(level: float, df: np.ndarray | float) -> np.ndarray:
+    """Student-t quantile ``t_{(1+level)/2, df}``; one cached scipy call when every df is the same."""
+    df = np.asarray(df, dtype=np.float64)
+    first = df.flat[0] if df.size else np.nan
+    if df.size and np.isfinite(first) and np.all(df == first):  # the usual case: R - 1 everywhere
+        return np.full(df.shape, _t_scalar(float(level), float(first)))
     from scipy import stats
 
     return stats.t.ppf(0.5 + level / 2, df)

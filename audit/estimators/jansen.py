@@ -188,6 +188,7 @@ class Jansen:
     help = "every total and first-order index, N(d+2) evaluations per randomization"
     copies = 2
     first_order = True
+    replicates = 8
     #: Its sums take the model's float rows as they are (no float64 copy of the block).
     native_outputs = True
 

@@ -99,6 +99,7 @@ class SeparatePairs:
         "randomization; no first-order indices"
     )
     first_order = False
+    replicates = 8
 
     @classmethod
     def build(cls, d: int, points: int, groups: Sequence[Sequence[int]] | None = None) -> SeparatePairs:

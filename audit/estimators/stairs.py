@@ -89,6 +89,7 @@ class WindingStairs:
     help = "every total index and the mean dimension, N(d+1) evaluations per randomization; no first-order indices"
     copies = 2
     first_order = False
+    replicates = 8
 
     @classmethod
     def build(cls, d: int, points: int, groups: Sequence[Sequence[int]] | None = None) -> WindingStairs:

@@ -238,6 +238,7 @@ class Superset:
     )
     copies = 2
     first_order = False
+    replicates = 8
 
     @classmethod
     def build(cls, d: int, points: int, groups: Sequence[Sequence[int]] | None = None) -> Superset:

@@ -36,13 +36,14 @@ class DesignOptions:
     ----------
     points : int
         N per randomization (rounded up to a power of two for scrambled Sobol' points).
-    replicates : int
-        R independent randomizations (at least 2, for an interval).
+    replicates : int or None
+        R independent randomizations (at least 2, for an interval); ``None``: the
+        estimator's default (8; 32 for the fast estimator, whose intervals need more).
     seed : int, numpy Generator or None
         Root seed; ``None`` draws one. The int is recorded in every report.
     sampler : {"sobol", "mc"}
         Scrambled Sobol' points (randomized quasi-Monte Carlo) or plain Monte Carlo.
-    estimator : {"jansen", "fast"}
+    estimator : {"jansen", "fast", "stairs", "separate", "superset"}
         See :data:`audit.estimators.ESTIMATORS`.
     view : {"inputs", "groups", "both"} or None
         Indices per input, per group of inputs (the spec's ``[groups]``), or both
@@ -55,7 +56,7 @@ class DesignOptions:
     """
 
     points: int = 1024
-    replicates: int = 8
+    replicates: int | None = None
     seed: int | np.random.Generator | None = None
     sampler: str = "sobol"
     estimator: str = "jansen"
@@ -68,7 +69,8 @@ class DesignOptions:
         if self.view is not None:
             check_choice(self.view, "view", VIEWS)
         points = check_int(self.points, "points", 1, why="(a power of two is best)")
-        replicates = check_int(self.replicates, "replicates", 1)
+        given = ESTIMATORS[self.estimator].replicates if self.replicates is None else self.replicates
+        replicates = check_int(given, "replicates", 1)
         if replicates < 2:
             raise UserError(
                 f"At least 2 replicates (independent randomizations) are needed for a confidence interval; "

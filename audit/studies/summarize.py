@@ -54,6 +54,14 @@ def intervals(values: np.ndarray) -> list[Estimate]:
     return estimates(t_interval(values, LEVEL, axis=0))
 
 
+def per_input(values: np.ndarray | None) -> list[list[Estimate]] | None:
+    """Estimates of per-randomization values of shape (R, d, k): one list of k per input (one interval call)."""
+    if values is None:
+        return None
+    iv = t_interval(values, LEVEL, axis=0)
+    return [estimates(Interval(*(x[j] for x in iv))) for j in range(values.shape[1])]
+
+
 @dataclass
 class GroupStats:
     """Per-randomization arrays of one group, shape (R, ...)."""
@@ -132,8 +140,8 @@ def output_results(
     """One :class:`OutputResult` per output unit of the group (``relations``: exact affine relations by name)."""
     means, variances = intervals(stats.mean), intervals(stats.var)
     nus = intervals(stats.ratio(stats.total_sum))
-    tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
-    fo = [intervals(x) for x in stats.ratio(stats.first).transpose(1, 0, 2)] if stats.first is not None else None
+    tot = per_input(stats.ratio(stats.total)) if stats.total is not None else None
+    fo = per_input(stats.ratio(stats.first)) if stats.first is not None else None
     results = []
     for k, name in enumerate(names):
         inert = bool(stats.inert[k])
@@ -160,7 +168,7 @@ def layer_result(info: LayerInfo, stats: GroupStats, features: list[str]) -> Lay
     unit_names = index_names(info.name, info.shape)
     variances = intervals(stats.var)
     nus = intervals(stats.ratio(stats.total_sum))
-    tot = [intervals(x) for x in stats.ratio(stats.total).transpose(1, 0, 2)] if stats.total is not None else None
+    tot = per_input(stats.ratio(stats.total)) if stats.total is not None else None
     units = []
     d = len(features)
     for u, name in enumerate(unit_names):

@@ -41,7 +41,7 @@ def test_points_are_rounded_up_for_scrambled_sobol_points_with_a_notice():
         ({"sampler": "halton"}, "Unknown `sampler` 'halton'; valid choices: sobol, mc."),
         (
             {"estimator": "jansn"},
-            "valid choices: jansen, fast, stairs, separate, superset, hashed. Did you mean 'jansen'?",
+            "valid choices: jansen, fast, stairs, separate, superset. Did you mean 'jansen'?",
         ),
     ],
 )
@@ -126,3 +126,10 @@ def test_the_python_api_refuses_unknown_settings_before_any_work():
     with pytest.raises(UserError, match="Did you mean 'replicates'"):
         compare_models(model, model, "normal", replicate=4)
     assert calls == []
+
+
+def test_replicates_default_to_the_estimators_own():
+    # 8 randomizations for most estimators, 32 for the fast one (its intervals need them)
+    assert DesignOptions().replicates == 8
+    assert DesignOptions(estimator="fast").replicates == 32
+    assert DesignOptions(estimator="fast", replicates=4).replicates == 4

@@ -5,6 +5,10 @@
 comparisons, and two advise runs. Each command is run again here with the same seed and every
 number the old report holds must come back equal to 1e-12 relative (the order in which blocks
 are merged may differ, which moves the last bits). Wall-clock times are not compared.
+
+Two reports were made with 0.1's fast estimator, now ``hashed``, which is no longer offered to
+users (``audit.estimators.REFERENCE_ESTIMATORS``); for those two runs alone it is put back in the
+registry, so the check still covers it.
 """
 
 from __future__ import annotations
@@ -16,6 +20,7 @@ import pytest
 from reportdiff import differences
 
 from audit.cli import main
+from audit.estimators import ESTIMATORS, REFERENCE_ESTIMATORS
 
 HERE = Path(__file__).resolve().parent / "before"
 ROOT = HERE.parents[2]
@@ -35,6 +40,9 @@ def _commands() -> list[tuple[str, list[str]]]:
 @pytest.mark.parametrize(("name", "args"), _commands(), ids=[n for n, _ in _commands()])
 def test_report_is_reproduced(name, args, tmp_path, monkeypatch):
     monkeypatch.chdir(ROOT)
+    for retired, cls in REFERENCE_ESTIMATORS.items():
+        if retired in args:
+            monkeypatch.setitem(ESTIMATORS, retired, cls)
     out = tmp_path / f"{name}.json"
     code = main([*args, "--json", str(out), "--quiet"])
     assert code == 0
