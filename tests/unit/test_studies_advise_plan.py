@@ -154,3 +154,15 @@ def test_the_smallest_plan_of_one_part_is_that_part_alone():
         fit_plan(plan, plan.evaluations - 1)
     with pytest.raises(UserError, match="`max_evaluations` must be a whole number"):
         fit_plan(plan, 0)
+
+
+def test_candidates_use_the_fast_estimator_from_32_inputs():
+    # below FAST_CANDIDATES_FROM inputs left: the audit's own design; from it: fast, 4R randomizations of
+    # (d + 1) N / 32 points (a power of two), at most a quarter of the Jansen estimator's evaluations
+    small = prepare_advice(PythonModel(phi_ridge, 6, source="ridge"), "normal", points=256, replicates=4, seed=1)
+    assert small.candidate_design() == ("jansen", 256, 4)
+    wide = prepare_advice(PythonModel(lambda x: x.sum(axis=1), 40, source="sum"), "normal", points=256, seed=1)
+    assert wide.candidate_design() == ("fast", 256, 32)  # 41 * 256 / 32 = 328 -> 256; 4 * 8 randomizations
+    jansen = 256 * 8 * (39 + 2) * wide.nodes
+    assert wide.preintegrated_cost(wide.nodes) == 256 * 32 * 2 * wide.nodes <= jansen / 4
+    assert any("fast estimator (32 randomizations of 256 points)" in n for n in wide.notices)

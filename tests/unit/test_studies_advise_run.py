@@ -144,3 +144,21 @@ def test_the_plan_and_phase_lines_go_to_the_callables_given():
     finished = [line for line in phases if " finished, " in line]
     assert len(started) == len(finished) == 2 + len(set(c.feature for o in res.outputs for c in o.preintegrate)) + 1
     assert f"({res.design['evaluations']:,} of {plan.evaluations:,} planned done" in finished[-1]
+
+
+def test_wide_model_candidates_are_exact_after_pre_integration():
+    # f = sum_j x_j + 3 x0 x1, 40 standard normal inputs: integrating x0 out leaves sum_{j != 0} x_j (E x0 = 0),
+    # additive with variance 39 (exact, common practice, no source); the candidates' audits use the fast
+    # estimator here (40 inputs), so their intervals must still hold these values
+    def f(x):
+        return x.sum(axis=1) + 3 * x[:, 0] * x[:, 1]
+
+    res = advise_function(f, "normal", dim=40, points=256, replicates=8, seed=5, only="pre-integration",
+                          gain_points=(64, 128))  # fmt: skip
+    cands = {c.feature: c for c in res.outputs[0].preintegrate}
+    assert {"x0", "x1"} <= set(cands)
+    for name in ("x0", "x1"):
+        c = cands[name]
+        assert c.mean_dimension_after.ci_low <= 1.0 <= c.mean_dimension_after.ci_high, c.mean_dimension_after
+        assert c.variance_after.ci_low <= 39.0 <= c.variance_after.ci_high, c.variance_after
+    assert any("fast estimator" in n for n in res.notices)

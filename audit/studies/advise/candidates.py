@@ -105,12 +105,13 @@ def integrate(
     names = [n for j, n in enumerate(s.names) if j != index]
     laws = [law for j, law in enumerate(s.laws) if j != index]
     spec = InputSpec(names=names, laws=laws, outputs=s.spec.outputs, source=f"{name} integrated out")
+    estimator, points, replicates = plan.candidate_design()
     options = DesignOptions(
-        points=s.design.points,
-        replicates=s.design.replicates,
+        points=points,
+        replicates=replicates,
         seed=child_seed(seed, CANDIDATE, index),
         sampler=s.design.sampler,
-        estimator=s.estimator.name,
+        estimator=estimator,
     )
     keep = s.keep if s.keep is not None else np.arange(len(s.output_names))
     sub = prepare(pm, spec, design=options, layers="none", outputs=keep)

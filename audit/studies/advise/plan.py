@@ -39,6 +39,8 @@ DEFAULT_GAIN_POINTS = tuple(2**p for p in range(8, 15))
 FREEZE_THRESHOLD = 1e-3
 #: Largest bound 2 Σ τ̄²_j / σ² (upper interval end) on the mean squared error of a frozen group.
 FREEZE_BUDGET = 0.01
+#: Inputs left after integrating one out from which the candidates' audits use the fast estimator.
+FAST_CANDIDATES_FROM = 31
 #: The parts of the advice that ``only`` can choose.
 PARTS = ("freezing", "pre-integration")
 #: Phases of an advise run, in the order they run (keys of ``AdvicePlan.phases``).
@@ -95,11 +97,30 @@ class AdvicePlan:
             return 0
         return min(self.top * outputs, d, self.max_candidates)
 
+    def candidate_design(self) -> tuple[str, int, int]:
+        """Estimator, points N' and randomizations R' of each pre-integrated audit.
+
+        The ranking needs ν after and the variance after, not first-order indices. With the
+        Jansen estimator and at least :data:`FAST_CANDIDATES_FROM` inputs left, the fast
+        estimator gets them at a quarter of the evaluations or less: R' = 4R randomizations (its
+        intervals need more, see :class:`~audit.estimators.Split`) of N' = (d + 1) N / 32 points
+        (rounded down to a power of two), 2 N' R' <= (d + 1) N R / 4 rows per Gauss node. On the
+        digits network (d = 64, N = 1024, R = 8) the standard error of ν after was 1.6 times the
+        Jansen estimator's (median over 13 candidates; intervals 1.36 times as wide, on 31 degrees
+        of freedom instead of 7) at a quarter of the evaluations. Otherwise the audit's own
+        estimator, N and R.
+        """
+        s = self.setup
+        d, n, r, name = s.design.d, s.design.points, s.design.replicates, s.estimator.name
+        if name != "jansen" or d - 1 < FAST_CANDIDATES_FROM:
+            return name, n, r
+        points = (d + 1) * n // 32
+        return "fast", 1 << (points.bit_length() - 1), 4 * r
+
     def preintegrated_cost(self, nodes: int) -> int:
         """Evaluations of one pre-integrated audit with ``nodes`` Gauss nodes."""
-        s = self.setup
-        d, n, r = s.design.d, s.design.points, s.design.replicates
-        return n * r * make_estimator(s.estimator.name, d=d - 1, points=n).rows_per_point() * nodes
+        name, n, r = self.candidate_design()
+        return n * r * make_estimator(name, d=self.setup.design.d - 1, points=n).rows_per_point() * nodes
 
     @property
     def phases(self) -> dict[str, int]:
@@ -364,4 +385,12 @@ def prepare_advice(
         setup, plan_top, cands, plan_nodes, tol, cap, floor, plan_pilot, eps, budget, gains, notices, only=only
     )
     plan.skipped = skipped
-    return fit_plan(plan, max_evaluations)
+    plan = fit_plan(plan, max_evaluations)
+    estimator, points, replicates = plan.candidate_design()
+    if plan.candidates and estimator != setup.estimator.name:
+        plan.notices.append(
+            f"The pre-integrated candidates were audited with the {estimator} estimator ({replicates} randomizations "
+            f"of {points:,} points): ν after and the variance after at a quarter of the Jansen estimator's "
+            "evaluations or less; first-order indices are not needed to rank them."
+        )
+    return plan
