@@ -276,7 +276,7 @@ class OnnxModel:
         key = tuple(sorted(names))
         if key not in self._sessions:
             model = with_outputs(self._proto, key, self.path, self._has_external)
-            self._sessions[key] = make_session(model, self.path)
+            self._sessions[key] = make_session(model, self.path, spinning=False)
         return self._sessions[key]
 
     # -- evaluation ----------------------------------------------------------------------

@@ -291,27 +291,47 @@ def test_plan_block_caps_a_default_block_whatever_memory_is_free(monkeypatch):
 # ----------------------------------------------------------------------------- the model's own floats
 
 
-def _float32_job(func, groups, detail=True, replicates=2):
-    design = Design(LAWS, 128, replicates, 3)
+def _float32_job(func, groups, detail=True, replicates=2, points=128):
+    design = Design(LAWS, points, replicates, 3)
     job = checks.job("jansen", design, [Group(g, 3, detail) for g in groups], func)
     job.dtype = np.float32
     return job
 
 
-@pytest.mark.parametrize("detail", [True, False])
-def test_float32_outputs_give_the_sums_of_their_float64_copy_bit_for_bit(detail):
-    """The Jansen sums take float32 rows as they are; their float64 copy gives the same sums exactly."""
-
+def _sums_32_and_64(func, block=32, points=128):
     def as32(x):
-        return {"out": checks.evaluator(x)["out"].astype(np.float32)}
+        return {"out": func(x).astype(np.float32)}
 
     def as64(x):
-        return {"out": checks.evaluator(x)["out"].astype(np.float32).astype(np.float64)}
+        return {"out": func(x).astype(np.float32).astype(np.float64)}
 
-    a = run(_float32_job(as32, ["out"], detail), block=32)["out"]
-    b = run(_float32_job(as64, ["out"], detail), block=32)["out"]
+    jobs = [_float32_job(f, ["out"], detail, points=points) for f in (as32, as64) for detail in (True, False)]
+    return [run(job, block=block)["out"] for job in jobs]
+
+
+def test_float32_outputs_give_the_sums_of_their_float64_copy_bit_for_bit():
+    """With per-input detail the Jansen sums take float32 rows as they are; their float64 copy gives the
+    same sums exactly."""
+    a, _, b, _ = _sums_32_and_64(lambda x: checks.evaluator(x)["out"])
     for x, y in zip(a, b, strict=True):
         checks.assert_same(checks.finished(x), checks.finished(y), rtol=0.0)
+
+
+@pytest.mark.parametrize("block", [32, 4096])  # one partial sum per block, and several of F32_ROWS rows
+def test_float32_sums_without_detail_are_within_1e_6_of_float64(block):
+    """Without detail (hidden layers) float32 differences are summed in float32 over at most F32_ROWS
+    rows: within 1e-6 relative of the float64 sums (the documented bound)."""
+    _, a, _, b = _sums_32_and_64(lambda x: checks.evaluator(x)["out"], block, points=4096)
+    for x, y in zip(a, b, strict=True):
+        checks.assert_same(checks.finished(x), checks.finished(y), rtol=1e-6)
+
+
+def test_float32_squares_that_overflow_are_summed_in_float64():
+    # differences of about 1e20 square beyond float32's 3.4e38: the block is summed in float64 instead
+    _, a, _, b = _sums_32_and_64(lambda x: 1e20 * checks.evaluator(x)["out"])
+    for x, y in zip(a, b, strict=True):
+        assert np.isfinite(x.finish(0).total_sum).all()
+        checks.assert_same(checks.finished(x), checks.finished(y), rtol=1e-12)
 
 
 @pytest.mark.parametrize("bad", [np.nan, np.inf, -np.inf])
