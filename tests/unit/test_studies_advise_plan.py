@@ -166,3 +166,6 @@ def test_candidates_use_the_fast_estimator_from_32_inputs():
     jansen = 256 * 8 * (39 + 2) * wide.nodes
     assert wide.preintegrated_cost(wide.nodes) == 256 * 32 * 2 * wide.nodes <= jansen / 4
     assert any("fast estimator (32 randomizations of 256 points)" in n for n in wide.notices)
+    # too few points for the fast estimator's one run per input: the audit's own design
+    few = prepare_advice(PythonModel(lambda x: x.sum(axis=1), 40, source="sum"), "normal", points=16, seed=1)
+    assert few.candidate_design() == ("jansen", 16, 8) and not any("fast estimator" in n for n in few.notices)

@@ -107,15 +107,15 @@ class AdvicePlan:
         (rounded down to a power of two), 2 N' R' <= (d + 1) N R / 4 rows per Gauss node. On the
         digits network (d = 64, N = 1024, R = 8) the standard error of ν after was 1.6 times the
         Jansen estimator's (median over 13 candidates; intervals 1.36 times as wide, on 31 degrees
-        of freedom instead of 7) at a quarter of the evaluations. Otherwise the audit's own
-        estimator, N and R.
+        of freedom instead of 7) at a quarter of the evaluations. Otherwise (or when N' would be
+        below the d - 1 inputs the fast estimator needs) the audit's own estimator, N and R.
         """
         s = self.setup
         d, n, r, name = s.design.d, s.design.points, s.design.replicates, s.estimator.name
-        if name != "jansen" or d - 1 < FAST_CANDIDATES_FROM:
+        points = 1 << (((d + 1) * n // 32).bit_length() - 1) if n else 0
+        if name != "jansen" or d - 1 < FAST_CANDIDATES_FROM or points < d - 1:
             return name, n, r
-        points = (d + 1) * n // 32
-        return "fast", 1 << (points.bit_length() - 1), 4 * r
+        return "fast", points, 4 * r
 
     def preintegrated_cost(self, nodes: int) -> int:
         """Evaluations of one pre-integrated audit with ``nodes`` Gauss nodes."""
