@@ -112,7 +112,8 @@ class AdvicePlan:
         """
         s = self.setup
         d, n, r, name = s.design.d, s.design.points, s.design.replicates, s.estimator.name
-        points = 1 << (((d + 1) * n // 32).bit_length() - 1) if n else 0
+        share = (d + 1) * n // 32
+        points = 1 << (share.bit_length() - 1) if share else 0
         if name != "jansen" or d - 1 < FAST_CANDIDATES_FROM or points < d - 1:
             return name, n, r
         return "fast", points, 4 * r
