@@ -169,3 +169,7 @@ def test_candidates_use_the_fast_estimator_from_32_inputs():
     # too few points for the fast estimator's one run per input: the audit's own design
     few = prepare_advice(PythonModel(lambda x: x.sum(axis=1), 40, source="sum"), "normal", points=16, seed=1)
     assert few.candidate_design() == ("jansen", 16, 8) and not any("fast estimator" in n for n in few.notices)
+    # a tiny design (no points to share): the audit's own
+    model = PythonModel(lambda x: x.sum(axis=1), 3, source="sum")
+    tiny = prepare_advice(model, "normal", points=2, replicates=2, seed=1)
+    assert tiny.candidate_design() == ("jansen", 2, 2)
