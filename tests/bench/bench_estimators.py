@@ -223,9 +223,9 @@ def markdown(results: dict, replicates: int, budget_points: int) -> str:
             )
     lines += [
         "",
-        "Lowest work per case: "
+        "Lowest work per case (estimators a user can choose): "
         + "; ".join(
-            f"{case}: {min(res['estimators'], key=lambda n: res['estimators'][n]['work_vs_jansen'])}"
+            f"{case}: {min(ESTIMATORS, key=lambda n: res['estimators'][n]['work_vs_jansen'])}"
             for case, res in results.items()
         )
         + ".",
