@@ -10,12 +10,14 @@ compares several indices.
 import estimator_checks as checks
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from audit import audit_function
 from audit.design import Design
 from audit.engine import Group, Task, run, run_task
 from audit.estimators import Jansen, t_interval
-from audit.estimators.jansen import JansenSums
+from audit.estimators.jansen import F32_ROWS, JansenSums
 from audit.inputs import Law
 from model_zoo import functions as fz
 
@@ -170,3 +172,38 @@ def test_product_of_centred_factors_against_its_exact_indices():
     for values, exact in ((total, 1.0), (first, 0.0)):
         e = t_interval(values)
         assert np.all(np.abs(e.estimate - exact) <= bound * e.std_error), (e, exact)
+
+
+def _reference(yA: np.ndarray, yB: np.ndarray, yAB: np.ndarray) -> dict[str, np.ndarray]:
+    """The per-input Jansen sums in float64, one input at a time (the definition, no buffering)."""
+    a, b, ab = (np.asarray(v, dtype=np.float64) for v in (yA, yB, yAB))
+    shift = b.mean(axis=0)
+    dif = ab - a[None]
+    return {"tot": (dif**2).sum(axis=1), "fo": ((b - shift)[None] * dif).sum(axis=1), "dif": dif.sum(axis=1)}
+
+
+# block shapes on both sides of one buffer: few rows (several inputs per numpy call, g not a multiple
+# of that number) and more rows than one float32 partial sum takes
+SHAPES = st.tuples(st.integers(1, 9), st.sampled_from([1, 3, 17, F32_ROWS + 5]), st.integers(1, 40))
+
+
+@settings(max_examples=25, deadline=None)
+@given(shape=SHAPES, seed=st.integers(0, 2**16))
+def test_buffered_sums_equal_the_definition(shape, seed):
+    """However a block is cut into numpy calls, the sums are those of the definition: float64 rows
+    with detail to 1e-12, float32 rows without detail to the documented 1e-6."""
+    g, n, k = shape
+    rng = np.random.default_rng(seed)
+    y = (rng.standard_normal(((g + 2) * n, k)) * rng.uniform(0.1, 10, k) + rng.uniform(-5, 5, k))
+    yA, yB, yAB = y[:n], y[n : 2 * n], y[2 * n :].reshape(g, n, k)
+    ref = _reference(yA, yB, yAB)
+    s = JansenSums(k, g, detail=True)
+    s.add(y)
+    for name in ("tot", "fo", "dif"):
+        np.testing.assert_allclose(getattr(s, name), ref[name], rtol=1e-12, atol=1e-12 * np.abs(ref[name]).max())
+    for rows in (y, y.astype(np.float32)):
+        s = JansenSums(k, g, detail=False)
+        s.add(rows)
+        want = _reference(*(r.astype(np.float64) for r in (rows[:n], rows[n : 2 * n], rows[2 * n :].reshape(g, n, k))))
+        rtol = 1e-12 if rows.dtype == np.float64 else 1e-6
+        np.testing.assert_allclose(s.tot_sum, want["tot"].sum(axis=0), rtol=rtol)
