@@ -31,12 +31,12 @@ import numpy as np
 
 from .base import Moments, RepEstimates
 
-__all__ = ["F32_BUFFER", "F32_ROWS", "Jansen", "JansenSums"]
+__all__ = ["DIFF_BUFFER", "F32_ROWS", "Jansen", "JansenSums"]
 
 #: Rows of one float32 partial sum of squared differences (sums without per-input detail).
 F32_ROWS = 256
-#: Bytes of the float32 buffer of differences: well inside one core's L2 cache.
-F32_BUFFER = 256 << 10
+#: Bytes of the reused buffer of differences (float32 or float64): well inside one core's L2 cache.
+DIFF_BUFFER = 256 << 10
 
 
 def _squares_f32(yA: np.ndarray, yAB: np.ndarray) -> np.ndarray:
@@ -47,12 +47,12 @@ def _squares_f32(yA: np.ndarray, yAB: np.ndarray) -> np.ndarray:
     float32 over at most :data:`F32_ROWS` rows, and those partial sums added in float64: a
     relative error of about 1e-6 at most (measured 1e-6 on a 1034-unit MLP), far below any
     interval's width, at about half the time of float64 differences. The differences go
-    through a buffer of at most :data:`F32_BUFFER` bytes, several inputs at once when a
+    through a buffer of at most :data:`DIFF_BUFFER` bytes, several inputs at once when a
     block has few rows, so that the number of numpy calls does not grow as blocks shrink.
     Float64 throughout if a partial sum overflows float32.
     """
     g, n, k = yAB.shape
-    rows = max(1, min(F32_ROWS, F32_BUFFER // (4 * max(k, 1))))
+    rows = max(1, min(F32_ROWS, DIFF_BUFFER // (4 * max(k, 1))))
     out = np.zeros(k)
     if rows >= n:  # q inputs' differences at once
         q = min(g, rows // n)
@@ -77,8 +77,8 @@ def _squares_f32(yA: np.ndarray, yAB: np.ndarray) -> np.ndarray:
 
 
 def _inputs_per_pass(n: int, k: int) -> int:
-    """Inputs whose float64 differences fit one :data:`F32_BUFFER`-sized buffer (at least one)."""
-    return max(1, F32_BUFFER // (8 * max(n * k, 1)))
+    """Inputs whose float64 differences fit one :data:`DIFF_BUFFER`-sized buffer (at least one)."""
+    return max(1, DIFF_BUFFER // (8 * max(n * k, 1)))
 
 
 class JansenSums:

@@ -46,6 +46,8 @@ class Settings:
 
     name: str
     pairs: int
+    #: pairs of the in-process timings (steady-state overhead, scipy): cheap, and noisier per run
+    steady_pairs: int
     #: overhead, per model: (points, replicates) outputs only, and with hidden layers
     mlp_none: tuple[int, int]
     mlp_layers: tuple[int, int]
@@ -73,6 +75,7 @@ class Settings:
 FULL = Settings(
     name="full",
     pairs=5,
+    steady_pairs=11,
     mlp_none=(8192, 2),
     mlp_layers=(4096, 2),
     cnn_none=(8192, 2),
@@ -90,6 +93,7 @@ FULL = Settings(
 QUICK = Settings(
     name="quick",
     pairs=1,
+    steady_pairs=1,
     mlp_none=(64, 2),
     mlp_layers=(64, 2),
     cnn_none=(64, 2),

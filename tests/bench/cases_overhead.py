@@ -99,7 +99,7 @@ def overhead(settings: Settings, models: dict[str, Path]) -> list[dict]:
             if (key, layers) not in settings.overhead_cases:
                 continue
             points, replicates = _sizes(settings, key, layers)
-            times, info = _steady(path, layers, points, replicates, settings.pairs)
+            times, info = _steady(path, layers, points, replicates, settings.steady_pairs)
             rel = path.relative_to(path.parents[1]) if key == "cnn" else path.name
             cmd = netdim_cmd(*_audit_args(path, layers, points, replicates))
             raw_cmd = [sys.executable, str(HERE / "raw_inference.py"), str(path), str(info["evaluations"]),

@@ -5,7 +5,9 @@ a_j = (j − 1)/2, j = 1..d, inputs uniform on [0, 1] ("About the use of rank
 transformation in sensitivity analysis of model output", Reliability Engineering &
 System Safety, 1995 (from memory); the function is ``model_zoo.functions.g_function``).
 scipy with ``n = N`` costs N(d + 2) evaluations; netdim's Jansen estimator with R
-randomizations of N/R points costs the same. Times are in-process, paired; peak
+randomizations of N/R points costs the same. Times are in-process, paired, each the
+mean of as many calls as fill about :data:`CALL_SECONDS` (the same count for both
+tools: single calls of a few milliseconds vary by a factor of three here); peak
 memory is tracemalloc's peak (numpy reports its buffers to it) in separate, untimed
 runs. The sanity line counts the exact indices (V_j = 1/(3(1 + a_j)²) and the product
 formula, ``tests/exact.py``) inside each tool's 95 % intervals: netdim's Student-t
@@ -14,6 +16,7 @@ intervals, scipy's bootstrap intervals (99 resamples).
 
 from __future__ import annotations
 
+import math
 import sys
 import time
 import tracemalloc
@@ -22,7 +25,10 @@ import warnings
 import numpy as np
 from cases_common import ROOT, Settings, paired, row
 
-__all__ = ["against_scipy"]
+__all__ = ["CALL_SECONDS", "against_scipy"]
+
+#: Seconds of calls (both tools together, at their warm-up speed) averaged in one timing.
+CALL_SECONDS = 0.5
 
 
 def _exact(a: np.ndarray) -> dict:
@@ -72,21 +78,26 @@ def against_scipy(settings: Settings) -> tuple[list[dict], list[dict]]:
             return audit.audit_function(model, "uniform", dim=d, points=n // reps, replicates=reps, seed=1,
                                         estimator="jansen")  # fmt: skip
 
-        def timed(f):
+        t0 = time.perf_counter()
+        netdim_run()  # warm-up (imports, the first call's caches)
+        scipy_run()
+        calls = max(1, math.ceil(CALL_SECONDS / (time.perf_counter() - t0)))  # the same count for both
+
+        def timed(f, calls: int = calls):
             def go() -> float:
                 t0 = time.perf_counter()
-                f()
-                return time.perf_counter() - t0
+                for _ in range(calls):
+                    f()
+                return (time.perf_counter() - t0) / calls
 
             return go
 
-        netdim_run()  # warm-up (imports, the first call's caches)
-        t = paired({"netdim": timed(netdim_run), "scipy": timed(scipy_run)}, settings.pairs)
+        t = paired({"netdim": timed(netdim_run), "scipy": timed(scipy_run)}, settings.steady_pairs)
         rows.append(row(f"d = {d}", t["netdim"], t["scipy"], 1.0,
                         command=f"audit_function(g, 'uniform', dim={d}, points={n // reps}, replicates={reps}, "
                                 f"estimator='jansen')",
                         reference_command=f"stats.sobol_indices(func=g, n={n}, dists=[uniform]*{d})",
-                        note=f"{n * (d + 2):,} evaluations each"))  # fmt: skip
+                        note=f"{n * (d + 2):,} evaluations each; mean of {calls} call(s) per timing"))  # fmt: skip
         ex = _exact(a)
         r = netdim_run()
         s = scipy_run()

@@ -64,7 +64,8 @@ def render(results: dict) -> str:
     out = [
         "# netdim benchmarks",
         "",
-        f"Mode: {s['name']}; {s['pairs']} paired run(s) per timing (netdim and its reference one after the other, "
+        f"Mode: {s['name']}; {s['pairs']} paired run(s) per timing of a command and "
+        f"{s.get('steady_pairs', s['pairs'])} per in-process timing (netdim and its reference one after the other, "
         "in alternating order from pair to pair); every ratio is the median of the per-pair ratios, with their "
         "min–max as the spread. Raw timings: the JSON file beside this page "
         "(`reports/bench/benchmarks.json` by default). Command: "
