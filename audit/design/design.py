@@ -101,6 +101,9 @@ def map_to_laws(u: np.ndarray, laws: Sequence[Law], groups: list[tuple[Law, np.n
     copies = u.shape[1] // d
     groups = groups if groups is not None else _law_groups(laws)
     u = np.clip(u, EPS, 1 - EPS)
+    if len(groups) == 1:  # one law for every input: no columns to gather and scatter
+        with np.errstate(over="ignore"):
+            return np.asarray(groups[0][0].ppf(u), dtype=np.float64)
     x = np.empty_like(u)
     with np.errstate(over="ignore"):  # an inverse CDF that overflows is reported by the engine, by name
         for law, cols in groups:

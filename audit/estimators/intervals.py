@@ -88,7 +88,15 @@ def t_interval(values: np.ndarray, level: float = LEVEL, axis: int = 0) -> Inter
     (2.0, 2.4841)
     """
     v = np.asarray(values, dtype=np.float64)
-    r = np.sum(np.isfinite(v), axis=axis)
+    finite = np.isfinite(v)
+    if v.size and v.shape[axis] > 1 and finite.all():  # the usual case: nanmean's and nanstd's sums, unmasked
+        r = v.shape[axis]
+        with np.errstate(over="ignore", invalid="ignore"):  # as the masked path: huge values give inf
+            est = v.mean(axis=axis)
+            se = v.std(axis=axis, ddof=1) / np.sqrt(np.float64(r))
+        half = _t_scalar(float(level), float(r - 1)) * se
+        return Interval(est, est - half, est + half, se)
+    r = np.sum(finite, axis=axis)
     with np.errstate(invalid="ignore", divide="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN entries (inert units) give NaN
         est = np.nanmean(v, axis=axis) if v.size else np.full(v.shape[1:], np.nan)

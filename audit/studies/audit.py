@@ -70,7 +70,7 @@ def execute(setup: Setup, run: RunOptions | None = None, *, pairs: int = 0) -> A
             t1 = time.perf_counter()
             extra = session.run(companion.job("audit by group"), block=companion.block)
             grouped = _result(companion, extra, time.perf_counter() - t1, [])
-    result = _result(setup, sums, seconds, [*setup.notices, *session.notices], grouped, outputs)
+    result = _result(setup, sums, seconds, [*setup.notices, *session.notices], grouped, outputs, stats)
     if paired:
         result.design["pairs"] = paired
         result.design["evaluations"] += paired["evaluations"]
@@ -89,10 +89,12 @@ def _result(
     notices: list[str],
     grouped: AuditResult | None = None,
     outputs: list | None = None,
+    stats: GroupStats | None = None,
 ) -> AuditResult:
-    """The :class:`AuditResult` of a setup's finished job (``outputs`` when already made)."""
+    """The :class:`AuditResult` of a setup's finished job (``outputs`` and ``stats`` when already made)."""
     ddof = setup.design.ddof
-    stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
+    if stats is None:
+        stats = GroupStats.of(sums[OUTPUTS], ddof, setup.eps())
     if outputs is None:
         outputs = output_results(stats, setup.output_names, setup.names, setup.redundant)
     layer_stats = {
