@@ -20,6 +20,7 @@ References
 
 from __future__ import annotations
 
+import threading
 from collections.abc import Sequence
 from typing import Protocol
 
@@ -33,6 +34,8 @@ __all__ = ["POINT_SETS", "MonteCarlo", "PointSet", "ScrambledSobol", "make_point
 SOBOL_MAXDIM = 21201
 
 Seed = int | np.random.SeedSequence
+#: Kept engines advance as they draw: one draw at a time, whatever thread asks.
+_ENGINES_LOCK = threading.Lock()
 
 
 class PointSet(Protocol):
@@ -96,6 +99,10 @@ class ScrambledSobol:
         return [int(w) for w in words]
 
     def _rows(self, key: tuple[int, int], dim: int, seed: Seed, start: int, n: int) -> np.ndarray:
+        with _ENGINES_LOCK:  # blocks of one randomization may be drawn from two threads (the engine)
+            return self._draw(key, dim, seed, start, n)
+
+    def _draw(self, key: tuple[int, int], dim: int, seed: Seed, start: int, n: int) -> np.ndarray:
         engine = self._engines.get(key)
         if engine is None or engine.num_generated > start:  # type: ignore[attr-defined]
             engine = sobol_engine(dim, seed)

@@ -29,25 +29,26 @@ INPUT_TYPES = {
 }  # fmt: skip
 
 
-def session_options(spinning: bool = True) -> ort.SessionOptions:
-    """One thread per core; errors only in the log; ``spinning=False``: idle threads sleep at once."""
+def session_options(spinning: bool = True, threads: int | None = None) -> ort.SessionOptions:
+    """One thread per core (or ``threads``); errors only in the log; ``spinning=False``: idle threads sleep at once."""
     options = ort.SessionOptions()
-    options.intra_op_num_threads = os.cpu_count() or 1
+    options.intra_op_num_threads = threads or os.cpu_count() or 1
     options.log_severity_level = 3  # errors only: no warnings on the user's terminal
     if not spinning:
         options.add_session_config_entry("session.intra_op.allow_spinning", "0")
     return options
 
 
-def session(model: str | bytes, where: Path, spinning: bool = True) -> ort.InferenceSession:
+def session(model: str | bytes, where: Path, spinning: bool = True, threads: int | None = None) -> ort.InferenceSession:
     """An onnxruntime CPU session of ``model``; its errors become one-paragraph :class:`UserError`s.
 
     ``spinning=False`` for sessions that capture hidden layers: their large blocks are summed
     on a helper thread beside the inference, and threads that spin while waiting take its core
-    (measured 5-12 % faster all-layer audits of a 64-256-256-10 MLP on 2 cores).
+    (measured 5-12 % faster all-layer audits of a 64-256-256-10 MLP on 2 cores). ``threads``:
+    intra-op threads (default one per core), fewer for sessions that run several calls at once.
     """
     try:
-        options = session_options(spinning)
+        options = session_options(spinning, threads)
         return ort.InferenceSession(model, sess_options=options, providers=["CPUExecutionProvider"])
     except Exception as exc:  # onnxruntime raises its own classes (Fail, InvalidGraph, ...)
         kind = type(exc).__name__

@@ -18,11 +18,23 @@ def _kept(outputs: np.ndarray, keep: np.ndarray | None) -> np.ndarray:
     return outputs if keep is None else outputs.reshape(len(outputs), -1)[:, keep]
 
 
+def _concurrent(model: Model, calls: int) -> Model | None:
+    """The model's twin for ``calls`` concurrent evaluations (None: it has none)."""
+    make = getattr(model, "concurrent", None)
+    return make(calls) if callable(make) else None
+
+
 class ModelEvaluator:
     """One model: rows -> ``{"outputs": ..., "layer:NAME": ...}``; ``keep`` selects output columns."""
 
     def __init__(self, model: Model, capture: Sequence[str], keep: np.ndarray | None = None) -> None:
         self.model, self.capture, self.keep = model, list(capture), keep
+
+    def concurrent(self, calls: int) -> ModelEvaluator | None:
+        """This evaluator for ``calls`` blocks at once, or None if its model cannot take them
+        (see :meth:`audit.models.onnx.OnnxModel.concurrent`)."""
+        twin = _concurrent(self.model, calls)
+        return None if twin is None else ModelEvaluator(twin, self.capture, self.keep)
 
     def __call__(self, x: np.ndarray) -> dict[str, np.ndarray]:
         ev = self.model.evaluate(x, self.capture)
@@ -55,6 +67,13 @@ class PairedEvaluator:
     ) -> None:
         self.old, self.new, self.layers = old, new, list(layers)
         self.keep_old, self.keep_new = keep_old, keep_new
+
+    def concurrent(self, calls: int) -> PairedEvaluator | None:
+        """Both models for ``calls`` blocks at once, or None unless both can take them."""
+        old, new = _concurrent(self.old, calls), _concurrent(self.new, calls)
+        if old is None or new is None:
+            return None
+        return PairedEvaluator(old, new, self.layers, self.keep_old, self.keep_new)
 
     def __call__(self, x: np.ndarray) -> dict[str, np.ndarray]:
         ea = self.old.evaluate(x, [a for a, _ in self.layers])

@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from .. import engine
+from .. import engine, memory
 from ..design import Design
 from ..errors import UserError, suggest
 from ..estimators import machine_eps, make_estimator
@@ -181,7 +181,7 @@ def value_eps(model: Model, group: str = OUTPUTS) -> np.ndarray | float:
 def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | None) -> None:
     """Refuse, before any work, jobs whose largest memory need does not fit (each job runs alone)."""
     need = max((engine.estimate_memory(job, block) for job, block in jobs), default=0)
-    have = memory_limit if memory_limit is not None else engine.available_memory()
+    have = memory_limit if memory_limit is not None else memory.available_memory()
     if need > 0.8 * have:
         raise UserError(
             f"This run would need about {need / 2**30:.1f} GiB of memory but {have / 2**30:.1f} GiB is "

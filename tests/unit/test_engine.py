@@ -17,7 +17,6 @@ from audit.engine import (
     LocalExecutor,
     NonFiniteError,
     Task,
-    _bytes_per_point,
     available_memory,
     estimate_memory,
     iter_tasks,
@@ -28,6 +27,7 @@ from audit.engine import (
 from audit.errors import UserError
 from audit.estimators import make_estimator
 from audit.inputs import Law
+from audit.memory import _bytes_per_point
 
 LAWS = checks.LAWS
 pytestmark = pytest.mark.filterwarnings(checks.ANY_BLOCK)
@@ -267,7 +267,7 @@ def test_plan_block_respects_the_budget(budget, units, rows):
 
 
 def test_plan_block_defaults_to_a_share_of_the_available_memory(monkeypatch):
-    monkeypatch.setattr("audit.engine.available_memory", lambda: 1 << 30)
+    monkeypatch.setattr("audit.memory.available_memory", lambda: 1 << 30)
     per = _bytes_per_point(8, 5000, 10)
     n = plan_block(2**20, 8, 5000, 10)
     assert n * per <= (1 << 30) // 4 < 2 * n * per  # MEMORY_SHARE = 1/4
@@ -278,9 +278,9 @@ def test_available_memory_is_a_positive_number_of_bytes():
 
 
 def test_plan_block_caps_a_default_block_whatever_memory_is_free(monkeypatch):
-    from audit.engine import BLOCK_BYTES
+    from audit.memory import BLOCK_BYTES
 
-    monkeypatch.setattr("audit.engine.available_memory", lambda: 1 << 40)
+    monkeypatch.setattr("audit.memory.available_memory", lambda: 1 << 40)
     per = _bytes_per_point(64, 1034, 66, native=True)
     n = plan_block(2**20, 64, 1034, 66, native=True)
     assert n * per <= BLOCK_BYTES < 2 * n * per

@@ -6,7 +6,7 @@ the bottom (DEVELOPERS.md, "Layers"):
 
     0  errors, seeds, version
     1  inputs, results
-    2  design, estimators, models, finite
+    2  design, estimators, models, finite, memory
     3  engine, quadrature
     4  checkpoint, cluster, nodes, export
     5  studies, report
@@ -39,6 +39,7 @@ LAYERS = {
     "estimators": 2,
     "models": 2,
     "finite": 2,
+    "memory": 2,
     "engine": 3,
     "quadrature": 3,
     "checkpoint": 4,

@@ -6,7 +6,7 @@ import clifuncs
 import numpy as np
 import pytest
 
-from audit import engine
+from audit import memory
 from audit.errors import UserError
 from audit.models.base import Evaluation, LayerInfo, TensorInfo
 from audit.models.python import PythonModel
@@ -172,7 +172,7 @@ def _wide(x):
 
 
 def test_a_comparison_that_fits_the_memory_limit_is_not_refused(monkeypatch):
-    monkeypatch.setattr(engine, "available_memory", lambda: 8 << 30)
+    monkeypatch.setattr(memory, "available_memory", lambda: 8 << 30)
     model = PythonModel(_wide, 10, source="wide")
     limit = 200 << 20
     options = DesignOptions(points=256, replicates=2, seed=1)

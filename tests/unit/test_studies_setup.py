@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from fake_models import Layered
 
-from audit import engine
+from audit import engine, memory
 from audit.errors import UserError
 from audit.inputs import InputSpec, Law
 from audit.models.open import open_model
@@ -64,12 +64,12 @@ def test_a_run_that_would_not_fit_in_memory_is_refused_before_any_work():
 
 
 def test_the_memory_limit_sets_the_block(monkeypatch):
-    monkeypatch.setattr(engine, "available_memory", lambda: 1 << 40)
+    monkeypatch.setattr(memory, "available_memory", lambda: 1 << 40)
     big = DesignOptions(points=2**16, replicates=2, seed=1)
     free = prepare(Layered(), "normal", design=big).block
     limited = prepare(Layered(), "normal", design=big, memory_limit=1 << 20).block
     assert limited < free
-    assert limited * engine._bytes_per_point(3, 2 + 4, 5) <= (1 << 20) // 2  # half the limit for the block
+    assert limited * memory._bytes_per_point(3, 2 + 4, 5) <= (1 << 20) // 2  # half the limit for the block
     assert prepare(Layered(), "normal", design=big, block=100).block == 100
 
 
