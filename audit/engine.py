@@ -169,8 +169,9 @@ class LocalExecutor:
     Large blocks (``OVERLAP_VALUES``) of a model that takes concurrent calls (its
     evaluator's ``concurrent``: ONNX models) run side by side, each task whole --
     evaluation and sums -- in its own thread on a session with its share of the cores;
-    on 2 cores this took an all-layer audit of a 64-256-256-10 MLP from 1.59x to 1.24x
-    the model's own inference (one two-thread session). Other models overlap instead:
+    on 2 cores this took audits with the activation layers from 1.52x to 1.25x (a
+    64-256-256-10 MLP) and from 1.80x to 1.44x (the digits CNN) the model's own
+    inference on one two-thread session (tests/bench). Other models overlap instead:
     one task's sums are formed in a helper thread while the model evaluates the next
     (numpy and the model runtimes release the GIL). Either way the merged sums are those
     of :func:`run_task` one task after the other.

@@ -94,7 +94,7 @@ class FastSums:
         n = y.shape[0] // 2
         yA, yJ = y[:n], y[n:]
         self.rows += n
-        self.moments.add(np.concatenate([yA, yJ]))
+        self.moments.add_pair(yA, yJ)
         sq = (yA - yJ) ** 2
         if self.detail:
             np.add.at(self.tot, js, sq)

@@ -122,15 +122,14 @@ class JansenSums:
         squared differences are summed as :func:`_squares_f32` says.
         """
         native32 = yA.dtype == np.float32 and yAB.dtype == np.float32
-        rows32, blocks32 = yA, yAB
-        yA = np.asarray(yA, dtype=np.float64)
-        yB = np.asarray(yB, dtype=np.float64)
         n = yA.shape[0]
         self.rows += n
-        self.moments.add(np.concatenate([yA, yB]))
+        self.moments.add_pair(yA, yB)
         if not self.detail and native32:
-            self.tot_sum += _squares_f32(rows32, blocks32)
+            self.tot_sum += _squares_f32(yA, yAB)
             return
+        yA = np.asarray(yA, dtype=np.float64)
+        yB = np.asarray(yB, dtype=np.float64)
         q = _inputs_per_pass(n, yA.shape[1])
         buf = np.empty((q, *yA.shape))
         if not self.detail:

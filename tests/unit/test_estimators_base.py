@@ -39,3 +39,24 @@ def test_empty_moments_merge_as_nothing():
     empty.merge(m)
     np.testing.assert_array_equal(empty.mean, m.mean)
     assert empty.mean is not m.mean  # a copy, so later merges do not alias
+
+
+
+@pytest.mark.parametrize("dtype", [np.float32, np.float64])
+@pytest.mark.parametrize("sizes", [(1, 1), (7, 3), (256, 256)])
+def test_a_pair_of_blocks_adds_as_their_float64_concatenation(dtype, sizes):
+    rng = np.random.default_rng(sizes[0])
+    first = rng.normal(size=(4, 5))
+    a, b = (rng.normal(3.0, 2.0, size=(n, 5)).astype(dtype) for n in sizes)
+    pair, whole = Moments(5), Moments(5)
+    for m in (pair, whole):  # a block before the pair: the merge is exercised too
+        m.add(first)
+    pair.add_pair(a, b)
+    whole.add(np.concatenate([a.astype(np.float64), b.astype(np.float64)]))
+    assert pair.count == whole.count == 4 + sum(sizes)
+    np.testing.assert_array_equal(pair.mean, whole.mean)  # bit for bit
+    np.testing.assert_array_equal(pair.m2, whole.m2)
+    fresh = Moments(5)
+    fresh.add_pair(a, b)
+    everything = np.concatenate([a, b]).astype(np.float64)
+    np.testing.assert_allclose(fresh.variance(0), everything.var(axis=0), rtol=1e-12)
