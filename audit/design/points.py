@@ -13,29 +13,26 @@ module, the registry and its tests.
 References
 ----------
 .. [1] Scrambled Sobol' points are :class:`scipy.stats.qmc.Sobol` with
-   ``scramble=True`` (made by :func:`audit.design.scramble.sobol_engine`, which gives
-   the same engines faster); independent scramblings give independent replicates of an
+   ``scramble=True`` (made by :mod:`audit.design.scramble`, the same points without
+   scipy's engines); independent scramblings give independent replicates of an
    unbiased estimate (randomized quasi-Monte Carlo: common practice, no source).
 """
 
 from __future__ import annotations
 
-import threading
 from collections.abc import Sequence
 from typing import Protocol
 
 import numpy as np
 
-from .scramble import sobol_engine
+from .scramble import MAXDIM, sobol_rows, sobol_state
 
 __all__ = ["POINT_SETS", "MonteCarlo", "PointSet", "ScrambledSobol", "make_point_set"]
 
 #: scipy's Sobol' engines support at most this many dimensions (``qmc.Sobol.MAXDIM``).
-SOBOL_MAXDIM = 21201
+SOBOL_MAXDIM = MAXDIM
 
 Seed = int | np.random.SeedSequence
-#: Kept engines advance as they draw: one draw at a time, whatever thread asks.
-_ENGINES_LOCK = threading.Lock()
 
 
 class PointSet(Protocol):
@@ -67,8 +64,10 @@ class ScrambledSobol:
 
     Notes
     -----
-    Engines are kept between calls, so consecutive blocks of one randomization
-    cost no rescrambling; a block before the engine's position starts a new one.
+    The points are scipy's (``qmc.Sobol(w, scramble=True, rng=default_rng(seed))``),
+    made by :mod:`audit.design.scramble` without importing :mod:`scipy.stats`. Each
+    randomization's scramble is kept between calls; any block comes straight from it
+    (no engine position), so blocks may be drawn in any order and from any thread.
     Scrambled Sobol' coordinates are multiples of 2^-30 and may be exactly 0.
     """
 
@@ -88,7 +87,7 @@ class ScrambledSobol:
                 f"scrambled Sobol' points support 1..{SOBOL_MAXDIM} dimensions per engine; "
                 f"got {self.dim} in {self.parts} part(s)."
             )
-        self._engines: dict[tuple[int, int], object] = {}
+        self._states: dict[tuple[int, int], tuple[np.ndarray, np.ndarray]] = {}
 
     def _part_seeds(self, rep: int) -> list[Seed]:
         seed = self.seeds[rep]
@@ -99,19 +98,13 @@ class ScrambledSobol:
         return [int(w) for w in words]
 
     def _rows(self, key: tuple[int, int], dim: int, seed: Seed, start: int, n: int) -> np.ndarray:
-        with _ENGINES_LOCK:  # blocks of one randomization may be drawn from two threads (the engine)
-            return self._draw(key, dim, seed, start, n)
-
-    def _draw(self, key: tuple[int, int], dim: int, seed: Seed, start: int, n: int) -> np.ndarray:
-        engine = self._engines.get(key)
-        if engine is None or engine.num_generated > start:  # type: ignore[attr-defined]
-            engine = sobol_engine(dim, seed)
-            if len(self._engines) >= max(4, 2 * self.parts):  # few randomizations are in use at a time
-                self._engines.clear()
-            self._engines[key] = engine
-        if engine.num_generated < start:  # type: ignore[attr-defined]
-            engine.fast_forward(start - engine.num_generated)  # type: ignore[attr-defined]
-        return engine.random(n)  # type: ignore[attr-defined]
+        state = self._states.get(key)
+        if state is None:
+            state = sobol_state(dim, seed)
+            if len(self._states) >= max(4, 2 * self.parts):  # few randomizations are in use at a time
+                self._states.clear()
+            self._states[key] = state
+        return sobol_rows(state, start, n)
 
     def uniforms(self, rep: int, start: int, n: int) -> np.ndarray:
         seeds = self._part_seeds(rep)
@@ -120,7 +113,7 @@ class ScrambledSobol:
 
     def __getstate__(self) -> dict:
         state = dict(self.__dict__)
-        state["_engines"] = {}  # engines are rebuilt where the point set is sent (another process)
+        state["_states"] = {}  # scrambles are redrawn where the point set is sent (another process)
         return state
 
 

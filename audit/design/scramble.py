@@ -1,33 +1,35 @@
-"""Scrambled Sobol' engines equal to scipy's, built without its per-engine costs.
+"""Scrambled Sobol' points equal to scipy's, without importing :mod:`scipy.stats`.
 
-``qmc.Sobol(dim, scramble=True, rng=np.random.default_rng(seed))`` spends about
-half a millisecond making an engine: a deep copy of its generator (kept for
-``reset``) and the linear matrix scramble, one bit at a time. An audit of a cheap
-function at small d makes one engine per randomization and spent half its time
-there. :func:`sobol_engine` draws the same random bits from the same generator
-(the child scipy spawns from it), applies the same linear matrix scramble as one
-batched product modulo 2 and the same digital shift, and puts the result into a
-shallow copy of an unscrambled engine of that dimension: the points are scipy's,
-bit for bit, from the same ``random`` and ``fast_forward``.
+``qmc.Sobol(dim, scramble=True, rng=np.random.default_rng(seed))`` is the
+reference: its direction numbers (the Joe–Kuo numbers scipy ships, initialised
+as scipy initialises them), its linear matrix scramble and digital shift drawn
+from the same generator in the same order, and its Gray-code order of points.
+This module reproduces them with numpy alone, because importing
+:mod:`scipy.stats` costs about a second, most of the start-up of a small audit,
+and because scipy builds an engine in about half a millisecond (a deep copy of its
+generator, the scramble one bit at a time) where a small audit needs one per
+randomization. Any rows ``[start, start + n)`` come straight from the scrambled
+direction numbers (:func:`sobol_rows`): no engine state, no fast-forwarding,
+the same values whatever order or thread asks.
 
-The first engine of each dimension in a process is compared with scipy's own
-(direction numbers and shift, bit for bit); if they differ, or an attribute is
-missing (a scipy release that scrambles otherwise), scipy's constructor is used
-for that dimension from then on. Either way the points are scipy's.
+The tests compare every piece with scipy's own engines, bit for bit.
 
 References
 ----------
-.. [1] The scramble is scipy's (:class:`scipy.stats.qmc.Sobol`, ``scramble=True``):
-   a random lower-triangular binary matrix with unit diagonal applied to the
-   direction numbers ("linear matrix scrambling") and a random digital shift
-   ("Scrambling Sobol' and Niederreiter-Xing points", Journal of Complexity, 1998).
+.. [1] Direction numbers: "Constructing Sobol sequences with better two-dimensional
+   projections", SIAM Journal on Scientific Computing, 2008 (scipy's file of them is read).
+.. [2] Gray-code order and the recurrence of direction numbers: "Algorithm 659:
+   Implementing Sobol's quasirandom sequence generator", ACM Transactions on
+   Mathematical Software, 1988.
+.. [3] Linear matrix scrambling and a digital shift: "Scrambling Sobol' and
+   Niederreiter-Xing points", Journal of Complexity, 1998.
 
 Examples
 --------
 >>> import numpy as np
 >>> from scipy.stats import qmc
->>> from audit.design.scramble import sobol_engine
->>> ours = sobol_engine(3, 7).random(8)
+>>> from audit.design.scramble import sobol_rows, sobol_state
+>>> ours = sobol_rows(sobol_state(3, 7), 0, 8)
 >>> theirs = qmc.Sobol(3, scramble=True, rng=np.random.default_rng(7)).random(8)
 >>> bool(np.array_equal(ours, theirs))
 True
@@ -35,88 +37,75 @@ True
 
 from __future__ import annotations
 
-import copy
 import functools
-import threading
+import importlib.util
+from pathlib import Path
 
 import numpy as np
 
-__all__ = ["sobol_engine"]
+__all__ = ["BITS", "MAXDIM", "direction_numbers", "sobol_rows", "sobol_state"]
 
+#: Bits of every coordinate (scipy's default): points are multiples of 2^-30.
+BITS = 30
+#: Dimensions scipy's direction numbers cover (``qmc.Sobol.MAXDIM``).
+MAXDIM = 21201
 #: Dimensions scrambled per batched product (bounds its temporary arrays to a few MiB).
 CHUNK_DIMS = 1024
-#: Unscrambled engines kept, one per dimension in use.
-TEMPLATES_KEPT = 16
 
-_lock = threading.Lock()
-_templates: dict[int, tuple[object, np.ndarray]] = {}
-_verified: dict[int, bool] = {}  # dimension -> the fast engines equal scipy's
+State = tuple[np.ndarray, np.ndarray]
 
 
-def _fresh(seed: int | np.random.SeedSequence) -> int | np.random.SeedSequence:
-    """A seed sequence as it was made: the engine spawns a child from it, and a used one
-    would give another child each time (points that depend on what ran before)."""
-    if isinstance(seed, np.random.SeedSequence):
-        return np.random.SeedSequence(seed.entropy, spawn_key=seed.spawn_key, pool_size=seed.pool_size)
-    return seed
+@functools.lru_cache(maxsize=1)
+def _joe_kuo() -> tuple[np.ndarray, np.ndarray]:
+    """Primitive polynomials and initial numbers per dimension, from scipy's data file."""
+    spec = importlib.util.find_spec("scipy")
+    folder = Path(next(iter(spec.submodule_search_locations or [])))  # type: ignore[union-attr]
+    with np.load(folder / "stats" / "_sobol_direction_numbers.npz") as data:
+        return data["poly"].astype(np.int64), data["vinit"].astype(np.uint64)
 
 
-def _scipy_engine(dim: int, seed) -> object:
-    from scipy.stats import qmc
+@functools.lru_cache(maxsize=16)
+def direction_numbers(dim: int) -> np.ndarray:
+    """Unscrambled direction numbers of the first ``dim`` dimensions, shape (dim, BITS), uint32.
 
-    return qmc.Sobol(dim, scramble=True, rng=np.random.default_rng(seed))
-
-
-def _template(dim: int) -> tuple[object, np.ndarray]:
-    """An unscrambled engine of this dimension and its direction numbers as bits (dim, bit, column)."""
-    from scipy.stats import qmc
-
-    with _lock:
-        kept = _templates.get(dim)
-        if kept is None:
-            if len(_templates) >= TEMPLATES_KEPT:
-                _templates.clear()
-            engine = qmc.Sobol(dim, scramble=False, rng=np.random.default_rng(0))
-            sv = engine._sv  # type: ignore[attr-defined]
-            k = np.arange(sv.shape[1], dtype=sv.dtype)
-            kept = (engine, ((sv[:, None, :] >> k[None, :, None]) & 1).astype(np.float32))
-            _templates[dim] = kept
-    return kept
-
-
-@functools.lru_cache(maxsize=4)
-def _constants(bits: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Masks and weights of the scramble for ``bits`` bits, column order reversed as scipy reads a row."""
-    lower = np.tril(np.ones((bits, bits), dtype=np.uint32), -1)[:, ::-1].copy()
-    eye = np.eye(bits, dtype=np.uint32)[:, ::-1].copy()
-    powers = 2 ** np.arange(bits, dtype=np.uint32)
-    weights = 2.0 ** np.arange(bits - 1, -1, -1)
-    return lower, eye, powers, weights
-
-
-def _scrambled_state(plain: object, v_bits: np.ndarray, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
-    """Direction numbers and shift scrambled as scipy scrambles them, from the same draws.
-
-    scipy reads row p of the lower-triangular matrix (unit diagonal) as a word whose
-    bit (bits - 1 - k) is the matrix's column k, and sets bit (bits - 1 - p) of a new
-    direction number to the parity of that word ANDed with the old one.
+    Column j of dimension d is scipy's ``v[d, j]``: the first m_d from the initial
+    numbers, the rest by the recurrence of the dimension's primitive polynomial of
+    degree m_d, then column j scaled by 2^(BITS - 1 - j).
     """
-    dim, bits = plain._sv.shape  # type: ignore[attr-defined]
-    dtype = plain._sv.dtype  # type: ignore[attr-defined]
-    lower, eye, powers, weights = _constants(bits)
-    shift = rng.integers(2, size=(dim, bits), dtype=dtype) @ powers.astype(dtype)
-    ltm = rng.integers(2, size=(dim, bits, bits), dtype=dtype)  # the same draws, in scipy's order
-    sv = np.empty((dim, bits), dtype=dtype)
-    for lo in range(0, dim, CHUNK_DIMS):
-        hi = min(dim, lo + CHUNK_DIMS)
-        matrix = ((ltm[lo:hi, :, ::-1] & lower) | eye).astype(np.float32)
-        parity = np.matmul(matrix, v_bits[lo:hi]).astype(np.uint8) & 1  # (dims, p, j); sums ≤ bits: exact
-        sv[lo:hi] = np.matmul(weights, parity.astype(np.float64)).astype(dtype)  # sums of distinct powers: exact
-    return sv, shift.astype(dtype)
+    dim = int(dim)
+    if not 1 <= dim <= MAXDIM:
+        raise ValueError(f"scrambled Sobol' points support 1..{MAXDIM} dimensions; got {dim}.")
+    v = np.zeros((dim, BITS), dtype=np.uint64)
+    v[0, :] = 1
+    if dim > 1:
+        poly_all, vinit = _joe_kuo()
+        poly = poly_all[1:dim]
+        degree = np.array([int(p).bit_length() - 1 for p in poly])
+        rows = v[1:]  # a view: writes land in v
+        for j in range(BITS):
+            given = j < degree
+            if given.any():
+                rows[given, j] = vinit[1:dim][given, j]
+            idx = np.flatnonzero(~given)
+            if not len(idx):
+                continue
+            m, p = degree[idx], poly[idx]
+            new = rows[idx, j - m]
+            for k in range(int(m.max())):
+                bit = ((p >> np.maximum(m - 1 - k, 0)) & 1).astype(bool) & (k < m)
+                earlier = rows[idx, max(j - k - 1, 0)]
+                new = np.where(bit, new ^ (earlier << np.uint64(k + 1)), new)
+            rows[idx, j] = new
+    v *= np.uint64(1) << np.arange(BITS - 1, -1, -1, dtype=np.uint64)
+    out = v.astype(np.uint32)
+    out.flags.writeable = False
+    return out
 
 
 def _child(seed: int | np.random.SeedSequence) -> np.random.Generator:
-    """What ``qmc.Sobol`` draws from when given ``default_rng(seed)``: its first spawned child."""
+    """What ``qmc.Sobol`` draws its scramble from when given ``default_rng(seed)``: its first
+    spawned child. A seed sequence counts as made (children it spawned before are ignored), so
+    the same seed always gives the same points."""
     if isinstance(seed, np.random.SeedSequence):
         sequence = np.random.SeedSequence(seed.entropy, spawn_key=(*seed.spawn_key, 0), pool_size=seed.pool_size)
     else:
@@ -124,65 +113,75 @@ def _child(seed: int | np.random.SeedSequence) -> np.random.Generator:
     return np.random.Generator(np.random.PCG64(sequence))
 
 
-def _fast_engine(dim: int, seed) -> object:
-    plain, v_bits = _template(dim)
-    rng = _child(seed)
-    sv, shift = _scrambled_state(plain, v_bits, rng)
-    engine = copy.copy(plain)
-    engine.rng = engine.rng_seed = rng  # type: ignore[attr-defined]
-    engine.scramble = True  # type: ignore[attr-defined]
-    engine.num_generated = 0  # type: ignore[attr-defined]
-    engine._sv = sv  # type: ignore[attr-defined]
-    engine._shift = shift  # type: ignore[attr-defined]
-    engine._quasi = shift.copy()  # type: ignore[attr-defined]
-    engine._first_point = (shift * engine._scale).reshape(1, -1).astype(np.float64)  # type: ignore[attr-defined]
-    return engine
+@functools.lru_cache(maxsize=4)
+def _constants(bits: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Masks and weights of the scramble, columns reversed as scipy reads a matrix row."""
+    lower = np.tril(np.ones((bits, bits), dtype=np.uint32), -1)[:, ::-1].copy()
+    eye = np.eye(bits, dtype=np.uint32)[:, ::-1].copy()
+    powers = 2 ** np.arange(bits, dtype=np.uint32)
+    weights = 2.0 ** np.arange(bits - 1, -1, -1)
+    return lower, eye, powers, weights
 
 
-def _same(fast: object, reference: object) -> bool:
-    names = ("_sv", "_shift", "_quasi", "_first_point", "_scale", "maxn", "bits")
-    try:
-        return all(np.array_equal(getattr(fast, a), getattr(reference, a)) for a in names)
-    except AttributeError:
-        return False
-
-
-def sobol_engine(dim: int, seed: int | np.random.SeedSequence) -> object:
-    """A fresh scrambled Sobol' engine equal to ``qmc.Sobol(dim, scramble=True, rng=default_rng(seed))``.
+def sobol_state(dim: int, seed: int | np.random.SeedSequence) -> State:
+    """Scrambled direction numbers and digital shift of one randomization.
 
     Parameters
     ----------
     dim : int
-        Dimension of the points, 1 to ``qmc.Sobol.MAXDIM``.
+        Dimension of the points, 1 to :data:`MAXDIM`.
     seed : int or numpy.random.SeedSequence
-        Seed of the generator the scramble is drawn from. A seed sequence is used as
-        made (its children spawned so far are ignored), so the same seed always gives
-        the same engine.
+        The seed scipy's engine would be given as ``rng=np.random.default_rng(seed)``.
 
     Returns
     -------
-    engine : scipy.stats.qmc.Sobol
-        An engine at position 0 whose ``random`` and ``fast_forward`` give the
-        points of scipy's engine of that dimension and seed, bit for bit.
+    (sv, shift) : tuple of ndarray
+        uint32 arrays of shape (dim, BITS) and (dim,), for :func:`sobol_rows`.
 
-    Examples
-    --------
-    >>> from audit.design.scramble import sobol_engine
-    >>> sobol_engine(2, 1).random(4).shape
-    (4, 2)
+    Notes
+    -----
+    scipy draws the shift's bits, then the lower-triangular matrices (unit diagonal);
+    it reads row p of a matrix as a word whose bit (BITS - 1 - k) is the matrix's
+    column k, and sets bit (BITS - 1 - p) of a new direction number to the parity of
+    that word ANDed with the old one: here one batched product modulo 2.
     """
-    dim, seed = int(dim), _fresh(seed)
-    state = _verified.get(dim)
-    if state is False:
-        return _scipy_engine(dim, seed)
-    try:
-        fast = _fast_engine(dim, seed)
-    except (AttributeError, TypeError, ValueError):
-        _verified[dim] = False
-        return _scipy_engine(dim, seed)
-    if state is None:
-        reference = _scipy_engine(dim, _fresh(seed))
-        _verified[dim] = _same(fast, reference)
-        if not _verified[dim]:
-            return reference
-    return fast
+    plain = direction_numbers(dim)
+    rng = _child(seed)
+    lower, eye, powers, weights = _constants(BITS)
+    shift = rng.integers(2, size=(dim, BITS), dtype=np.uint32) @ powers
+    ltm = rng.integers(2, size=(dim, BITS, BITS), dtype=np.uint32)
+    k = np.arange(BITS, dtype=np.uint32)
+    sv = np.empty((dim, BITS), dtype=np.uint32)
+    for lo in range(0, dim, CHUNK_DIMS):
+        hi = min(dim, lo + CHUNK_DIMS)
+        matrix = ((ltm[lo:hi, :, ::-1] & lower) | eye).astype(np.float32)
+        v_bits = ((plain[lo:hi, None, :] >> k[None, :, None]) & 1).astype(np.float32)  # (dims, bit, column)
+        parity = np.matmul(matrix, v_bits).astype(np.uint8) & 1  # sums ≤ BITS: exact in float32
+        sv[lo:hi] = np.matmul(weights, parity.astype(np.float64)).astype(np.uint32)  # distinct powers: exact
+    return sv, shift.astype(np.uint32)
+
+
+def sobol_rows(state: State, start: int, n: int) -> np.ndarray:
+    """Points ``start`` to ``start + n - 1`` of a scrambled sequence, shape (n, dim), float64.
+
+    Point i is the shift XOR the direction numbers of the bits set in the Gray code
+    ``i ^ (i >> 1)``; consecutive points differ by one direction number (the lowest
+    set bit of i), so a block is one cumulative XOR.
+    """
+    sv, shift = state
+    start, n = int(start), int(n)
+    if start < 0 or n < 0 or start + n > 1 << BITS:
+        raise ValueError(f"rows [{start}, {start + n}) are outside the 2^{BITS} points of the sequence.")
+    words = np.empty((n, len(shift)), dtype=np.uint32)
+    if n:
+        gray = start ^ (start >> 1)
+        first = shift.copy()
+        for b in range(BITS):
+            if (gray >> b) & 1:
+                first ^= sv[:, b]
+        words[0] = first
+        i = np.arange(start + 1, start + n, dtype=np.int64)
+        low = np.frexp((i & -i).astype(np.float64))[1] - 1  # the lowest set bit of each index
+        words[1:] = sv.T[low]
+        np.bitwise_xor.accumulate(words, axis=0, out=words)
+    return words * (1.0 / 2**BITS)

@@ -48,7 +48,7 @@ def _splits(n: int):
 @given(blocks=_splits(N), rep=st.integers(0, 2), parts=st.sampled_from([None, 2, 3]))
 def test_any_split_of_rows_gives_identical_scrambled_sobol_uniforms(blocks, rep, parts):
     whole = ScrambledSobol(7, SEEDS, parts=parts).uniforms(rep, 0, N)
-    points = ScrambledSobol(7, SEEDS, parts=parts)  # one instance for every block: engines are reused
+    points = ScrambledSobol(7, SEEDS, parts=parts)  # one instance for every block: scrambles are reused
     got = np.empty_like(whole)
     for a, b in blocks:
         got[a:b] = points.uniforms(rep, a, b - a)
@@ -63,11 +63,11 @@ def test_interleaved_randomizations_and_blocks_going_back_give_the_same_rows():
         np.testing.assert_array_equal(points.uniforms(rep, start, n), ref[rep][start : start + n])
 
 
-def test_a_pickled_point_set_rebuilds_its_engines_and_gives_the_same_rows():
+def test_a_pickled_point_set_redraws_its_scrambles_and_gives_the_same_rows():
     points = ScrambledSobol(4, SEEDS, parts=2)
     first = points.uniforms(1, 0, 64)
     copy = pickle.loads(pickle.dumps(points))
-    assert copy._engines == {}  # engines are not sent to another process
+    assert copy._states == {}  # scrambles are not sent to another process
     np.testing.assert_array_equal(copy.uniforms(1, 32, 32), first[32:])
 
 

@@ -19,8 +19,8 @@ pytestmark = pytest.mark.filterwarnings(checks.ANY_BLOCK)
 class _Twinned:
     """An evaluator like the ONNX one: ``concurrent`` gives a twin; records the threads it ran on."""
 
-    def __init__(self, func=checks.evaluator, fail_at: int | None = None) -> None:
-        self.func, self.fail_at = func, fail_at
+    def __init__(self, func=checks.evaluator, fail_at: np.ndarray | None = None) -> None:
+        self.func, self.fail_at = func, fail_at  # fail_at: the first row of the block that gets a NaN
         self.threads: set[str] = set()
         self.calls = 0
         self.lock = threading.Lock()
@@ -35,10 +35,9 @@ class _Twinned:
     def __call__(self, x: np.ndarray) -> dict[str, np.ndarray]:
         with self.lock:
             self.calls += 1
-            call = self.calls
         self.threads.add(threading.current_thread().name)
         out = self.func(x)
-        if call == self.fail_at:
+        if self.fail_at is not None and np.array_equal(x[0], self.fail_at):
             y = out["out"].copy()
             y[0, 0] = np.nan
             out = {"out": y}
@@ -62,17 +61,21 @@ def test_blocks_side_by_side_give_the_sums_one_after_the_other(monkeypatch, repl
         checks.assert_same(checks.finished(a["out"]), checks.finished(b["out"]), rtol=0.0)
     twin = ev.last_twin
     assert twin.twin_of == 2 and ev.calls == 0 and twin.calls == len(tasks)
-    assert len(twin.threads) == 2 and all(name.startswith("netdim-blocks") for name in twin.threads)
+    # in the executor's own threads (two of them unless the first finished each task before the next came)
+    assert 1 <= len(twin.threads) <= 2 and all(name.startswith("netdim-blocks") for name in twin.threads)
 
 
 def test_a_failure_side_by_side_comes_after_the_finished_tasks_before_it(monkeypatch):
     monkeypatch.setattr("audit.engine.OVERLAP_VALUES", 0)
-    tasks = list(iter_tasks(512, 1, 64))  # 8 tasks; the 5th call returns a NaN
+    tasks = list(iter_tasks(512, 1, 64))  # 8 tasks; the 5th returns a NaN
+    job = _job(checks.evaluator, replicates=1)
+    fifth = job.design.block(0, tasks[4].start, tasks[4].n).A[0]
+    job.evaluator = _Twinned(fail_at=fifth)
     done = []
     with pytest.raises(NonFiniteError):
-        for task, _ in LocalExecutor(calls=2).map(_job(_Twinned(fail_at=5), replicates=1), tasks):
+        for task, _ in LocalExecutor(calls=2).map(job, tasks):
             done.append(task)
-    assert 3 <= len(done) <= 4 and done == tasks[: len(done)]  # in order, none lost before the failure
+    assert done == tasks[:4]  # in order, none lost before the failure
 
 
 def test_one_call_at_a_time_overlaps_instead(monkeypatch):

@@ -43,7 +43,7 @@ def test_results_render_through_the_report_layer_once_audit_is_imported():
 def _modules_after_cli(args: list[str], cwd) -> list[str]:
     code = (
         f"import sys\nfrom audit.cli import main\nmain({args!r})\n"
-        "print(' '.join(m for m in ('onnx', 'torch', 'matplotlib', 'dask') if m in sys.modules))"
+        "print(' '.join(m for m in ('onnx', 'torch', 'matplotlib', 'dask', 'scipy.stats') if m in sys.modules))"
     )
     return subprocess.run(
         [sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=cwd
@@ -52,7 +52,8 @@ def _modules_after_cli(args: list[str], cwd) -> list[str]:
 
 def test_an_audit_loads_only_what_its_model_needs(tmp_path):
     """An ONNX model audited for its outputs alone needs no onnx (its graph is read for layers only);
-    a Python function needs neither ONNX nor Torch; no audit loads matplotlib or dask unasked."""
+    a Python function needs neither ONNX nor Torch; no audit loads matplotlib or dask unasked, nor
+    scipy.stats for laws with their own inverse CDF (about a second of start-up)."""
     from pathlib import Path
 
     root = Path(__file__).resolve().parents[2]
