@@ -123,6 +123,15 @@ def _constants(bits: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarra
     return lower, eye, powers, weights
 
 
+@functools.lru_cache(maxsize=16)
+def _plain_bits(dim: int) -> np.ndarray:
+    """The unscrambled direction numbers as bits, shape (dim, bit, column), float32."""
+    k = np.arange(BITS, dtype=np.uint32)
+    bits = ((direction_numbers(dim)[:, None, :] >> k[None, :, None]) & 1).astype(np.float32)
+    bits.flags.writeable = False
+    return bits
+
+
 def sobol_state(dim: int, seed: int | np.random.SeedSequence) -> State:
     """Scrambled direction numbers and digital shift of one randomization.
 
@@ -145,18 +154,17 @@ def sobol_state(dim: int, seed: int | np.random.SeedSequence) -> State:
     column k, and sets bit (BITS - 1 - p) of a new direction number to the parity of
     that word ANDed with the old one: here one batched product modulo 2.
     """
-    plain = direction_numbers(dim)
+    dim = int(dim)
+    v_bits = _plain_bits(dim)  # (dims, bit, column)
     rng = _child(seed)
     lower, eye, powers, weights = _constants(BITS)
     shift = rng.integers(2, size=(dim, BITS), dtype=np.uint32) @ powers
     ltm = rng.integers(2, size=(dim, BITS, BITS), dtype=np.uint32)
-    k = np.arange(BITS, dtype=np.uint32)
     sv = np.empty((dim, BITS), dtype=np.uint32)
     for lo in range(0, dim, CHUNK_DIMS):
         hi = min(dim, lo + CHUNK_DIMS)
         matrix = ((ltm[lo:hi, :, ::-1] & lower) | eye).astype(np.float32)
-        v_bits = ((plain[lo:hi, None, :] >> k[None, :, None]) & 1).astype(np.float32)  # (dims, bit, column)
-        parity = np.matmul(matrix, v_bits).astype(np.uint8) & 1  # sums ≤ BITS: exact in float32
+        parity = np.matmul(matrix, v_bits[lo:hi]).astype(np.uint8) & 1  # sums ≤ BITS: exact in float32
         sv[lo:hi] = np.matmul(weights, parity.astype(np.float64)).astype(np.uint32)  # distinct powers: exact
     return sv, shift.astype(np.uint32)
 
