@@ -123,11 +123,16 @@ def _constants(bits: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarra
     return lower, eye, powers, weights
 
 
-@functools.lru_cache(maxsize=16)
-def _plain_bits(dim: int) -> np.ndarray:
-    """The unscrambled direction numbers as bits, shape (dim, bit, column), float32."""
+def _as_bits(words: np.ndarray) -> np.ndarray:
+    """Direction numbers (dims, column) as bits, shape (dims, bit, column), float32."""
     k = np.arange(BITS, dtype=np.uint32)
-    bits = ((direction_numbers(dim)[:, None, :] >> k[None, :, None]) & 1).astype(np.float32)
+    return ((words[:, None, :] >> k[None, :, None]) & 1).astype(np.float32)
+
+
+@functools.lru_cache(maxsize=8)
+def _plain_bits(dim: int) -> np.ndarray:
+    """:func:`_as_bits` of the unscrambled numbers, kept up to ``CHUNK_DIMS`` dimensions (3.6 kB a dimension)."""
+    bits = _as_bits(direction_numbers(dim))
     bits.flags.writeable = False
     return bits
 
@@ -155,7 +160,7 @@ def sobol_state(dim: int, seed: int | np.random.SeedSequence) -> State:
     that word ANDed with the old one: here one batched product modulo 2.
     """
     dim = int(dim)
-    v_bits = _plain_bits(dim)  # (dims, bit, column)
+    plain = direction_numbers(dim)
     rng = _child(seed)
     lower, eye, powers, weights = _constants(BITS)
     shift = rng.integers(2, size=(dim, BITS), dtype=np.uint32) @ powers
@@ -164,7 +169,8 @@ def sobol_state(dim: int, seed: int | np.random.SeedSequence) -> State:
     for lo in range(0, dim, CHUNK_DIMS):
         hi = min(dim, lo + CHUNK_DIMS)
         matrix = ((ltm[lo:hi, :, ::-1] & lower) | eye).astype(np.float32)
-        parity = np.matmul(matrix, v_bits[lo:hi]).astype(np.uint8) & 1  # sums ≤ BITS: exact in float32
+        v_bits = _plain_bits(dim) if dim <= CHUNK_DIMS else _as_bits(plain[lo:hi])  # (dims, bit, column)
+        parity = np.matmul(matrix, v_bits).astype(np.uint8) & 1  # sums ≤ BITS: exact in float32
         sv[lo:hi] = np.matmul(weights, parity.astype(np.float64)).astype(np.uint32)  # distinct powers: exact
     return sv, shift.astype(np.uint32)
 
