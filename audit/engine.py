@@ -30,23 +30,9 @@ import numpy as np
 from .design import Design
 from .estimators.base import Estimator, Sums
 from .finite import NonFiniteError, check_inputs, check_outputs, fits
-from .memory import (
-    BLOCK_BYTES,
-    IN_FLIGHT,
-    MAX_ROWS,
-    MEMORY_SHARE,
-    OVERLAP_VALUES,
-    available_memory,
-    estimate_memory,
-    native_outputs,
-    plan_block,
-)
+from .memory import IN_FLIGHT, native_outputs, plan_block
 
 __all__ = [
-    "BLOCK_BYTES",
-    "IN_FLIGHT",
-    "MAX_ROWS",
-    "MEMORY_SHARE",
     "OVERLAP_VALUES",
     "Evaluator",
     "Executor",
@@ -56,12 +42,8 @@ __all__ = [
     "LocalExecutor",
     "NonFiniteError",
     "Task",
-    "available_memory",
-    "estimate_memory",
     "evaluate_task",
     "iter_tasks",
-    "native_outputs",
-    "plan_block",
     "run",
     "run_task",
     "sum_task",
@@ -69,6 +51,10 @@ __all__ = [
 
 Evaluator = Callable[[np.ndarray], Mapping[str, np.ndarray]]
 Progress = Callable[[int, str], None]
+
+#: Model values (rows x units) a task must return before the local executor uses a second thread for it.
+OVERLAP_VALUES = 1 << 18
+
 
 @dataclass(frozen=True)
 class Group:

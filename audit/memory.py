@@ -17,7 +17,6 @@ __all__ = [
     "IN_FLIGHT",
     "MAX_ROWS",
     "MEMORY_SHARE",
-    "OVERLAP_VALUES",
     "available_memory",
     "estimate_memory",
     "native_outputs",
@@ -29,8 +28,6 @@ MEMORY_SHARE = 0.25
 #: Most model rows (points × rows per point) one task evaluates: bounds peak memory
 #: independently of N, and keeps progress and checkpoints fine-grained.
 MAX_ROWS = 1 << 16
-#: Model values (rows x units) a task must return before the local executor uses a second thread for it.
-OVERLAP_VALUES = 1 << 18
 #: Blocks in memory at once: the local executor runs two side by side, or sums one while the next is evaluated.
 IN_FLIGHT = 2
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from .. import engine
+from .. import engine, memory
 from ..estimators.base import Sums
 from .options import RunOptions
 
@@ -23,9 +23,9 @@ def job_block(job: engine.Job, run: RunOptions) -> int:
     if run.block:
         return run.block
     d, limit = job.design, run.memory_limit
-    budget = None if limit is None else limit // (2 * engine.IN_FLIGHT)
+    budget = None if limit is None else limit // (2 * memory.IN_FLIGHT)
     est = job.estimator
-    return engine.plan_block(d.points, d.d, job.units, est.rows_per_point(), budget, engine.native_outputs(est))
+    return memory.plan_block(d.points, d.d, job.units, est.rows_per_point(), budget, memory.native_outputs(est))
 
 
 class Session:

@@ -180,7 +180,7 @@ def value_eps(model: Model, group: str = OUTPUTS) -> np.ndarray | float:
 
 def check_memory(jobs: Sequence[tuple[engine.Job, int]], memory_limit: int | None) -> None:
     """Refuse, before any work, jobs whose largest memory need does not fit (each job runs alone)."""
-    need = max((engine.estimate_memory(job, block) for job, block in jobs), default=0)
+    need = max((memory.estimate_memory(job, block) for job, block in jobs), default=0)
     have = memory_limit if memory_limit is not None else memory.available_memory()
     if need > 0.8 * have:
         raise UserError(
@@ -321,9 +321,9 @@ def prepare(
     groups = [engine.Group(OUTPUTS, len(out_names), True)]
     groups += [engine.Group("layer:" + x.name, x.units, x.name in unit_detail) for x in chosen]
     units = sum(g.units for g in groups)
-    budget = None if memory_limit is None else memory_limit // (2 * engine.IN_FLIGHT)
-    native = engine.native_outputs(estimator)
-    blk = block or engine.plan_block(options.points, d, units, estimator.rows_per_point(), budget, native)
+    budget = None if memory_limit is None else memory_limit // (2 * memory.IN_FLIGHT)
+    native = memory.native_outputs(estimator)
+    blk = block or memory.plan_block(options.points, d, units, estimator.rows_per_point(), budget, native)
     notices.extend(getattr(model, "notices", []) or [])
     identity = model_identity(model)
     setup = Setup(model, names, laws, out_names, chosen, dsg, estimator, groups, blk, spec, options, notices, identity)
@@ -334,7 +334,7 @@ def prepare(
         grouped = group_view(variables, spec, shape)
         est = _estimator(options, d, grouped, variables)
         rows = est.rows_per_point()
-        gblk = block or engine.plan_block(options.points, d, units, rows, budget, engine.native_outputs(est))
+        gblk = block or memory.plan_block(options.points, d, units, rows, budget, memory.native_outputs(est))
         setup.companion = Setup(
             model, grouped.names, laws, out_names, chosen, dsg, est, list(groups), gblk, spec, options, [], identity
         )

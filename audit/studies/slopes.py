@@ -33,7 +33,7 @@ from typing import Any
 
 import numpy as np
 
-from .. import engine
+from .. import engine, memory
 from ..design import Design, round_points
 from ..errors import UserError, check_int
 from ..estimators import LEVEL, Jansen
@@ -154,8 +154,8 @@ def prepare_slopes(
         cost=cost_per_point(method, d, units),
         identity={**setup.identity, "method": method},
     )
-    budget = None if memory_limit is None else memory_limit // (2 * engine.IN_FLIGHT)
-    gblock = block or engine.plan_block(gradient_points, d, job.units, 1, budget)
+    budget = None if memory_limit is None else memory_limit // (2 * memory.IN_FLIGHT)
+    gblock = block or memory.plan_block(gradient_points, d, job.units, 1, budget)
     check_memory([(job, gblock)], memory_limit)
     plan = SlopesPlan(setup, job, method, screen, bool(indices), [notice] if notice else [])
     return plan

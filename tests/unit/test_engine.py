@@ -10,24 +10,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from audit.design import Design
-from audit.engine import (
-    MAX_ROWS,
-    Group,
-    Job,
-    LocalExecutor,
-    NonFiniteError,
-    Task,
-    available_memory,
-    estimate_memory,
-    iter_tasks,
-    plan_block,
-    run,
-    run_task,
-)
+from audit.engine import Group, Job, LocalExecutor, NonFiniteError, Task, iter_tasks, run, run_task
 from audit.errors import UserError
 from audit.estimators import make_estimator
 from audit.inputs import Law
-from audit.memory import _bytes_per_point
+from audit.memory import MAX_ROWS, _bytes_per_point, available_memory, estimate_memory, plan_block
 
 LAWS = checks.LAWS
 pytestmark = pytest.mark.filterwarnings(checks.ANY_BLOCK)
