@@ -30,6 +30,7 @@ from typing import Any
 import numpy as np
 
 from .base import Moments, RepEstimates
+from .kernels import squared_differences
 
 __all__ = ["DIFF_BUFFER", "F32_ROWS", "Jansen", "JansenSums"]
 
@@ -119,14 +120,17 @@ class JansenSums:
         formed in float64, a few inputs at a time in a reused buffer, so a float32
         network's rows are never copied whole (the numbers equal those of a float64 copy bit
         for bit). Without detail (hidden layers: hundreds to thousands of units) float32 rows'
-        squared differences are summed as :func:`_squares_f32` says.
+        squared differences are summed in float64 by one compiled pass
+        (:func:`.kernels.squared_differences`), or, where that loop was not built, as
+        :func:`_squares_f32` says.
         """
         native32 = yA.dtype == np.float32 and yAB.dtype == np.float32
         n = yA.shape[0]
         self.rows += n
         self.moments.add_pair(yA, yB)
         if not self.detail and native32:
-            self.tot_sum += _squares_f32(yA, yAB)
+            squares = squared_differences(yA, yAB)
+            self.tot_sum += _squares_f32(yA, yAB) if squares is None else squares
             return
         yA = np.asarray(yA, dtype=np.float64)
         yB = np.asarray(yB, dtype=np.float64)

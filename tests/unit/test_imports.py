@@ -72,6 +72,11 @@ def _modules() -> dict[str, Path]:
     return {_module_name(p): p for p in PACKAGE.rglob("*.py")}
 
 
+def _compiled() -> set[str]:
+    """Extension modules built from C sources beside the Python ones (they import nothing of netdim)."""
+    return {_module_name(p.with_suffix(".py")) for p in PACKAGE.rglob("*.c")}
+
+
 def _imports(name: str, path: Path, known: set[str]) -> tuple[set[str], set[str]]:
     """Internal modules and third-party top-level packages imported by one module (anywhere in it)."""
     tree = ast.parse(path.read_text(encoding="utf-8"))
@@ -102,7 +107,7 @@ def _imports(name: str, path: Path, known: set[str]) -> tuple[set[str], set[str]
 
 def _graph() -> tuple[dict[str, set[str]], dict[str, set[str]]]:
     mods = _modules()
-    known = set(mods)
+    known = set(mods) | _compiled()
     graph, external = {}, {}
     for name, path in mods.items():
         graph[name], external[name] = _imports(name, path, known)

@@ -20,9 +20,12 @@ import pytest
 from reportdiff import differences
 
 from audit.cli import main
-from audit.estimators import ESTIMATORS, REFERENCE_ESTIMATORS
+from audit.estimators import ESTIMATORS, REFERENCE_ESTIMATORS, kernels
 
 HERE = Path(__file__).resolve().parent / "before"
+# reports whose hidden layers are summed by the compiled loop (audit/estimators/_squares.c): without it,
+# numpy's float32 partial sums move them by up to 1e-6 (tests/unit/test_estimators_kernels.py covers that)
+COMPILED_SUMS = {"audit_greenhouse_onnx", "audit_greenhouse_pt2_all", "audit_greenhouse_ts_detail", "audit_digits_mlp"}
 ROOT = HERE.parents[2]
 RTOL = 1e-12
 
@@ -39,6 +42,8 @@ def _commands() -> list[tuple[str, list[str]]]:
 
 @pytest.mark.parametrize(("name", "args"), _commands(), ids=[n for n, _ in _commands()])
 def test_report_is_reproduced(name, args, tmp_path, monkeypatch):
+    if name in COMPILED_SUMS and not kernels.available():
+        pytest.skip("the compiled loop of hidden layers' sums was not built (no C compiler at install)")
     monkeypatch.chdir(ROOT)
     for retired, cls in REFERENCE_ESTIMATORS.items():
         if retired in args:
