@@ -17,7 +17,6 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import ndtr
 
 __all__ = ["G_COEFFICIENTS", "additive", "g_function", "ishigami", "phi_ridge", "product", "relu_ridge", "step_ridge"]
 
@@ -54,6 +53,8 @@ def _unit(theta: np.ndarray) -> np.ndarray:
 
 def phi_ridge(x: np.ndarray, theta: np.ndarray | None = None) -> np.ndarray:
     """Φ(θᵀx) with |θ| = 1 (default θ_j = 1/√d), inputs N(0, 1)."""
+    from scipy.special import ndtr  # here only: the other functions need no scipy
+
     th = _unit(np.ones(x.shape[1]) if theta is None else theta)
     return ndtr(x @ th)
 

@@ -119,9 +119,10 @@ def _fair_bits(bitgen: np.random.PCG64, n: int) -> np.ndarray:
     """The next ``n`` (even) values of ``Generator(bitgen).integers(2, dtype=np.uint32)``, as uint8.
 
     numpy draws each from one 32-bit half of a 64-bit output, low half first, by Lemire's
-    method, which for two values keeps the half's top bit and never rejects: bits 31 and 63 of
-    each raw output, half the raw outputs and none of the Generator's per-call cost (a third
-    of a scramble's time at small dimensions). The tests hold it equal to scipy's draws.
+    method, which for two values keeps the half's top bit and never rejects (numpy's bounded
+    integers, from memory): bits 31 and 63 of each raw output, half the raw outputs and none of
+    the Generator's per-call cost (a third of a scramble's time at small dimensions). The tests
+    hold it equal to the Generator's own draws and the points to scipy's.
     """
     halves = bitgen.random_raw(n // 2).view(np.uint32)  # low half first on a little-endian machine
     if sys.byteorder == "big":

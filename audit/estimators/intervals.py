@@ -19,11 +19,12 @@ References
 
 from __future__ import annotations
 
-import functools
 import warnings
 from typing import NamedTuple
 
 import numpy as np
+
+from .student import t_quantile
 
 __all__ = ["LEVEL", "Interval", "difference_interval", "paired_interval", "t_interval", "welch_interval"]
 
@@ -40,20 +41,16 @@ class Interval(NamedTuple):
     std_error: np.ndarray
 
 
-@functools.lru_cache(maxsize=256)
 def _t_scalar(level: float, df: float) -> float:
-    # scipy.special.stdtrit is what scipy.stats.t.ppf computes (equal for every df tried), without
-    # importing scipy.stats: about a second of a small audit's start-up
-    from scipy import special
-
-    return float(special.stdtrit(df, 0.5 + level / 2))
+    # whole df (R - 1) without importing scipy: a quarter of a second of a small audit's start-up
+    return t_quantile(0.5 + level / 2, df)
 
 
 def _t(level: float, df: np.ndarray | float) -> np.ndarray:
-    """Student-t quantile ``t_{(1+level)/2, df}``; one cached scipy call when every df is the same."""
+    """Student-t quantile ``t_{(1+level)/2, df}``; one cached call when every df is the same."""
     df = np.asarray(df, dtype=np.float64)
     first = df.flat[0] if df.size else np.nan
-    if df.size and np.isfinite(first) and np.all(df == first):  # the usual case: R - 1 everywhere
+    if df.size and np.isfinite(first) and first > 0 and np.all(df == first):  # the usual case: R - 1 everywhere
         return np.full(df.shape, _t_scalar(float(level), float(first)))
     from scipy import stats
 

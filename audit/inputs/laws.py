@@ -146,15 +146,14 @@ class Law:
         ``scipy.stats.norm.ppf`` computes) or an affine map directly, skipping the
         frozen distribution's argument checks on this hot path.
         """
-        from scipy import special
-
         p = self.params
         if self.kind == "uniform":
             return p["low"] + (p["high"] - p["low"]) * u
-        if self.kind == "normal":
-            return p["mean"] + p["sd"] * special.ndtri(u)
-        if self.kind == "lognormal":
-            return np.exp(p["log_mean"] + p["log_sd"] * special.ndtri(u))
+        if self.kind in ("normal", "lognormal"):
+            from scipy import special  # here only: a uniform law's audit needs no scipy at all
+
+            z = special.ndtri(u)
+            return p["mean"] + p["sd"] * z if self.kind == "normal" else np.exp(p["log_mean"] + p["log_sd"] * z)
         if self.kind == "log_uniform":
             lo, hi = math.log(p["low"]), math.log(p["high"])
             return np.exp(lo + (hi - lo) * u)

@@ -42,7 +42,7 @@ GAPS = (
     "The overhead reference batches as netdim does (the rows of one task); the batch size onnxruntime likes "
     "best is not searched for.",
     "TorchScript and .pt2 models are not timed (the overhead measures are ONNX only).",
-    "Peak memory is one run per N (not paired); it is the whole process's peak, imports included.",
+    "Peak memory is the whole process's peak, imports included.",
     "Options limiting advise (freezing only, pre-integration only, a budget) are listed when `--help` shows "
     "them, but not timed: their names were not known when the suite was written.",
     "The cost of the fast ν estimator against d (once in tests/bench/bench_speed.py, now removed) is not "

@@ -96,8 +96,9 @@ def render(results: dict) -> str:
         f"## {SECTIONS['memory']}",
         "",
         "Peak resident memory of `netdim audit --layers all` (2 randomizations) at the large N over the small "
-        "N, each the child's own `ru_maxrss` as `/usr/bin/time -f %M` reports it. Memory is not timing noise: "
-        "one pair per model.",
+        "N, each the child's own `ru_maxrss` as `/usr/bin/time -f %M` reports it. The peak moves from run to "
+        "run with the timing of the two tasks that run side by side (one CNN command measured 474-846 MiB), "
+        "so it is paired like the timings.",
         "",
         *_table(results["memory"], "peak, large N", "peak, small N"),
         f"## {SECTIONS['startup']}",

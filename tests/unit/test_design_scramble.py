@@ -73,3 +73,16 @@ def test_points_need_no_scipy_stats() -> None:
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "False"
+
+
+@settings(max_examples=30, deadline=None)
+@given(seed=st.integers(0, 2**32), pairs=st.integers(1, 3000), before=st.integers(0, 50))
+def test_fair_bits_are_the_generators_own_draws(seed: int, pairs: int, before: int) -> None:
+    """The scramble's bits come from raw outputs; numpy's ``Generator.integers(2, dtype=uint32)``,
+    which scipy's engine calls, is the reference, after any even number of earlier draws."""
+    from audit.design.scramble import _fair_bits
+
+    mine, theirs = np.random.PCG64(seed), np.random.Generator(np.random.PCG64(seed))
+    _fair_bits(mine, 2 * before), theirs.integers(2, size=2 * before, dtype=np.uint32)
+    want = theirs.integers(2, size=2 * pairs, dtype=np.uint32)
+    np.testing.assert_array_equal(_fair_bits(mine, 2 * pairs), want)

@@ -40,10 +40,10 @@ def test_results_render_through_the_report_layer_once_audit_is_imported():
     assert result.__rich__() is not None and not isinstance(result.__rich__(), str)
 
 
-def _modules_after_cli(args: list[str], cwd) -> list[str]:
+def _modules_after_cli(args: list[str], cwd, watch=("onnx", "torch", "matplotlib", "dask", "scipy.stats")) -> list[str]:
     code = (
         f"import sys\nfrom audit.cli import main\nmain({args!r})\n"
-        "print(' '.join(m for m in ('onnx', 'torch', 'matplotlib', 'dask', 'scipy.stats') if m in sys.modules))"
+        f"print(' '.join(m for m in {tuple(watch)!r} if m in sys.modules))"
     )
     return subprocess.run(
         [sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=cwd
@@ -62,6 +62,24 @@ def test_an_audit_loads_only_what_its_model_needs(tmp_path):
     assert _modules_after_cli(onnx_args, tmp_path) == []
     func_args = ["audit", "model_zoo.functions:ishigami", "--inputs", "model_zoo/ishigami.toml", *common]
     assert _modules_after_cli(func_args, root) == []
+
+
+def test_an_audit_of_uniform_inputs_loads_no_scipy(tmp_path):
+    """Uniform laws map without an inverse CDF and the intervals' t quantiles for whole degrees of
+    freedom come from audit/estimators/student.py: such an audit never imports scipy (a quarter of a
+    second of start-up); a normal law's inverse CDF does."""
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    common = ["--points", "16", "--replicates", "2", "--no-save", "-q"]
+    zoo = root / "model_zoo"
+    onnx_args = ["audit", str(zoo / "greenhouse_v1.onnx"), "--inputs", str(zoo / "greenhouse_v1.toml")]
+    onnx_args += ["--layers", "none", *common]
+    assert _modules_after_cli(onnx_args, tmp_path, watch=("scipy",)) == []
+    func_args = ["audit", "model_zoo.functions:ishigami", "--inputs", "model_zoo/ishigami.toml", *common]
+    assert _modules_after_cli(func_args, root, watch=("scipy",)) == []
+    normal = ["audit", str(root / "model_zoo/additive.onnx"), "--law", "normal", "--layers", "none", *common]
+    assert _modules_after_cli(normal, tmp_path, watch=("scipy.special",)) == ["scipy.special"]
 
 
 def test_notebooks_get_the_html_report_and_repr_a_summary_once_audit_is_imported():
