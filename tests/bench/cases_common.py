@@ -122,12 +122,16 @@ def netdim_cmd(*args: str) -> list[str]:
 def child(cmd: Sequence[str], env: Mapping[str, str] | None = None) -> tuple[float, float, str]:
     """Run ``cmd`` in ROOT; return its wall seconds, its own peak RSS in MiB and its stdout.
 
+    The child runs with Python's byte-code cache on (``PYTHONDONTWRITEBYTECODE`` left out of
+    its environment), as an installed package runs: else every netdim command would compile
+    its modules again while numpy's and rich's, compiled at their install, would not.
     The peak is the child's own ``ru_maxrss`` as ``/usr/bin/time -f %M`` reports it: a small
     process forks the command, so the peak does not start from this (large) process's
     memory, which Linux carries over a fork and exec. Without ``/usr/bin/time`` it is
     ``os.wait4``'s (an upper bound then).
     """
-    full_env = {**os.environ, **(env or {})}
+    full_env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}  # as an install runs
+    full_env.update(env or {})
     timer = shutil.which("time", path="/usr/bin:/bin")
     with tempfile.TemporaryFile("w+") as err, tempfile.NamedTemporaryFile("r", suffix=".rss") as rss:
         full = [timer, "-f", "%M", "-o", rss.name, *cmd] if timer else list(cmd)

@@ -70,7 +70,8 @@ def render(results: dict) -> str:
         "min–max as the spread. Raw timings: the JSON file beside this page "
         "(`reports/bench/benchmarks.json` by default). Command: "
         f"`python tests/bench/benchmarks.py{' --quick' if s['name'] == 'quick' else ''}`; "
-        f"it took {results['seconds']:.0f} s.",
+        f"it took {results['seconds']:.0f} s. Commands run with Python's byte-code cache on, as an installed "
+        "package runs (netdim's modules compiled first).",
         "",
         f"## {SECTIONS['machine']}",
         "",
