@@ -34,7 +34,7 @@ import numpy as np
 
 from .errors import UserError
 from .inputs import Law
-from .models.base import Evaluation, LayerInfo, Model, TensorInfo, feature_count
+from .models.base import Evaluation, LayerInfo, Model, TensorInfo, feature_count, row_dtype
 
 __all__ = ["MAX_NODES", "MAX_ROWS", "PreIntegrated", "PreIntegratedModel", "check_index", "check_nodes", "preintegrate"]
 
@@ -132,17 +132,21 @@ class PreIntegrated:
         """Evaluations of the wrapped function per evaluation of this one."""
         return len(self.weights)
 
-    def expand(self, x: np.ndarray) -> np.ndarray:
-        """The (n·m, d) rows ``(x_i, z_q)``, point-major, for (n, d − 1) rows ``x``."""
-        x = np.asarray(x, dtype=np.float64)
+    def expand(self, x: np.ndarray, dtype: Any = np.float64) -> np.ndarray:
+        """The (n·m, d) rows ``(x_i, z_q)``, point-major, for (n, d − 1) rows ``x``, in ``dtype``.
+
+        Written in one pass by broadcasting into the result (no repeated copies); a model fed
+        float32 gets float32 rows here, the values its own cast of float64 rows would give.
+        """
+        x = np.asarray(x)
         if x.ndim != 2 or x.shape[1] != self.d - 1:
             raise ValueError(f"expected an (n, {self.d - 1}) array, got shape {x.shape}.")
         n, m = len(x), len(self.points)
-        X = np.empty((n * m, self.d))
-        X[:, : self.index] = np.repeat(x[:, : self.index], m, axis=0)
-        X[:, self.index] = np.tile(self.points, n)
-        X[:, self.index + 1 :] = np.repeat(x[:, self.index :], m, axis=0)
-        return X
+        X = np.empty((n, m, self.d), dtype=dtype)
+        X[:, :, : self.index] = x[:, None, : self.index]
+        X[:, :, self.index] = self.points
+        X[:, :, self.index + 1 :] = x[:, None, self.index :]
+        return X.reshape(n * m, self.d)
 
     def _reduce(self, y: np.ndarray, n: int) -> np.ndarray:
         y = np.asarray(y, dtype=np.float64)
@@ -169,8 +173,9 @@ class PreIntegrated:
         """Evaluate at (n, d − 1) rows; returns what the wrapped function returns for n rows."""
         x = np.asarray(x, dtype=np.float64)
         parts = []
+        dtype = row_dtype(self.func) if self.is_model else np.float64
         for s in self._chunks(len(x)):
-            X = self.expand(x[s])
+            X = self.expand(x[s], dtype)
             y = self.func.evaluate(X).outputs if self.is_model else self.func(X)
             if isinstance(y, Mapping):
                 parts.append({k: self._reduce(v, len(X) // self.cost) for k, v in y.items()})
@@ -245,10 +250,11 @@ class PreIntegratedModel(PreIntegrated):
 
     def evaluate(self, x: np.ndarray, capture: Sequence[str] = ()) -> Evaluation:
         """Outputs (and captured hidden tensors) averaged over the Gauss nodes."""
-        x = np.asarray(x, dtype=np.float64)
+        x = np.asarray(x)
         outs, hidden = [], {name: [] for name in capture}
+        dtype = row_dtype(self.model)
         for s in self._chunks(len(x)):
-            X = self.expand(x[s])
+            X = self.expand(x[s], dtype)
             ev = self.model.evaluate(X, capture)
             n = len(X) // self.cost
             outs.append(self._reduce(ev.outputs, n))

@@ -245,7 +245,8 @@ def _advise(sub: argparse._SubParsersAction) -> None:
     ga.add_argument(
         "--gain-points",
         metavar="N,N,...",
-        help="point counts for the measured RQMC gain (default 256,...,16384; empty to skip)",
+        help="point counts for the measured RQMC gain (default 256, 512, ... up to 16 × --points, "
+        "within 4096..16384; empty to skip)",
     )
     advise.add_budget_options(ad)
     _running(ad)

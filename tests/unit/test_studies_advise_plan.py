@@ -6,7 +6,14 @@ from advice_cases import phi_ridge
 from audit.errors import UserError
 from audit.models.python import PythonModel
 from audit.studies import prepare_advice
-from audit.studies.advise import ADVICE_SETTINGS, DEFAULT_GAIN_POINTS, FREEZE_BUDGET, FREEZE_THRESHOLD, fit_plan
+from audit.studies.advise import (
+    ADVICE_SETTINGS,
+    DEFAULT_GAIN_POINTS,
+    FREEZE_BUDGET,
+    FREEZE_THRESHOLD,
+    default_gain_points,
+    fit_plan,
+)
 from audit.studies.options import DesignOptions
 
 
@@ -106,8 +113,16 @@ def test_a_plan_that_fits_its_budget_is_not_cut():
     assert fitted.record()["total"] == plan.evaluations and fitted.record()["cuts"] == []
 
 
+@pytest.mark.parametrize(("points", "top"), [(16, 4096), (256, 4096), (512, 8192), (1024, 16384), (65536, 16384)])
+def test_the_default_gain_counts_follow_the_audits_points(points, top):
+    """256, 512, ... up to 16 N, never fewer than five counts (to 4096) nor beyond 16384."""
+    want = tuple(n for n in DEFAULT_GAIN_POINTS if n <= top)
+    assert default_gain_points(points) == want
+    assert prepare_advice(RIDGE, "normal", points=points, replicates=4, seed=1).gain_points == want
+
+
 def test_the_gain_point_counts_go_first_and_only_as_far_as_needed():
-    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1)
+    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1, gain_points=DEFAULT_GAIN_POINTS)
     r, nodes = 4, plan.nodes
     # dropping 16384 alone saves 8192 * r * (1 + nodes) evaluations: a budget just below the full plan needs one cut
     limit = plan.evaluations - 1
@@ -119,7 +134,7 @@ def test_the_gain_point_counts_go_first_and_only_as_far_as_needed():
 
 
 def test_then_the_nodes_then_the_candidates_then_the_gain():
-    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1)
+    plan = prepare_advice(RIDGE, "normal", points=256, replicates=4, seed=1, gain_points=DEFAULT_GAIN_POINTS)
     s = plan.setup
     n, r, d = 256, 4, 6
     audit, freeze = s.evaluations, n * r * 2

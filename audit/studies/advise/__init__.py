@@ -9,7 +9,16 @@ Modules: :mod:`~.plan` (settings, parts and cost, cut to a budget, before any wo
 from __future__ import annotations
 
 from .budget import PhaseLog, plan_lines
-from .plan import DEFAULT_GAIN_POINTS, FREEZE_BUDGET, FREEZE_THRESHOLD, PARTS, AdvicePlan, fit_plan, prepare_advice
+from .plan import (
+    DEFAULT_GAIN_POINTS,
+    FREEZE_BUDGET,
+    FREEZE_THRESHOLD,
+    PARTS,
+    AdvicePlan,
+    default_gain_points,
+    fit_plan,
+    prepare_advice,
+)
 from .run import ADVICE_SETTINGS, advise_function, advise_model, execute_advice
 
 __all__ = [
@@ -22,6 +31,7 @@ __all__ = [
     "PhaseLog",
     "advise_function",
     "advise_model",
+    "default_gain_points",
     "execute_advice",
     "fit_plan",
     "plan_lines",

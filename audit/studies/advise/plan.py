@@ -27,14 +27,35 @@ __all__ = [
     "DEFAULT_GAIN_POINTS",
     "FREEZE_BUDGET",
     "FREEZE_THRESHOLD",
+    "GAIN_POINTS_PER_POINT",
     "PARTS",
     "AdvicePlan",
+    "default_gain_points",
     "fit_plan",
     "prepare_advice",
 ]
 
-#: Point counts n of the RQMC gain measurement (prefixes of one sequence per randomization).
+#: Point counts n of the RQMC gain measurement (prefixes of one sequence per randomization), at most.
 DEFAULT_GAIN_POINTS = tuple(2**p for p in range(8, 15))
+#: By default the gain is measured up to this many times the audit's points (never below 4096, so
+#: that at least five counts fit each slope): a small audit's advice does not pay for 16,384-point
+#: gain runs (they were 62 % of the evaluations of advise at 512 points on the digits MLP).
+GAIN_POINTS_PER_POINT = 16
+
+
+def default_gain_points(points: int) -> tuple[int, ...]:
+    """The default RQMC gain counts for an audit of ``points`` points: 256, 512, ... up to
+    min(16384, max(4096, 16 · points)).
+
+    Examples
+    --------
+    >>> default_gain_points(512)
+    (256, 512, 1024, 2048, 4096, 8192)
+    >>> default_gain_points(4096) == DEFAULT_GAIN_POINTS
+    True
+    """
+    top = min(max(DEFAULT_GAIN_POINTS), max(4096, GAIN_POINTS_PER_POINT * int(points)))
+    return tuple(n for n in DEFAULT_GAIN_POINTS if n <= top)
 #: Normalised total index below which (at the interval's upper end) an input may be frozen.
 FREEZE_THRESHOLD = 1e-3
 #: Largest bound 2 Σ τ̄²_j / σ² (upper interval end) on the mean squared error of a frozen group.
@@ -273,7 +294,7 @@ def prepare_advice(
     pilot: int = 64,
     freeze_threshold: float = FREEZE_THRESHOLD,
     freeze_budget: float = FREEZE_BUDGET,
-    gain_points: Sequence[int] = DEFAULT_GAIN_POINTS,
+    gain_points: Sequence[int] | None = None,
     block: int | None = None,
     memory_limit: int | None = None,
     outputs: Sequence[str] | None = None,
@@ -313,8 +334,9 @@ def prepare_advice(
         index's interval is below this (default 0.001).
     freeze_budget : float
         Upper end allowed for the bound 2 Σ τ̄²_j / σ² of a frozen group (default 0.01).
-    gain_points : sequence of int
-        Increasing powers of two n for the RQMC gain (empty: skip it).
+    gain_points : sequence of int, optional
+        Increasing powers of two n for the RQMC gain (empty: skip it); default
+        :func:`default_gain_points` of the design's points (256 up to 16 N, within 4096..16384).
     block, memory_limit : int, optional
         Points per task and the memory the run may use (bytes).
     outputs : list of str, optional
@@ -348,7 +370,7 @@ def prepare_advice(
     tol = check_number(tolerance, "tolerance", 0.0, 1.0, low_open=True)
     eps = check_number(freeze_threshold, "freeze_threshold", 0.0, 1.0, low_open=True)
     budget = check_number(freeze_budget, "freeze_budget", 0.0, 2.0, low_open=True)
-    gains = _gain_points(gain_points)
+    gains = _gain_points(default_gain_points(design.points) if gain_points is None else gain_points)
     if only is not None:
         check_choice(only, "only", PARTS)
     if design.view not in (None, "inputs"):
