@@ -56,6 +56,8 @@ def default_gain_points(points: int) -> tuple[int, ...]:
     """
     top = min(max(DEFAULT_GAIN_POINTS), max(4096, GAIN_POINTS_PER_POINT * int(points)))
     return tuple(n for n in DEFAULT_GAIN_POINTS if n <= top)
+
+
 #: Normalised total index below which (at the interval's upper end) an input may be frozen.
 FREEZE_THRESHOLD = 1e-3
 #: Largest bound 2 Σ τ̄²_j / σ² (upper interval end) on the mean squared error of a frozen group.
