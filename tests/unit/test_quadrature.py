@@ -77,3 +77,34 @@ def test_bad_arguments_are_refused():
         PreIntegrated(phi_ridge, NORMAL6, 0)(np.zeros((3, 6)))
     with pytest.raises(UserError, match="quadrature node"), np.errstate(divide="ignore"):
         PreIntegrated(lambda x: 1 / (x[:, 0] - x[:, 0]), NORMAL6, 0, nodes=4)(np.zeros((2, 5)))
+
+
+@pytest.mark.parametrize("index", [0, 2, 4])
+def test_rows_are_written_in_the_models_type_with_the_values_of_a_cast(index):
+    """expand builds (x_i, z_q) point-major; in float32 it holds exactly the float64 rows cast, as the
+    model would have cast them (so the audit's numbers do not depend on where the cast happens)."""
+    x = np.random.default_rng(1).standard_normal((7, 5))
+    g = PreIntegrated(phi_ridge, NORMAL6, index, nodes=8)
+    rows = g.expand(x)
+    assert rows.shape == (7 * 8, 6) and rows.dtype == np.float64
+    np.testing.assert_array_equal(rows[:, index], np.tile(g.points, 7))
+    np.testing.assert_array_equal(np.delete(rows, index, axis=1), np.repeat(x, 8, axis=0))
+    small = g.expand(x, np.float32)
+    assert small.dtype == np.float32
+    np.testing.assert_array_equal(small, rows.astype(np.float32))
+    x32 = x.astype(np.float32)
+    want = np.insert(np.repeat(x32, 8, axis=0), index, np.tile(g.points, 7).astype(np.float32), axis=1)
+    np.testing.assert_array_equal(g.expand(x32, np.float32), want)
+
+
+def test_a_float32_model_gets_float32_rows_and_the_same_outputs():
+    model = open_model(str(ZOO / "ridge_phi.onnx"))
+    pm = PreIntegratedModel(model, NORMAL6, 1, nodes=16)
+    seen = []
+    evaluate = model.evaluate
+    model.evaluate = lambda X, capture=(): (seen.append(X.dtype), evaluate(X, capture))[1]
+    x = np.random.default_rng(3).standard_normal((64, 5))
+    out = pm.evaluate(x).outputs
+    assert seen and set(seen) == {np.dtype(np.float32)}
+    cast_by_the_model = pm._reduce(evaluate(pm.expand(x)).outputs, len(x))  # float64 rows, as before
+    np.testing.assert_array_equal(out, cast_by_the_model)
