@@ -108,3 +108,34 @@ def test_a_float32_model_gets_float32_rows_and_the_same_outputs():
     assert seen and set(seen) == {np.dtype(np.float32)}
     cast_by_the_model = pm._reduce(evaluate(pm.expand(x)).outputs, len(x))  # float64 rows, as before
     np.testing.assert_array_equal(out, cast_by_the_model)
+
+
+def test_reused_row_buffers_never_show_through_results():
+    """Calls share one buffer of expanded rows: results made earlier keep their values, even from a
+    function that returns a view of its rows, and calls from several threads at once get their own
+    (E[x0 | x0] = x0 whatever input 1's law; the Gauss weights sum to 1)."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    first_of = lambda X: X[:, 0]  # noqa: E731 - a view of the rows it is given
+    g = PreIntegrated(first_of, [Law("normal"), Law("normal")], index=1, nodes=8, max_rows=64)
+    rng = np.random.default_rng(3)
+    a, b = rng.standard_normal((40, 1)), rng.standard_normal((40, 1))
+    ya = g(a)
+    yb = g(b)
+    np.testing.assert_allclose(ya, a[:, 0], rtol=1e-15)
+    np.testing.assert_allclose(yb, b[:, 0], rtol=1e-15)
+    xs = [rng.standard_normal((300, 1)) for _ in range(16)]
+    with ThreadPoolExecutor(4) as pool:
+        ys = list(pool.map(g, xs))
+    for x, y in zip(xs, ys, strict=True):
+        np.testing.assert_allclose(y, x[:, 0], rtol=1e-15)
+
+
+def test_expand_into_a_given_buffer_writes_the_same_rows():
+    laws = [Law("uniform"), Law("normal"), Law("uniform", {"low": -1, "high": 3})]
+    g = PreIntegrated(lambda X: X.sum(axis=1), laws, index=1, nodes=5)
+    x = np.random.default_rng(4).random((7, 2))
+    for dtype in (np.float64, np.float32):
+        out = np.full(7 * 5 * 3 + 11, np.nan, dtype=dtype)
+        np.testing.assert_array_equal(g.expand(x, dtype, out), g.expand(x, dtype))
+        assert g.expand(x, dtype, out).dtype == dtype
