@@ -193,7 +193,7 @@ class PreIntegrated:
                 "nodes."
             )
         yr = y.reshape(n, len(self.weights), *y.shape[1:])
-        return np.tensordot(self.weights, yr, axes=([0], [1]))
+        return np.einsum("m,nm...->n...", self.weights, yr)  # over the nodes, without a transposed copy
 
     def _chunks(self, n: int) -> list[slice]:
         per = max(1, self.max_rows // len(self.weights))
