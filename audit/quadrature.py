@@ -48,6 +48,8 @@ MAX_ROWS = 1 << 16
 #: for every call cost more in page faults than writing the rows (about 4 against 2 ms for
 #: 65,536 rows of 64 float32 inputs).
 _SPARE: dict[str, np.ndarray] = {}
+#: Largest buffer kept between calls (a larger one, of many inputs, is let go with its call).
+_KEEP_BYTES = 64 << 20
 
 
 def _borrow(size: int, dtype: Any) -> np.ndarray:
@@ -60,9 +62,9 @@ def _borrow(size: int, dtype: Any) -> np.ndarray:
 
 
 def _give_back(buf: np.ndarray) -> None:
-    """Keep ``buf`` for the next call (the larger of it and any spare already kept)."""
+    """Keep ``buf`` for the next call (the larger of it and any spare already kept, up to ``_KEEP_BYTES``)."""
     held = _SPARE.get(buf.dtype.str)
-    if held is None or held.size < buf.size:
+    if buf.nbytes <= _KEEP_BYTES and (held is None or held.size < buf.size):
         _SPARE[buf.dtype.str] = buf
 
 

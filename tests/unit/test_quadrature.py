@@ -139,3 +139,16 @@ def test_expand_into_a_given_buffer_writes_the_same_rows():
         out = np.full(7 * 5 * 3 + 11, np.nan, dtype=dtype)
         np.testing.assert_array_equal(g.expand(x, dtype, out), g.expand(x, dtype))
         assert g.expand(x, dtype, out).dtype == dtype
+
+
+def test_only_buffers_up_to_the_kept_size_outlive_their_call(monkeypatch):
+    import audit.quadrature as q
+
+    monkeypatch.setattr(q, "_SPARE", {})
+    monkeypatch.setattr(q, "_KEEP_BYTES", 1024)
+    small, large = q._borrow(64, np.float64), q._borrow(512, np.float64)  # 512 and 4096 bytes
+    q._give_back(large)
+    assert q._SPARE == {}  # too large to keep
+    q._give_back(small)
+    assert q._borrow(32, np.float64) is small  # lent again, and no longer spare
+    assert q._SPARE == {}
