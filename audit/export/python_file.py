@@ -74,7 +74,7 @@ def {function}(x):
             rows[:, column] = value
         y = np.asarray(_source(rows), dtype=np.float64)
         y = y.reshape(n, m, *y.shape[1:])
-        parts.append(y[:, 0] if m == 1 else np.tensordot(WEIGHTS, y, axes=([0], [1])))
+        parts.append(y[:, 0] if m == 1 else np.einsum("m,nm...->n...", WEIGHTS, y))
     if not parts:
         return np.asarray(_source(np.zeros((0, FEATURES))), dtype=np.float64)
     return np.concatenate(parts)
