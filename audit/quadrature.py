@@ -36,7 +36,16 @@ from .errors import UserError
 from .inputs import Law
 from .models.base import Evaluation, LayerInfo, Model, TensorInfo, feature_count, row_dtype
 
-__all__ = ["MAX_NODES", "MAX_ROWS", "PreIntegrated", "PreIntegratedModel", "check_index", "check_nodes", "preintegrate"]
+__all__ = [
+    "MAX_NODES",
+    "MAX_ROWS",
+    "PreIntegrated",
+    "PreIntegratedModel",
+    "check_index",
+    "check_nodes",
+    "node_average",
+    "preintegrate",
+]
 
 #: Largest Gauss rule used: numpy's Gauss–Hermite weights overflow a little beyond 256 nodes.
 MAX_NODES = 256
@@ -66,6 +75,34 @@ def _give_back(buf: np.ndarray) -> None:
     held = _SPARE.get(buf.dtype.str)
     if buf.nbytes <= _KEEP_BYTES and (held is None or held.size < buf.size):
         _SPARE[buf.dtype.str] = buf
+
+
+def node_average(weights: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """The weighted sum over the nodes of rows grouped point by point.
+
+    By ``einsum``, which reads the node axis in place (``tensordot`` copied a transposed array;
+    3-4.5x slower at a block's sizes); pre-integrated values in memory and simplified models are
+    summed by it alike, so they agree to the bit.
+
+    Parameters
+    ----------
+    weights : ndarray, shape (m,)
+        The rule's weights.
+    y : ndarray, shape (n, m, ...)
+        Values at the m nodes of each of n points.
+
+    Returns
+    -------
+    ndarray, shape (n, ...)
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from audit.quadrature import node_average
+    >>> node_average(np.array([0.25, 0.75]), np.array([[1.0, 3.0], [2.0, 2.0]]))
+    array([2.5, 2. ])
+    """
+    return np.einsum("m,nm...->n...", weights, y)
 
 
 def check_index(index: int, d: int, names: Sequence[str] | None = None) -> int:
@@ -195,7 +232,7 @@ class PreIntegrated:
                 "nodes."
             )
         yr = y.reshape(n, len(self.weights), *y.shape[1:])
-        return np.einsum("m,nm...->n...", self.weights, yr)  # over the nodes, without a transposed copy
+        return node_average(self.weights, yr)
 
     def _chunks(self, n: int) -> list[slice]:
         per = max(1, self.max_rows // len(self.weights))

@@ -36,7 +36,7 @@ import numpy as np
 from ..errors import UserError
 from ..inputs import Law
 from ..models.base import Evaluation, LayerInfo, Model, TensorInfo, feature_count
-from ..quadrature import MAX_ROWS, PreIntegrated, check_nodes
+from ..quadrature import MAX_ROWS, PreIntegrated, check_nodes, node_average
 from ..version import __version__
 
 __all__ = ["MAX_GRID", "ExportPlan", "Fixed", "Integrated", "ReducedModel", "file_sha256", "make_plan"]
@@ -365,7 +365,7 @@ class ReducedModel:
                 parts.append(y)
                 continue
             y = np.asarray(y, dtype=np.float64).reshape(len(chunk), m, -1)
-            parts.append(np.einsum("m,nm...->n...", self._weights, y))  # as audit.quadrature sums over the nodes
+            parts.append(node_average(self._weights, y))
         if not parts:
             k = sum(t.units for t in self.outputs)
             return Evaluation(np.zeros((0, k)))
