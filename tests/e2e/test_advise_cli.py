@@ -36,7 +36,8 @@ def test_only_freezing_prints_pure_json_and_the_plan_and_phases_on_stderr():
         "netdim advise: freeze check started", "netdim advise: freeze check finished",
     ]  # fmt: skip
     total = report["design"]["evaluations"]
-    assert f"({total:,} of {report['plan']['total']:,} planned done" in phases[-1]
+    assert f"(0 of {report['plan']['total']:,} done" in phases[0]  # the plan's estimate first,
+    assert f"({total:,} of {total:,} planned done" in phases[-1]  # revised as the phases end
 
 
 def test_quiet_prints_nothing_at_all():

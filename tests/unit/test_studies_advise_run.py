@@ -133,6 +133,24 @@ def test_the_time_budget_is_checked_against_the_whole_plan(monkeypatch):
     assert f"({plan.evaluations:,} model evaluations at about" in e.value.message
 
 
+def test_the_plan_counts_one_gain_measurement_per_outputs_best_candidate():
+    """Two outputs with different best candidates: the gain is measured for both, and the plan said so."""
+    from audit.studies import execute_advice, prepare_advice
+
+    plan = prepare_advice(PythonModel(_quadratic, 3, source="quadratic"), "normal", **KW)
+    res = execute_advice(plan)
+    measured = {o.rqmc_gain.feature for o in res.outputs}
+    assert len(measured) == plan.gain_features == 2
+    n_max, r = max(KW["gain_points"]), KW["replicates"]
+    assert plan.phases["gain"] == n_max * r * (1 + plan.gain_features * plan.nodes)
+    # the run's gain cost: f once, and each f~ at its own node count (the node check lowered it here)
+    nodes = {o.rqmc_gain.feature: o.rqmc_gain.nodes for o in res.outputs}
+    assert res.design["evaluations_by_phase"]["gain"] == n_max * r * (1 + sum(nodes.values()))
+    assert all(n <= plan.nodes for n in nodes.values())
+    one = prepare_advice(PythonModel(lambda x: x[:, 0] * x[:, 1] + x[:, 2], 3, source="one"), "normal", **KW)
+    assert one.gain_features == 1
+
+
 def test_the_plan_and_phase_lines_go_to_the_callables_given():
     from audit.studies import execute_advice, prepare_advice
 
@@ -143,7 +161,8 @@ def test_the_plan_and_phase_lines_go_to_the_callables_given():
     started = [line for line in phases if " started, " in line]
     finished = [line for line in phases if " finished, " in line]
     assert len(started) == len(finished) == 2 + len(set(c.feature for o in res.outputs for c in o.preintegrate)) + 1
-    assert f"({res.design['evaluations']:,} of {plan.evaluations:,} planned done" in finished[-1]
+    done = res.design["evaluations"]
+    assert f"({done:,} of {done:,} planned done" in finished[-1]  # the planned total revised as phases ended
 
 
 def test_wide_model_candidates_are_exact_after_pre_integration():

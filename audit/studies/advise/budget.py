@@ -5,7 +5,9 @@ a rate timed on the model's first block (:func:`~audit.studies.setup.probe_rate`
 an estimate of the time. :class:`PhaseLog` writes one line when a phase starts and
 one when it ends, with the evaluations done and the time elapsed: the progress
 report for a standard error that is not a terminal (a log, a pipe, a CI job),
-where the progress bar draws nothing.
+where the progress bar draws nothing. Its planned total starts as the plan's
+estimate and is revised as each phase ends (the node check's nodes, the inputs
+the gain is measured for), so the last line's total is what the run cost.
 """
 
 from __future__ import annotations
@@ -61,6 +63,8 @@ def plan_lines(plan: AdvicePlan, rate: float | None = None) -> list[str]:
         label = PHASE_LABELS[key]
         if key in ("node_check", "preintegrated"):
             label += f" ({plan.candidates} input{'s' if plan.candidates != 1 else ''})"
+        elif key == "gain" and plan.gain_features > 1:
+            label += f" (up to {plan.gain_features} inputs)"
         eta = f"  about {fmt_seconds(n / rate)}" if rate else ""
         lines.append(f"  {label:<28}{n:>16,} evaluations{eta}")
     total = plan.evaluations
@@ -90,33 +94,49 @@ class PhaseLog:
     Examples
     --------
     >>> lines = []
-    >>> log = PhaseLog(lines.append, 100)
+    >>> log = PhaseLog(lines.append, 150)
     >>> log.start("audit", 100)
     >>> log.end("audit", 100)
     >>> [line.split(",")[0] for line in lines]
     ['netdim advise: audit started', 'netdim advise: audit finished']
+    >>> log.start("gain", 50)
+    >>> log.end("gain", 80)  # it cost more than planned: the total is revised
+    >>> "(180 of 180 planned done" in lines[-1]
+    True
     """
 
     def __init__(self, write: Callable[[str], None], total: int) -> None:
         self.write = write
         self.total = int(total)
         self.done = 0
+        self._planned = 0
         self._t0 = time.perf_counter()
         self._phase_t0 = self._t0
 
     def _elapsed(self) -> str:
         return fmt_seconds(time.perf_counter() - self._t0)
 
-    def start(self, phase: str, planned: int) -> None:
-        """Say that ``phase`` starts, with its planned evaluations."""
+    def start(self, phase: str, planned: int, share: int | None = None) -> None:
+        """Say that ``phase`` starts, with its planned evaluations; ``share``, the evaluations the
+        planned total had counted for it, is replaced by ``planned``."""
         self._phase_t0 = time.perf_counter()
+        self._planned = int(planned)
+        if share is not None:
+            self.revise(self._planned - int(share))
         self.write(
             f"netdim advise: {phase} started, {planned:,} evaluations planned "
             f"({self.done:,} of {self.total:,} done, {self._elapsed()} elapsed)"
         )
 
+    def revise(self, change: int) -> None:
+        """Add ``change`` (negative for work found unneeded) to the planned total."""
+        self.total = max(0, self.total + int(change))
+
     def end(self, phase: str, evaluations: int) -> None:
-        """Say that ``phase`` ended after ``evaluations`` evaluations."""
+        """Say that ``phase`` ended after ``evaluations`` evaluations (the planned total revised by
+        the difference from what its start said)."""
+        self.revise(int(evaluations) - self._planned)
+        self._planned = 0
         self.done += int(evaluations)
         took = fmt_seconds(time.perf_counter() - self._phase_t0)
         self.write(

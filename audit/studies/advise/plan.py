@@ -83,8 +83,9 @@ class AdvicePlan:
     """A prepared advise run: the audit's :class:`~audit.studies.setup.Setup` and the advice settings.
 
     ``evaluations`` is an estimate made before any run (it assumes ``nodes``
-    Gauss nodes, :attr:`candidates` inputs integrated out, one best candidate and
-    one freeze group; the pilot check may halve or double the nodes). ``only`` names the one
+    Gauss nodes, :attr:`candidates` inputs integrated out, :attr:`gain_features`
+    best candidates measured for the RQMC gain and one freeze group; the pilot
+    check may halve or double the nodes, and fewer outputs may share a best candidate). ``only`` names the one
     part to run (``None``: both); ``cuts`` says what was cut to fit ``max_evaluations``
     and ``skipped`` which parts are not done, with the reason.
     """
@@ -119,6 +120,14 @@ class AdvicePlan:
         if d < 2 or not self.does("pre-integration"):
             return 0
         return min(self.top * outputs, d, self.max_candidates)
+
+    @property
+    def gain_features(self) -> int:
+        """Inputs whose RQMC gain is measured, at most: each output's best candidate, so up to one per
+        output and never more than :attr:`candidates` (0 when the gain is not measured)."""
+        if not self.candidates or not self.does("rqmc gain"):
+            return 0
+        return min(self.candidates, max(1, len(self.setup.output_names)))
 
     def candidate_design(self) -> tuple[str, int, int]:
         """Estimator, points N' and randomizations R' of each pre-integrated audit.
@@ -158,8 +167,8 @@ class AdvicePlan:
         cands = self.candidates
         out["node_check"] = cands * self.pilot * 3 * self.nodes
         out["preintegrated"] = cands * self.preintegrated_cost(self.nodes)
-        if cands and self.does("rqmc gain"):
-            out["gain"] = max(self.gain_points, default=0) * r * (1 + self.nodes)
+        if self.gain_features:
+            out["gain"] = max(self.gain_points, default=0) * r * (1 + self.gain_features * self.nodes)
         if self.does("freezing"):
             out["freeze_check"] = n * r * 2
         return out

@@ -132,8 +132,9 @@ def execute_advice(
         scale = np.sqrt(np.maximum(main.var.mean(axis=0), 0.0))
         integrated: dict[int, Integrated] = {}
         over: list[str] = []
+        planned = plan.pilot * 3 * plan.nodes + plan.preintegrated_cost(plan.nodes) if plan.candidates else 0
+        steps.revise(-planned * (plan.candidates - len(union)))  # fewer inputs worth integrating out
         for j in union:
-            planned = plan.pilot * 3 * plan.nodes + plan.preintegrated_cost(plan.nodes)
             steps.start(f"pre-integrating {s.names[j]}", planned)
             check = node_check(plan, j, scale, session)
             phases["node_check"] += check.evaluations
@@ -168,12 +169,13 @@ def execute_advice(
             candidates[k] = sorted(cs, key=rank_key)
 
         gains: dict[int, RqmcGain] = {}
+        share = plan.phases["gain"]
         if plan.does("rqmc gain") and any(candidates.get(k) for k in live):
             n_max, reps = max(plan.gain_points), s.design.replicates
             features = list(dict.fromkeys(candidates[k][0].feature for k in live if candidates.get(k)))
             cost = n_max * reps * (1 + sum(integrated[s.names.index(f)].model.cost for f in features))
             if fits(cost):
-                steps.start("RQMC gain", cost)
+                steps.start("RQMC gain", cost, share=share)
                 before = prefix_variances(plan, s.model, s.laws, 1, "RQMC gain of the model", session)
                 phases["gain"] += n_max * reps
                 for feature in features:
@@ -190,6 +192,9 @@ def execute_advice(
             else:
                 skipped["rqmc gain"] = f"left out: its {cost:,} evaluations do not fit the evaluation budget"
                 cuts.append("RQMC gain left out")
+                steps.revise(-share)
+        else:
+            steps.revise(-share)
 
         items: dict = {}
         groups: dict = {}
