@@ -48,8 +48,7 @@ GAPS = (
     "them, but not timed: their names were not known when the suite was written.",
     "The cost of the fast ν estimator against d (once in tests/bench/bench_speed.py, now removed) is not "
     "measured.",
-    "Dask is measured on a local cluster only (no remote scheduler), and its speed-up includes the cluster's "
-    "start-up.",
+    "Dask is measured on a local cluster only (no remote scheduler).",
 )
 
 

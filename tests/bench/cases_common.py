@@ -65,6 +65,8 @@ class Settings:
     #: Dask: the simulator's (points, replicates, steps) and the ONNX MLP's (points, replicates)
     dask_ode: tuple[int, int, int]
     dask_mlp: tuple[int, int]
+    #: Dask, a job long enough that inference outweighs start-up: the simulator's steps per row (0: left out), pairs
+    dask_long: tuple[int, int] = (0, 0)
     #: which (model, --layers) overhead cases, which models for memory and advise, the Dask ONNX case or not
     overhead_cases: tuple[tuple[str, str], ...] = tuple((m, x) for m in ("mlp", "cnn") for x in ("none", "activations", "all"))  # noqa: E501
     memory_models: tuple[str, ...] = ("mlp", "cnn")
@@ -88,6 +90,7 @@ FULL = Settings(
     scipy_dims=(3, 6, 20, 50),
     dask_ode=(4096, 4, 2000),
     dask_mlp=(1024, 2),
+    dask_long=(20000, 3),
 )
 
 QUICK = Settings(

@@ -90,8 +90,12 @@ def render(results: dict) -> str:
         "two commands, start-up included. *Steady state*: in one process after a warm-up, `audit_model` on an "
         "opened model against the reference's inference loop (no imports, no session creation). MLP = the "
         "64-256-256-10 ReLU MLP (torch seed 0, exported to ONNX in a temporary folder, d = 64, 10 outputs); "
-        "CNN = `model_zoo/digits_cnn.onnx`. Target 1.15 outputs only, 1.5 with hidden layers (applied to "
-        "both `--layers activations` and `--layers all`).",
+        "CNN = `model_zoo/digits_cnn.onnx`. Target 1.15 outputs only, 1.5 with hidden layers (both "
+        "`--layers activations` and `--layers all`). With hidden layers the target's reference is the same "
+        "script on the same graph made to return the tensors netdim captures (written with `onnx`): "
+        "returning a hidden tensor stops onnxruntime fusing its node with the next (a convolution or Gemm "
+        "with its ReLU), which any script asking for those tensors pays. The rows *against outputs only* "
+        "keep the outputs-only reference, without a target, to show what the hidden layers cost in all.",
         "",
         *_table(results["overhead"], "netdim", "raw inference"),
         f"## {SECTIONS['memory']}",
@@ -152,8 +156,11 @@ def render(results: dict) -> str:
         "",
         f"## {SECTIONS['dask']}",
         "",
-        "Speed-up = wall time of one process over that of `--cluster local:2` (higher is better), whole "
-        "process, cluster start-up included.",
+        "Speed-up = wall time of one process over that of `--cluster local:2` (higher is better). Whole "
+        "process: the two commands' wall times, the cluster's start-up and close included, on a long job (one "
+        "process takes tens of seconds, so that the model's inference outweighs a start-up of about a second, as "
+        "in the jobs a cluster is for) and on a short one (no target). Steady state: in one process, the "
+        "cluster started once.",
         "",
         *_table(results["dask"], "local:2", "one process", ratio="speed-up"),
         f"## {SECTIONS['gaps']}",
