@@ -9,14 +9,21 @@ from typing import Any
 NOT_RESULTS = frozenset({"seconds", "source", "spec", "block"})
 
 
-def differences(old: Any, new: Any, rtol: float, where: str = "report", ignore=NOT_RESULTS) -> list[str]:
-    """Every place where ``new`` differs from ``old`` (numbers beyond ``rtol``; keys of ``old`` only)."""
+def differences(
+    old: Any, new: Any, rtol: float, where: str = "report", ignore=NOT_RESULTS, absolute: dict[str, float] | None = None
+) -> list[str]:
+    """Every place where ``new`` differs from ``old`` (numbers beyond ``rtol``; keys of ``old`` only).
+
+    ``absolute`` maps keys to an absolute tolerance used for their values instead (for quantities
+    formed by cancellation, whose last bits are those of larger numbers).
+    """
     out: list[str] = []
-    _walk(old, new, where, out, rtol, ignore)
+    _walk(old, new, where, out, rtol, ignore, absolute or {})
     return out
 
 
-def _walk(old: Any, new: Any, where: str, out: list[str], rtol: float, ignore) -> None:
+def _walk(old: Any, new: Any, where: str, out: list[str], rtol: float, ignore, absolute=None, key=None) -> None:
+    absolute = absolute or {}
     if isinstance(old, dict):
         if not isinstance(new, dict):
             out.append(f"{where}: was an object, now {type(new).__name__}")
@@ -27,15 +34,18 @@ def _walk(old: Any, new: Any, where: str, out: list[str], rtol: float, ignore) -
             if key not in new:
                 out.append(f"{where}.{key}: missing")
                 continue
-            _walk(value, new[key], f"{where}.{key}", out, rtol, ignore)
+            _walk(value, new[key], f"{where}.{key}", out, rtol, ignore, absolute, key)
     elif isinstance(old, list):
         if not isinstance(new, list) or len(new) != len(old):
             out.append(f"{where}: list of {len(old)} became {new!r:.60}")
             return
         for i, (a, b) in enumerate(zip(old, new, strict=True)):
-            _walk(a, b, f"{where}[{i}]", out, rtol, ignore)
+            _walk(a, b, f"{where}[{i}]", out, rtol, ignore, absolute, key)
     elif isinstance(old, float) and isinstance(new, int | float) and not isinstance(new, bool):
-        if not math.isclose(old, new, rel_tol=rtol, abs_tol=1e-300):
+        if key in absolute:
+            if abs(old - new) > absolute[key]:
+                out.append(f"{where}: {old!r} became {new!r} (absolute tolerance {absolute[key]:.3g})")
+        elif not math.isclose(old, new, rel_tol=rtol, abs_tol=1e-300):
             out.append(f"{where}: {old!r} became {new!r}")
     elif old != new:
         out.append(f"{where}: {old!r} became {new!r}")

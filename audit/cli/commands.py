@@ -82,7 +82,22 @@ def _open(args: argparse.Namespace, spec: Any, ref: str | None = None) -> Any:
     shape = _shape_arg(args.input_shape) or spec.model.get("input_shape")
     if shape is not None:
         kwargs["input_shape"] = shape
-    return open_model(ref or args.model, **kwargs)
+    model = open_model(ref or args.model, **kwargs)
+    _check_dim(model, args.dim, ref or args.model)
+    return model
+
+
+def _check_dim(model: Any, dim: int | None, ref: str) -> None:
+    """A model file knows its inputs: a `dim` that disagrees is a mistake, never silently ignored."""
+    if dim is None:
+        return
+    have = len(model.feature_names())
+    if have != dim:
+        raise UserError(
+            f"`dim` is {dim}, but the model file '{ref}' takes {have} inputs. `dim` is for Python functions "
+            "only (a model file knows its own inputs): leave it out, or give an input spec (`inputs`) whose "
+            f"laws cover the {have} inputs."
+        )
 
 
 def _design(args: argparse.Namespace) -> Any:

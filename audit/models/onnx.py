@@ -218,6 +218,7 @@ class OnnxModel:
         skipped.sort(key=lambda item: order.index(item[0]))
         if not self.outputs:
             raise no_output_error(self.source, skipped)
+        self.skipped_outputs = dict(skipped)  # name -> what it holds, for messages naming it
         if skipped:
             self.notices.append(output_notice(skipped))
         if moved:

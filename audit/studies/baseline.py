@@ -47,34 +47,60 @@ def baseline_design(report: AuditResult, given: dict[str, Any]) -> DesignOptions
 def baseline_spec(report: AuditResult, inputs: Any) -> InputSpec:
     """The baseline's input laws (and names, units); laws given as ``inputs`` must be the same."""
     names = [str(i["name"]) for i in report.inputs]
-    laws = [law_from_dict(i, f"the baseline's input '{i['name']}': ") for i in report.inputs]
+    laws = [_saved_law(i) for i in report.inputs]
     units = [str(i.get("unit", "")) for i in report.inputs]
-    output_units = report.model.get("output_units")
-    output_names = None  # set by the comparison when the new model has as many outputs (see with_output_names)
-    spec = InputSpec(
-        names=names, laws=laws, units=units, outputs=output_names, output_units=output_units,
-        source="the baseline report", title=str(report.model.get("title", "")),
-    )  # fmt: skip
+    unknown = [n for n, law in zip(names, laws, strict=True) if law is None]
     if inputs is None:
-        return spec
+        if unknown:
+            raise UserError(
+                f"The baseline report records the empirical law of {_listed(unknown)} only by a digest of its "
+                "knots, so the laws cannot be rebuilt from it. Give the input spec it was audited with "
+                "(`inputs`, the TOML file): its laws are checked against the digests and used."
+            )
+        # output names: set by the comparison when the new model has as many outputs (see with_output_names)
+        return InputSpec(
+            names=names, laws=laws, units=units, outputs=None, output_units=report.model.get("output_units"),
+            source="the baseline report", title=str(report.model.get("title", "")),
+        )  # fmt: skip
     asked = inputs_spec(inputs)
     if asked.laws is None and asked.dim is None:  # one law for every input, from `law`
         asked_laws = [asked.default] * len(laws)
     else:
         _, asked_laws = asked.resolve(len(laws), names)
-    differ = [f"{n}: {b.describe()} here, {a.describe()} in the baseline" for n, a, b in zip(names, laws, asked_laws,
-              strict=True) if a != b]  # fmt: skip
+    differ = []
+    for k, (n, a, b) in enumerate(zip(names, laws, asked_laws, strict=True)):
+        if a is None:  # an empirical law known by its digest: the asked law must record the same
+            saved = report.inputs[k]
+            if any(saved.get(key) != value for key, value in b.to_dict().items()):
+                differ.append(f"{n}: {b.describe()} here, an empirical law of digest {saved.get('digest')} in the "
+                              "baseline")  # fmt: skip
+            laws[k] = b
+        elif a != b:
+            differ.append(f"{n}: {b.describe()} here, {a.describe()} in the baseline")
     if differ:
         shown = "; ".join(differ[:4]) + (f"; and {len(differ) - 4} more" if len(differ) > 4 else "")
         raise UserError(
             f"The input laws differ from the baseline's ({shown}). Indices are defined for a law of the inputs: "
             "compare under the baseline's laws (leave `inputs` out), or audit the released model again."
         )
+    output_units = report.model.get("output_units")
     return InputSpec(
-        names=names, laws=laws, units=units, outputs=asked.outputs or output_names,
+        names=names, laws=laws, units=units, outputs=asked.outputs,
         output_units=asked.output_units or output_units,
-        model=asked.model, source=asked.source, title=asked.title or spec.title,
+        model=asked.model, source=asked.source, title=asked.title or str(report.model.get("title", "")),
     )  # fmt: skip
+
+
+def _saved_law(entry: dict[str, Any]) -> Any:
+    """The law an input of a report records, or None for an empirical law recorded by a digest only."""
+    if entry.get("law") == "empirical" and "quantiles" not in entry and "digest" in entry:
+        return None
+    return law_from_dict(entry, f"the baseline's input '{entry['name']}': ")
+
+
+def _listed(names: list[str]) -> str:
+    shown = ", ".join(f"'{n}'" for n in names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+    return ("input " if len(names) == 1 else "inputs ") + shown
 
 
 def with_output_names(spec: InputSpec, report: AuditResult, units: int) -> InputSpec:

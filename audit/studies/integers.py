@@ -14,6 +14,7 @@ from __future__ import annotations
 import dataclasses
 
 from ..design import EPS
+from ..errors import UserError
 from ..inputs import Law, Variables
 from ..inputs.discrete import rounded_parameters
 from ..models.base import Model
@@ -37,6 +38,13 @@ def integer_laws(model: Model, variables: Variables) -> tuple[Variables, str]:
         if len(cols) != 1 or cols[0] not in integer_cols or law.integer:
             continue
         params = rounded_parameters(law.ppf, law.cdf, EPS)
+        if params is not None and len(params["values"]) < 2:
+            raise UserError(
+                f"The input '{variables.names[i]}' feeds an integer-typed model input, which takes whole numbers, "
+                f"and its law {law.describe()} rounds to the single value {int(params['values'][0])}: the model would "
+                "see a constant. Give it a law over several whole numbers (the values the model was trained on, "
+                "unscaled), or export the model with a float input."
+            )
         if params is not None:
             laws[i] = Law("discrete", params)
             changed.append(variables.names[i])

@@ -67,15 +67,27 @@ def select_outputs(
         else:
             valid = list(dict.fromkeys([*tensors, *names]))
             shown = ", ".join(valid[:12]) + (" ..." if len(valid) > 12 else "")
+            held = getattr(model, "skipped_outputs", {}).get(w)
+            if held is not None:
+                raise UserError(
+                    f"The model's output '{w}' holds {held}, not real numbers, so it is not audited (Sobol' "
+                    f"indices of a class label measure which inputs flip it, rarely what is wanted). Choose "
+                    f"among the outputs of real numbers: {shown}."
+                )
             raise UserError(f"The model has no output named '{w}'." + suggest(w, valid) + f" Its outputs: {shown}.")
         keep += [c for c in cols if c not in keep]
     return np.array(keep, dtype=np.intp), [names[i] for i in keep]
 
 
-def _affine_residual(y: np.ndarray, basis: np.ndarray) -> np.ndarray:
-    X = np.column_stack([np.ones(len(y)), basis])
-    coef, *_ = np.linalg.lstsq(X, y, rcond=None)
-    return y - X @ coef, coef
+def _affine_fits(y: np.ndarray, basis: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Least-squares fits ``y ≈ a_i + b_i · basis[:, i]``, one per column: (a, b, largest residual)."""
+    xc = basis - basis.mean(axis=0)
+    yc = y - y.mean()
+    var = np.einsum("ni,ni->i", xc, xc)
+    b = np.divide(xc.T @ yc, var, out=np.zeros(basis.shape[1]), where=var > 0)
+    a = y.mean() - b * basis.mean(axis=0)
+    worst = np.abs(yc[:, None] - xc * b).max(axis=0)
+    return a, b, worst
 
 
 def _affine_text(coef: np.ndarray, names: Sequence[str], tiny: float) -> str:
@@ -93,9 +105,13 @@ def _affine_text(coef: np.ndarray, names: Sequence[str], tiny: float) -> str:
 def find_redundant(
     model: Model, design: Design, keep: np.ndarray | None, names: Sequence[str], dtype: type
 ) -> dict[str, str]:
-    """Outputs that are exact affine functions of earlier ones: ``{name: "= 1 − probabilities[0]"}``.
+    """Outputs that are exact affine functions of one earlier output: ``{name: "= 1 − probabilities[0]"}``.
 
-    A probe of the design's first rows is evaluated (at most :data:`PROBE_ROWS`).
+    Only a function of a single output (y = a + b·z, b ≠ 0) has that output's indices and ν
+    exactly; a combination of several (the last class of a softmax, 1 − p0 − p1) does not,
+    and is kept. A probe of the design's first rows is evaluated (at most
+    :data:`PROBE_ROWS`); an output that moves less than the rounding of its values on the
+    probe (a saturated classifier) is never called a function of another.
     """
     if len(names) < 2:
         return {}
@@ -107,14 +123,18 @@ def find_redundant(
     if not np.isfinite(y).all():
         return {}
     eps = max(machine_eps(t.dtype) for t in model.outputs)
+    rounding = ROUNDINGS * eps * np.maximum(np.abs(y).max(axis=0), 1e-300)
+    moves = np.ptp(y, axis=0) > ROUNDINGS * rounding  # far above the rounding of its values
     found: dict[str, str] = {}
     independent: list[int] = []
     for j in range(y.shape[1]):
-        scale = float(np.abs(y[:, j]).max())
-        if independent and y[:, j].std() > 0:
-            resid, coef = _affine_residual(y[:, j], y[:, independent])
-            if float(np.abs(resid).max()) <= ROUNDINGS * eps * max(scale, 1e-300):
-                found[names[j]] = "= " + _affine_text(coef, [names[i] for i in independent], ROUNDINGS * eps)
+        if independent and moves[j]:
+            cols = np.array(independent)
+            a, b, worst = _affine_fits(y[:, j], y[:, cols])
+            fits = (worst <= rounding[j]) & moves[cols]
+            if fits.any():
+                i = int(np.flatnonzero(fits)[0])
+                found[names[j]] = "= " + _affine_text(np.array([a[i], b[i]]), [names[cols[i]]], ROUNDINGS * eps)
                 continue
         independent.append(j)
     return found

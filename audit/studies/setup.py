@@ -140,14 +140,14 @@ class Setup:
         return ModelEvaluator(self.model, [x.name for x in self.layers], self.keep)
 
     def find_relations(self) -> list[str]:
-        """Evaluate a small probe and note outputs that are exact affine functions of earlier ones.
+        """Evaluate a small probe and note outputs that are exact affine functions of one earlier output.
 
         Returns the notices added (they are also appended to :attr:`notices`).
         """
         self.redundant = find_redundant(self.model, self.design, self.keep, self.output_names, self.dtype)
         added = [
-            f"{name} {relation} exactly (on a probe of the design): its indices and ν follow from "
-            "those outputs', so the report details those only."
+            f"{name} {relation} exactly (on a probe of the design): its indices and ν are that output's, "
+            "so the report details that one only."
             for name, relation in self.redundant.items()
         ]
         self.notices.extend(added)

@@ -94,3 +94,18 @@ def test_html_targets_that_would_destroy_an_input_are_refused_before_any_work(tm
     code = main(["audit", "tests.clifuncs:log_first", "--dim", "2", "--inputs", str(spec), "--html", str(spec)])
     assert code == EXIT_USAGE and "--html" in capsys.readouterr().err
     assert spec.read_text(encoding="utf-8") == "[inputs]\nlaw = 'uniform'\n"
+
+
+def test_a_dim_that_disagrees_with_a_model_file_is_refused(capsys):
+    import os
+
+    import audit
+
+    path = os.path.join(os.path.dirname(audit.__file__), os.pardir, "model_zoo", "greenhouse_v1.onnx")
+    have = len(audit.open_model(path).feature_names())
+    code = main(["audit", path, "--dim", str(have + 1), "--law", "uniform", "--points", "64", "--no-save", "-q"])
+    err = capsys.readouterr().err
+    assert code == EXIT_USAGE and f"--dim is {have + 1}, but the model file" in err and f"takes {have} inputs" in err
+    assert "Traceback" not in err
+    assert main(["audit", path, "--dim", str(have), "--law", "uniform", "--points", "64", "--replicates", "2",
+                 "--no-save", "-q"]) == EXIT_OK  # fmt: skip

@@ -75,3 +75,20 @@ def test_in_memory_torch_and_onnx_models():
     a = audit_model(proto, "normal", points=256, replicates=4, seed=1)
     assert a.model["format"] == "onnx" and a.outputs[0].mean_dimension.covers(1.0)
     assert np.isfinite(a.outputs[0].variance.estimate)
+
+
+def test_a_baseline_of_empirical_laws_needs_and_checks_the_spec(tmp_path):
+    """A report records an empirical law by a digest of its knots: the same laws given again are checked and used."""
+    knots = np.sort(np.random.default_rng(5).normal(size=(6, 40)), axis=1)
+    laws = [Law("empirical", {"quantiles": list(map(float, q))}) for q in knots]
+    r = audit_model(PythonModel(clifuncs.additive6, 6, source="additive6"), laws, **KW)
+    path = tmp_path / "released.json"
+    path.write_text(json.dumps(r.to_dict()))
+    with pytest.raises(UserError, match=r"only by a digest of its knots.*Give the input spec"):
+        compare_models(str(path), _new(), layers="none")
+    other = [*laws[:5], Law("empirical", {"quantiles": list(map(float, knots[5] + 0.5))})]
+    with pytest.raises(UserError, match=r"x5: empirical\(40 knots.*an empirical law of digest"):
+        compare_models(str(path), _new(), other, layers="none")
+    c = compare_models(str(path), _new(), laws, layers="none")
+    assert c.design["baseline"] is True and c.design["points"] == 128
+    assert np.isclose(c.outputs[0].old.mean_dimension.estimate, r.outputs[0].mean_dimension.estimate, rtol=1e-12)

@@ -25,3 +25,15 @@ def test_continuous_laws_on_integer_columns_become_the_laws_of_their_rounded_val
     np.testing.assert_array_equal(v.laws[2].ppf(u), np.rint(laws[2].ppf(u)))
     same, none = integer_laws(model, build_variables(["a", "b", "c"], [*laws[:2], v.laws[2]], [""] * 3))
     assert none == "" and same.laws[2] == v.laws[2]
+
+
+def test_a_law_that_rounds_to_one_whole_number_is_refused():
+    """Standardised features (sd 0.05) fed to an int64 input: the model would see 0 only."""
+    import pytest
+
+    from audit.errors import UserError
+
+    model = SimpleNamespace(inputs=[TensorInfo("k", (2,), "int64")])
+    laws = [Law("normal", {"mean": 0.0, "sd": 0.05}), Law("normal", {"mean": 3.0, "sd": 2.0})]
+    with pytest.raises(UserError, match=r"'a' feeds an integer-typed model input.*single value 0: the model would"):
+        integer_laws(model, build_variables(["a", "b"], laws, [""] * 2))

@@ -68,3 +68,17 @@ def test_pairs_from_the_command_line(capsys, monkeypatch):
             "--pairs", "--no-save", "--seed", "1"]  # fmt: skip
     assert main(args) == 0
     assert "Strongest pairs" in capsys.readouterr().out
+
+
+def test_pairs_of_fewer_inputs_than_d_name_the_spread_they_measure():
+    """With K < d leading inputs the second moment is that of |u ∩ K|: for the additive f = Σ x_j (d = 4, K = 2)
+    |u ∩ K| is 1 on two of the four equal main effects and 0 on the others, a spread of 1/4, not the 0 of |u|."""
+    from audit.report.sections.audit import pairs_blocks
+
+    r = audit_function(lambda x: x.sum(axis=1), "normal", dim=4, points=1024, replicates=R, seed=6, pairs=2)
+    out = r.outputs[0]
+    assert not r.design["pairs"]["all_inputs"]
+    bound = float(stats.t.ppf(1 - FAMILY_ERROR / 2, R - 1))
+    assert abs(out.dimension_spread.estimate - 0.25) <= bound * out.dimension_spread.std_error
+    text = " ".join(b.text for b in pairs_blocks(out) if hasattr(b, "text"))
+    assert "among the 2 paired inputs K (variance of |u ∩ K|" in text and "over all 4 inputs" in text

@@ -69,6 +69,11 @@ def test_logistic_regression_binary_probabilities(tmp_path):
     assert names == ["probabilities[0]", "probabilities[1]"]
     assert r.outputs[1].relation == "= 1 − probabilities[0]"  # p1 = 1 − p0, noted once
     _possible(r, 6)
+    # asking for the label by name says what it holds and which outputs can be chosen
+    from audit.errors import UserError
+
+    with pytest.raises(UserError, match=r"output 'label' holds int64, not real numbers.*probabilities\[0\]"):
+        audit_model(path, _spec_from(X), points=64, replicates=2, seed=1, outputs=["label"])
 
 
 def test_random_forest_three_classes(tmp_path):
@@ -80,7 +85,8 @@ def test_random_forest_three_classes(tmp_path):
     path = _convert(model, X, tmp_path / "rf.onnx")
     r = audit_model(path, _spec_from(X), points=1024, replicates=R, seed=2)
     assert any("label" in n for n in r.notices)
-    assert len(r.outputs) == 3 and r.outputs[2].relation.startswith("= 1")  # p2 = 1 − p0 − p1
+    # p2 = 1 − p0 − p1, a combination of two outputs: its indices are its own, so it is measured and shown
+    assert len(r.outputs) == 3 and r.outputs[2].relation == ""
     _possible(r, 4)
     # choosing outputs by unit name keeps only those
     one = audit_model(path, _spec_from(X), points=256, replicates=4, seed=2, outputs=["probabilities[1]"])

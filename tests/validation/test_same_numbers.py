@@ -53,5 +53,11 @@ def test_report_is_reproduced(name, args, tmp_path, monkeypatch):
     assert code == 0
     old = json.loads((HERE / f"{name}.json").read_text(encoding="utf-8"))
     new = json.loads(out.read_text(encoding="utf-8"))
-    problems = differences(old, new, RTOL, name)
+    # a quadrature error is max |f̃_m − f̃_2m| / sd(f) over pilot points (audit/nodes.py): a difference of
+    # pre-integrated values, which cancels, so its last bits are those of f / sd(f) (another CPU's SIMD kernels
+    # moved them by up to 6e-16, 2e-9 relative): it is compared to RTOL of the largest (|mean| + sd) / sd
+    scale = max(((abs(o["mean"]["estimate"]) + o["variance"]["estimate"] ** 0.5) / o["variance"]["estimate"] ** 0.5
+                 for o in old.get("outputs", []) if isinstance(o.get("variance"), dict)
+                 and isinstance(o.get("mean"), dict) and o["variance"]["estimate"] > 0), default=1.0)  # fmt: skip
+    problems = differences(old, new, RTOL, name, absolute={"quadrature_error": RTOL * scale})
     assert not problems, "\n".join(problems[:20])

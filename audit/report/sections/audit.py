@@ -116,7 +116,7 @@ def inputs_section(
     if output.inert or output.mean_dimension is None:
         return Section(title, tuple(blocks))
     if output.relation:
-        note = f"{output.name} {output.relation} exactly: its indices and ν follow from those, detailed above."
+        note = f"{output.name} {output.relation} exactly: its indices and ν are that output's, detailed above."
         return Section(title, (*blocks, Note(note)))
     if output.unreliable:
         blocks.append(Note(f"Unreliable: {output.unreliable}. The numbers below are shown as estimated."))
@@ -174,12 +174,16 @@ def pairs_blocks(output: OutputResult, threshold: float = DEFAULT_THRESHOLD) -> 
         blocks.append(Note(f"No pair of the leading inputs holds {fmt_setting(threshold)} of the variance."))
     spread = output.dimension_spread
     if spread is not None:
-        blocks.append(
-            Paragraph(
-                f"Spread of the dimension (variance of |u| over the variance's terms): {fmt(spread.estimate)} "
-                f"{fmt_interval(spread.ci_low, spread.ci_high)}; 0 means every term has the same order."
-            )
-        )
+        paired = {name for p in output.pairs for name in (p.first, p.second)}
+        d = len(output.total_index)
+        if d and len(paired) < d:  # the pairs of K leading inputs give the moments of |u ∩ K| only
+            text = (f"Spread of the dimension among the {len(paired)} paired inputs K (variance of |u ∩ K| over "
+                    f"the variance's terms): {fmt(spread.estimate)} {fmt_interval(spread.ci_low, spread.ci_high)}; "
+                    f"not the spread of |u| over all {d} inputs (--pairs {d}, pairs={d}, measures that).")
+        else:
+            text = (f"Spread of the dimension (variance of |u| over the variance's terms): {fmt(spread.estimate)} "
+                    f"{fmt_interval(spread.ci_low, spread.ci_high)}; 0 means every term has the same order.")
+        blocks.append(Paragraph(text))
     return blocks
 
 
