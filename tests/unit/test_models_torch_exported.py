@@ -84,3 +84,36 @@ def test_one_number_per_row_is_a_scalar_tensor(tmp_path: Path) -> None:
     with torch.no_grad():
         ref = net(torch.from_numpy(x[:, :3].astype(np.float32)), torch.from_numpy(x[:, 3].astype(np.float32)))
     np.testing.assert_allclose(model.evaluate(x).outputs, ref.numpy(), rtol=1e-5, atol=1e-6)
+
+
+class _InPlace(torch.nn.Module):
+    """Linear layers whose outputs later ops change in place (ReLU(inplace=True), ``out += x``)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.fc1, self.fc2 = torch.nn.Linear(4, 6), torch.nn.Linear(6, 4)
+        self.act = torch.nn.ReLU(inplace=True)
+
+    def forward(self, x: torch.Tensor) -> torch.Tensor:
+        out = self.fc2(self.act(self.fc1(x)))
+        out += x
+        return out.sum(dim=1, keepdim=True)
+
+
+def test_captured_tensors_are_those_before_later_in_place_ops(tmp_path: Path) -> None:
+    """The eager network's own tensors (forward hooks on a copy of each module's output) are the reference."""
+    torch.manual_seed(0)
+    net = _InPlace().eval()
+    model = open_model(str(_export(net, (torch.zeros(2, 4),), tmp_path / "inplace.pt2")))
+    names = [layer.name for layer in model.layers()]
+    assert "fc1" in names and "fc2" in names
+    x = RNG.normal(size=(32, 4))
+    seen: dict[str, np.ndarray] = {}
+    for name in ("fc1", "fc2"):
+        getattr(net, name).register_forward_hook(lambda m, i, o, name=name: seen.__setitem__(name, o.detach().clone()
+                                                                                               .numpy()))  # fmt: skip
+    with torch.no_grad():
+        net(torch.as_tensor(x, dtype=torch.float32))
+    got = model.evaluate(x, ["fc1", "fc2"]).hidden
+    for name in ("fc1", "fc2"):  # before the fix: fc1 held the ReLU's values, fc2 the sum with x
+        np.testing.assert_allclose(got[name], seen[name], rtol=1e-6, atol=1e-6)

@@ -140,6 +140,10 @@ class ExportedModel(TorchModel):
             result = graph.graph_copy(self.module.graph, mapping)
             leaves = list(result) if isinstance(result, (tuple, list)) else [result]
             by_name = {node.name: mapping[node] for node in self.module.graph.nodes if node in mapping}
+            if _mutates(graph):  # an in-place op later on (ReLU(inplace=True), out += x) would change a capture
+                for name in key:
+                    with graph.inserting_after(by_name[name]):
+                        by_name[name] = graph.call_function(torch.ops.aten.clone.default, (by_name[name],))
             graph.output((*leaves, *(by_name[name] for name in key)))
             self._modules[key] = torch.fx.GraphModule(self.module, graph)
         return self._modules[key]
@@ -161,6 +165,15 @@ class ExportedModel(TorchModel):
     def _candidates(self) -> list[Layer]:
         nodes, returned = program_nodes(self.module.graph, self.module)
         return name_layers(fuse(nodes, returned), returned)
+
+
+def _mutates(graph: torch.fx.Graph) -> bool:
+    """Whether any node of ``graph`` writes into a tensor in place (an ATen op whose schema is mutable)."""
+    for node in graph.nodes:
+        schema = getattr(node.target, "_schema", None) if node.op == "call_function" else None
+        if schema is not None and schema.is_mutable:
+            return True
+    return False
 
 
 def _scope(node: torch.fx.Node) -> str:
