@@ -57,6 +57,11 @@ def _shape_arg(items: list[str] | None) -> tuple[int, ...] | dict[str, tuple[int
         return _dims(items[0], items[0])
     if len(named) != len(items):
         raise UserError("Give every --input-shape as NAME=D1,D2 when one of them names its tensor.")
+    names = [item.split("=", 1)[0].strip() for item in items]
+    twice = sorted({n for n in names if names.count(n) > 1})
+    if twice:
+        raise UserError(f"--input-shape names the input tensor {', '.join(repr(n) for n in twice)} more than once; "
+                        "give one shape per tensor.")  # fmt: skip
     return {name.strip(): _dims(dims, item) for item in items for name, dims in [item.split("=", 1)]}
 
 

@@ -31,6 +31,8 @@ def test_input_shapes_are_positive_whole_numbers():
 
 def test_input_shapes_per_named_tensor():
     assert _shape_arg(["a=16,4", "b=3"]) == {"a": (16, 4), "b": (3,)}
+    with pytest.raises(UserError, match="names the input tensor 'a' more than once"):
+        _shape_arg(["a=3", "b=2", "a=2"])
     with pytest.raises(UserError, match="NAME=D1,D2 when there are several"):
         _shape_arg(["3", "4"])
     with pytest.raises(UserError, match="every --input-shape as NAME=D1,D2"):
