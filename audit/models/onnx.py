@@ -152,6 +152,16 @@ class OnnxModel:
                     "needs a batch axis first. Re-export the model with input shape (batch, ...)."
                 )
             batch, *rest = meta.shape
+            symbolic_later = any(not (isinstance(x, int) and x > 0) for x in rest)
+            if isinstance(batch, int) and batch > 0 and symbolic_later and meta.name not in given:
+                raise UserError(
+                    f"The input '{meta.name}' of the ONNX model '{self.path}' has shape {meta.shape}: its first "
+                    "axis is fixed and a later one is symbolic, as when the batch axis is not first (a "
+                    "sequence-first RNN, batch_first=False). netdim feeds rows along the first axis: export the "
+                    "model with the batch axis first (batch_first=True, or a wrapper that transposes its input "
+                    "before the network), or give the shape of one row with `input_shape` if the first axis "
+                    "really is a fixed batch."
+                )
             if isinstance(batch, int) and batch > 0:
                 batches.add(batch)
             self.inputs.append(TensorInfo(meta.name, self._shape(meta, rest, given, len(metas)),

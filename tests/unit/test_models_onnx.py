@@ -437,3 +437,18 @@ def test_outputs_alone_run_in_batches_that_give_the_rows_of_one_call(ops_model: 
     np.testing.assert_allclose(chunked, whole, rtol=1e-6)
     captured = ops_model.evaluate(x, [ops_model.layers()[0].name])  # hidden tensors: one call, never joined
     assert calls[-1] == 37 and captured.outputs.shape == whole.shape
+
+
+def test_an_input_whose_batch_axis_is_not_first_is_named_so(tmp_path) -> None:
+    """A sequence-first input (time 3, batch symbolic, 2 features): the message says the batch must come first."""
+    x = helper.make_tensor_value_info("s", TensorProto.FLOAT, [3, "batch", 2])
+    y = helper.make_tensor_value_info("y", TensorProto.FLOAT, ["batch", 2])
+    node = helper.make_node("ReduceSum", ["s", "axes"], ["y"], keepdims=0)
+    axes = numpy_helper.from_array(np.array([0], dtype=np.int64), "axes")
+    graph = helper.make_graph([node], "seq_first", [x], [y], [axes])
+    model = helper.make_model(graph, opset_imports=[helper.make_opsetid("", 17)])
+    model.ir_version = 8
+    path = tmp_path / "seq_first.onnx"
+    path.write_bytes(model.SerializeToString())
+    with pytest.raises(UserError, match=r"has shape \[3, 'batch', 2\].*batch axis is not first.*batch axis first"):
+        OnnxModel(path)
