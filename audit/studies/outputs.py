@@ -124,7 +124,7 @@ def find_redundant(
         return {}
     eps = max(machine_eps(t.dtype) for t in model.outputs)
     rounding = ROUNDINGS * eps * np.maximum(np.abs(y).max(axis=0), 1e-300)
-    moves = np.ptp(y, axis=0) > ROUNDINGS * rounding  # far above the rounding of its values
+    moves = np.ptp(y, axis=0) > 100 * rounding  # far above the rounding of its values
     found: dict[str, str] = {}
     independent: list[int] = []
     for j in range(y.shape[1]):
