@@ -138,6 +138,13 @@ def _open_file(
         raise
     except Exception as exc:  # a backend library failing on this file
         text = str(exc).strip()
+        if isinstance(exc, MemoryError) or "allocate memory" in text:
+            shape = f" (`input_shape` {input_shape})" if input_shape is not None else ""
+            raise UserError(
+                f"Opening the model file '{path}' ran out of memory while probing it with a few rows{shape}. "
+                "Check the shape of one input row: the probe needs a few rows of it and of every hidden tensor "
+                "in memory."
+            ) from exc
         first = text.splitlines()[0][:240] if text else ""
         raise UserError(
             f"The model file '{path}' could not be opened ({type(exc).__name__}{': ' + first if first else ''}). "

@@ -216,3 +216,19 @@ def test_zoo_models_have_one_layer_list_in_every_format() -> None:
     # Φ(z) = (1 + erf(z / √2)) / 2 is one function, traced (scalar constants) or exported: the model's output
     for suffix in (".onnx", ".pt"):
         assert [la.name for la in open_model(str(zoo / f"ridge_phi{suffix}")).layers()] == ["project"], suffix
+
+
+def test_running_out_of_memory_while_probing_names_the_input_shape(tmp_path, monkeypatch):
+    """A huge `input_shape` makes the probe's rows too large: the message says so, not that the file is damaged."""
+    import audit.models.onnx as onnx_backend
+
+    path = tmp_path / "m.onnx"
+    path.write_bytes(b"not read")
+
+    def no_memory(*args, **kwargs):
+        raise MemoryError("Unable to allocate 37.3 TiB for an array")
+
+    monkeypatch.setattr(onnx_backend, "OnnxModel", no_memory)
+    with pytest.raises(UserError, match=r"ran out of memory while probing.*`input_shape` \(100000000, 100000\)") as e:
+        open_model(str(path), input_shape=(100000000, 100000))
+    assert "damaged" not in e.value.message
