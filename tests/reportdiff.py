@@ -22,8 +22,7 @@ def differences(
     return out
 
 
-def _walk(old: Any, new: Any, where: str, out: list[str], rtol: float, ignore, absolute=None, key=None) -> None:
-    absolute = absolute or {}
+def _walk(old: Any, new: Any, where: str, out: list[str], rtol: float, ignore, absolute: dict, key=None) -> None:
     if isinstance(old, dict):
         if not isinstance(new, dict):
             out.append(f"{where}: was an object, now {type(new).__name__}")
