@@ -4,9 +4,9 @@ The 64-256-256-10 ReLU MLP is built here from code (fixed torch seed) and export
 to ONNX into a temporary folder; the digits CNN is the bundled
 ``model_zoo/digits_cnn.onnx``. The reference is :mod:`raw_inference`: the same number
 of rows (the audit's ``design["evaluations"]``, N(d+2)R for the Jansen estimator)
-through the same kind of onnxruntime session, in batches of the rows netdim puts in
-one task (``design["block"]`` points × rows per point; for outputs alone, the at most
-``audit.models.onnx.OUTPUT_ROWS`` rows netdim feeds per call), outputs only.
+through the same kind of onnxruntime session, in batches of the rows netdim feeds per
+call (``audit.models.onnx.CALL_ROWS``, or a task's rows, ``design["block"]`` points ×
+rows per point, when fewer), outputs only.
 
 With hidden layers there are two references. Returning a hidden tensor changes the
 inference itself: onnxruntime can no longer fuse the node that makes it with the next
@@ -102,10 +102,9 @@ def _steady(path: Path, layers: str, points: int, replicates: int, pairs: int, f
     def raw() -> float:
         d = state["design"]
         batch = d["block"] * d["evaluations"] // (d["points"] * d["replicates"])
-        if layers == "none":  # netdim runs outputs alone in calls of at most OUTPUT_ROWS rows: the same here
-            from audit.models.onnx import OUTPUT_ROWS
+        from audit.models.onnx import CALL_ROWS  # netdim's rows per onnxruntime call: the same here
 
-            batch = min(batch, OUTPUT_ROWS)
+        batch = min(batch, CALL_ROWS)
         if state.get("batch") != batch:
             state["runner"], state["batch"] = RawRunner(str(path), batch), batch
             state["runner"].run(batch)  # warm-up of the reference's session
