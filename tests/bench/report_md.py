@@ -86,8 +86,9 @@ def render(results: dict) -> str:
         "",
         "netdim's time over the reference's: `tests/bench/raw_inference.py` (python, numpy and onnxruntime "
         "only) pushes the same rows (the audit's evaluations, N(d+2)R) through a CPU session with one thread "
-        "per core, in batches of the rows of one netdim task, outputs only. *Whole process*: wall time of the "
-        "two commands, start-up included. *Steady state*: in one process after a warm-up, `audit_model` on an "
+        "per core, in batches as netdim calls the model (`CALL_ROWS`, 1024 rows, or a task's rows when "
+        "fewer), outputs only. *Whole process*: wall time of the two commands, start-up included. "
+        "*Steady state*: in one process after a warm-up, `audit_model` on an "
         "opened model against the reference's inference loop (no imports, no session creation). MLP = the "
         "64-256-256-10 ReLU MLP (torch seed 0, exported to ONNX in a temporary folder, d = 64, 10 outputs); "
         "CNN = `model_zoo/digits_cnn.onnx`. Target 1.15 outputs only, 1.5 with hidden layers (both "
