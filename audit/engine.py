@@ -27,6 +27,7 @@ from typing import Any, Protocol
 
 import numpy as np
 
+from . import buffers
 from .design import Design
 from .estimators.base import Estimator, Sums
 from .finite import NonFiniteError, check_inputs, check_outputs, fits
@@ -154,7 +155,8 @@ class LocalExecutor:
 
     Large blocks (``OVERLAP_VALUES``) of a model that takes concurrent calls (its
     evaluator's ``concurrent``: ONNX models) run side by side, each task whole --
-    evaluation and sums -- in its own thread on a session with its share of the cores;
+    evaluation and sums -- in its own thread on a session with its share of the cores,
+    lent the arrays of that thread's last task (:mod:`audit.buffers`);
     on 2 cores this took audits with the activation layers from 1.52x to 1.25x (a
     64-256-256-10 MLP) and from 1.80x to 1.44x (the digits CNN) the model's own
     inference on one two-thread session (tests/bench). Other models overlap instead:
@@ -222,13 +224,20 @@ def _side_by_side(job: Job, tasks: Iterable[Task], calls: int) -> Iterator[tuple
                 if len(pending) == calls:
                     done, future = pending.popleft()
                     yield done, future.result()
-                pending.append((t, pool.submit(run_task, job, t)))
+                pending.append((t, pool.submit(_lent_task, job, t)))
             while pending:
                 done, future = pending.popleft()
                 yield done, future.result()
         finally:
             for _, future in pending:
                 future.cancel()
+
+
+def _lent_task(job: Job, task: Task) -> dict[str, Sums]:
+    """:func:`run_task` with the arrays of this thread's last task lent to the model (each task
+    evaluated and summed here, nothing but its sums kept: :mod:`audit.buffers`)."""
+    with buffers.lending():
+        return run_task(job, task)
 
 
 def iter_tasks(points: int, replicates: int, block: int, done: Mapping[int, Sequence[tuple[int, int]]] | None = None):

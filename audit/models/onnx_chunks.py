@@ -6,7 +6,9 @@ while the next node reads them), but joining the chunks' hidden tensors would co
 them all once more. Here the first chunk is run as usual, which gives every
 tensor's shape per row and element type; arrays for all the rows are made from
 it, and every later chunk writes its tensors straight into their rows of those
-arrays (onnxruntime's IOBinding with the arrays' memory as the outputs).
+arrays (onnxruntime's IOBinding with the arrays' memory as the outputs). The
+arrays come from :func:`audit.buffers.take`: the last task's, when the engine lends
+them (:func:`audit.buffers.lending`), else new.
 """
 
 from __future__ import annotations
@@ -15,6 +17,8 @@ from collections.abc import Callable, Sequence
 
 import numpy as np
 import onnxruntime as ort
+
+from ..buffers import take
 
 __all__ = ["run_in_place"]
 
@@ -57,7 +61,7 @@ def run_in_place(
     first = run(x[:chunk])
     out = []
     for value in first:
-        full = np.empty((n, *value.shape[1:]), dtype=value.dtype)
+        full = take((n, *value.shape[1:]), value.dtype)  # lent by the engine between its tasks, else new
         full[: len(value)] = value
         out.append(full)
     binding = session.io_binding()

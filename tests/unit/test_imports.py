@@ -4,7 +4,7 @@ Every ``import`` of every module under ``audit/`` is read from its syntax tree,
 imports inside functions included, relative imports resolved. The layers, from
 the bottom (DEVELOPERS.md, "Layers"):
 
-    0  errors, seeds, version
+    0  errors, seeds, version, buffers
     1  inputs, results
     2  design, estimators, models, finite, memory
     3  engine, quadrature
@@ -33,6 +33,7 @@ LAYERS = {
     "errors": 0,
     "seeds": 0,
     "version": 0,
+    "buffers": 0,
     "inputs": 1,
     "results": 1,
     "design": 2,
