@@ -193,7 +193,8 @@ def _describe(skipped: Sequence[Skipped]) -> str:
 
 
 def _maps(skipped: Sequence[Skipped]) -> bool:
-    return any(not what.startswith(("int", "uint", "bool")) for _, what in skipped)
+    """Whether an output left out is a map or a sequence of maps (what skl2onnx's ZipMap makes)."""
+    return any("map" in what for _, what in skipped)
 
 
 def output_notice(skipped: Sequence[Skipped]) -> str:

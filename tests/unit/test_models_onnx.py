@@ -358,6 +358,26 @@ def test_scikit_learn_classifier_opens_with_its_probabilities(tmp_path: Path, in
     np.testing.assert_allclose(ev.outputs, fitted.predict_proba(x), atol=1e-5)
 
 
+def test_string_labels_without_zipmap_get_no_zipmap_advice(tmp_path: Path) -> None:
+    """A classifier fitted on iris's species names, converted without ZipMap: the string labels
+    are left out, the probabilities audited, and nothing tells the user to turn ZipMap off."""
+    from skl2onnx import convert_sklearn
+    from skl2onnx.common.data_types import FloatTensorType
+    from sklearn.datasets import load_iris
+    from sklearn.linear_model import LogisticRegression
+
+    data = load_iris()
+    estimator = LogisticRegression(max_iter=1000).fit(data.data, data.target_names[data.target])
+    proto = convert_sklearn(estimator, initial_types=[("X", FloatTensorType([None, 4]))],
+                            options={id(estimator): {"zipmap": False}}, target_opset=netbuild.OPSET)  # fmt: skip
+    path = tmp_path / "species.onnx"
+    path.write_bytes(proto.SerializeToString())
+    model = open_model(str(path))
+    assert [o.name for o in model.outputs] == ["probabilities"]
+    notice = next(n for n in model.notices if "left out" in n)
+    assert "'label'" in notice and "string" in notice and "zipmap" not in notice.lower()
+
+
 def test_scikit_learn_classifier_with_zipmap_is_refused_with_advice(tmp_path: Path) -> None:
     path = tmp_path / "zip.onnx"
     _iris_onnx(_classifiers()[0], path, zipmap=True)

@@ -73,6 +73,8 @@ def test_words_for_outputs_left_out() -> None:
     notice = output_notice([("label", "int64")])
     assert "'label' (int64)" in notice and "zipmap" not in notice
     assert "{'zipmap': False}" in output_notice([("probability", "a sequence of maps")])
+    assert "zipmap" not in output_notice([("label", "tensor(string)")])  # string labels: no ZipMap involved
+    assert "zipmap" not in str(no_output_error("m.onnx", [("label", "tensor(string)"), ("s", "a sequence")]))
     assert "holds integers (int64)" in str(no_output_error("m.onnx", [("label", "int64")]))
     both = str(no_output_error("m.onnx", [("label", "int64"), ("probability", "a sequence of maps")]))
     assert "'label' (int64)" in both and "'probability' (a sequence of maps)" in both and "'zipmap': False" in both
