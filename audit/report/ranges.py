@@ -22,6 +22,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from ..results import Estimate
+from ..results.base import first_order_position, position
 from .document import Cell, Note
 from .text import SIGNIFICANT_DIGITS, finite, fmt
 
@@ -31,18 +32,8 @@ NOISE = "†"
 BEYOND = "‡"
 
 
-def place(e: Estimate, low: float, high: float) -> str:
-    """``"inside"`` the range [low, high], outside it ``"noise"`` (the interval reaches it) or ``"beyond"``.
-
-    Estimates that are not finite are ``"inside"`` (nothing to mark); without a
-    finite interval an estimate outside the range is ``"beyond"``.
-    """
-    x = e.estimate
-    if not finite(x) or low <= x <= high:
-        return "inside"
-    if finite(e.ci_low) and finite(e.ci_high) and e.ci_low <= high and e.ci_high >= low:
-        return "noise"
-    return "beyond"
+#: ``"inside"``, ``"noise"`` or ``"beyond"`` (:func:`audit.results.base.position`; the JSON says the same).
+place = position
 
 
 class Marks:
@@ -66,11 +57,7 @@ class Marks:
 
     def first_order(self, e: Estimate, total: Estimate | None, digits: int = SIGNIFICANT_DIGITS) -> str | Cell:
         """A first-order index: marked outside [0, 1] or above the total index of the same input."""
-        where = place(e, 0.0, 1.0)
-        if where == "inside" and total is not None and finite(total.estimate) and e.estimate > total.estimate:
-            reach = total.ci_high if finite(total.ci_high) else total.estimate
-            where = "noise" if finite(e.ci_low) and e.ci_low <= reach else "beyond"
-        return self._cell(fmt(e.estimate, digits), where)
+        return self._cell(fmt(e.estimate, digits), first_order_position(e, total))
 
     def nu(self, e: Estimate, d: int, digits: int = SIGNIFICANT_DIGITS) -> str | Cell:
         """A mean dimension: marked outside [1, d]."""

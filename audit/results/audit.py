@@ -6,9 +6,33 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from .base import SCHEMA, Displayable, Estimate, FeatureEstimate, _num, _opt_dict, _opt_estimate, check_header
+from .base import (
+    SCHEMA,
+    Displayable,
+    Estimate,
+    FeatureEstimate,
+    _num,
+    _opt_dict,
+    _opt_estimate,
+    check_header,
+    first_order_position,
+    position,
+)
 
 __all__ = ["AuditResult", "LayerResult", "OutputResult", "PairEstimate", "UnitResult"]
+
+
+#: Words of the JSON for an index outside its possible range (``outside_range``): its 95 % interval
+#: reaches back into the range, or even the interval lies outside (the text report's two marks).
+_OUTSIDE = {"noise": "within noise", "beyond": "beyond noise"}
+
+
+def _placed(f: FeatureEstimate, where: str) -> dict[str, Any]:
+    """``f`` as JSON, with ``outside_range`` when it lies outside [0, 1] (or a first-order index above its total)."""
+    d = f.to_dict()
+    if where in _OUTSIDE:
+        d["outside_range"] = _OUTSIDE[where]
+    return d
 
 
 @dataclass(frozen=True)
@@ -82,14 +106,17 @@ class OutputResult:
         return sorted(self.total_index, key=lambda f: -f.value.estimate)
 
     def to_dict(self) -> dict[str, Any]:
+        totals = {f.feature: f.value for f in self.total_index}
         return {
             "name": self.name,
             "inert": self.inert,
             "mean": self.mean.to_dict(),
             "variance": self.variance.to_dict(),
             "mean_dimension": _opt_dict(self.mean_dimension),
-            "total_index": [f.to_dict() for f in self.total_index],
-            "first_order": [f.to_dict() for f in self.first_order],
+            "total_index": [_placed(f, position(f.value, 0.0, 1.0)) for f in self.total_index],
+            "first_order": [
+                _placed(f, first_order_position(f.value, totals.get(f.feature))) for f in self.first_order
+            ],
             **({"unreliable": self.unreliable} if self.unreliable else {}),
             **({"relation": self.relation} if self.relation else {}),
             **({"pairs": [p.to_dict() for p in self.pairs]} if self.pairs else {}),

@@ -20,7 +20,16 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["SCHEMA", "Displayable", "Estimate", "FeatureEstimate", "check_header", "set_renderer"]
+__all__ = [
+    "SCHEMA",
+    "Displayable",
+    "Estimate",
+    "FeatureEstimate",
+    "check_header",
+    "first_order_position",
+    "position",
+    "set_renderer",
+]
 
 _RENDERER: Callable[[Any], Any] | None = None
 _HTML: Callable[[Any], str] | None = None
@@ -163,3 +172,29 @@ def _opt_estimate(d: dict[str, Any] | None) -> Estimate | None:
 
 def _opt_dict(e: Estimate | None) -> dict[str, Any] | None:
     return None if e is None else e.to_dict()
+
+
+def position(e: Estimate, low: float, high: float) -> str:
+    """Where ``e`` lies against its possible range [low, high].
+
+    ``"inside"`` the range; outside it, ``"noise"`` when the 95 % interval reaches
+    back into the range (sampling noise), else ``"beyond"`` (more than noise).
+    Estimates that are not finite are ``"inside"`` (nothing to say); without a
+    finite interval an estimate outside the range is ``"beyond"``.
+    """
+    x = e.estimate
+    if not math.isfinite(x) or low <= x <= high:
+        return "inside"
+    if math.isfinite(e.ci_low) and math.isfinite(e.ci_high) and e.ci_low <= high and e.ci_high >= low:
+        return "noise"
+    return "beyond"
+
+
+def first_order_position(e: Estimate, total: Estimate | None) -> str:
+    """:func:`position` of a first-order index in [0, 1], and at or below the total index of its input
+    (``"noise"`` when its interval reaches the total's)."""
+    where = position(e, 0.0, 1.0)
+    if where == "inside" and total is not None and math.isfinite(total.estimate) and e.estimate > total.estimate:
+        reach = total.ci_high if math.isfinite(total.ci_high) else total.estimate
+        where = "noise" if math.isfinite(e.ci_low) and e.ci_low <= reach else "beyond"
+    return where

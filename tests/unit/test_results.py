@@ -236,3 +236,24 @@ def test_json_round_trip(net_advice):
         AdviceResult.from_dict({**d, "kind": "audit"})
     s = sum(v for v in d["design"]["evaluations_by_phase"].values())
     assert d["design"]["evaluations"] == s
+
+
+def test_the_json_says_which_indices_lie_outside_their_range() -> None:
+    """The text report's two marks, in the JSON: an index outside [0, 1] (or a first-order index above
+    its input's total) is ``within noise`` when its interval reaches back into the range, else
+    ``beyond noise``; an index inside its range carries no such key."""
+    inside = Estimate(0.4, 0.3, 0.5, 0.05)
+    total_b = Estimate(0.1, 0.08, 0.12, 0.01)
+    out = OutputResult(
+        "y", E, E, E,
+        [FeatureEstimate("a", inside), FeatureEstimate("b", total_b),
+         FeatureEstimate("c", Estimate(1.02, 0.99, 1.05, 0.01))],  # above 1, interval reaches 1
+        [FeatureEstimate("a", Estimate(-0.01, -0.03, 0.01, 0.01)),  # below 0, interval reaches 0
+         FeatureEstimate("b", Estimate(0.3, 0.25, 0.35, 0.02)),  # above the total, interval wholly above it
+         FeatureEstimate("c", Estimate(-0.2, -0.3, -0.1, 0.05))],  # wholly below 0
+    )  # fmt: skip
+    d = out.to_dict()
+    assert [t.get("outside_range") for t in d["total_index"]] == [None, None, "within noise"]
+    assert [f.get("outside_range") for f in d["first_order"]] == ["within noise", "beyond noise", "beyond noise"]
+    again = OutputResult.from_dict(json.loads(json.dumps(d)))
+    assert again == out and again.to_dict() == d
