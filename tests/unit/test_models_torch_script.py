@@ -6,10 +6,14 @@ source); agreement to float32 rounding.
 
 from __future__ import annotations
 
+from typing import Optional
+
 import netbuild
 import numpy as np
+import pytest
 import torch
 
+from audit.errors import UserError
 from audit.models import open_model
 
 RNG = np.random.default_rng(7)
@@ -48,3 +52,48 @@ def test_module_called_twice_each_call_is_a_layer(tmp_path) -> None:
     with torch.no_grad():
         first = torch.relu(net.a(torch.from_numpy(x.astype(np.float32)))).numpy()
     np.testing.assert_allclose(model.evaluate(x, capture=["act"]).hidden["act"], first, rtol=1e-5, atol=1e-6)
+
+
+class _Defaulted(torch.nn.Module):
+    """A forward with extra arguments that have defaults (a scale, an optional bias, a flag)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(3, 2)
+
+    def forward(self, x, scale: float = 2.0, bias: Optional[torch.Tensor] = None, flag: bool = True):  # noqa: UP045
+        y = torch.tanh(self.lin(x)) * scale
+        if bias is not None:
+            y = y + bias
+        return y if flag else -y
+
+
+class _Required(torch.nn.Module):
+    def __init__(self) -> None:
+        super().__init__()
+        self.lin = torch.nn.Linear(3, 2)
+
+    def forward(self, x, k: int):
+        return self.lin(x) * k
+
+
+def test_arguments_with_defaults_keep_them(tmp_path) -> None:
+    net = netbuild.seeded(_Defaulted, seed=2)
+    path = tmp_path / "defaulted.pt"
+    torch.jit.script(net).save(str(path))
+    model = open_model(str(path))
+    assert [t.name for t in model.inputs] == ["x"] and model.feature_names() == ["x[0]", "x[1]", "x[2]"]
+    assert any("'scale' = 2.0" in n and "'bias' = None" in n and "'flag' = True" in n for n in model.notices)
+    x = RNG.normal(size=(9, 3))
+    ev = model.evaluate(x, capture=["lin"])
+    with torch.no_grad():  # the eager network called with its defaults
+        xt = torch.from_numpy(x.astype(np.float32))
+        np.testing.assert_allclose(ev.outputs, net(xt).numpy(), rtol=1e-5, atol=1e-6)
+        np.testing.assert_allclose(ev.hidden["lin"], net.lin(xt).numpy(), rtol=1e-5, atol=1e-6)
+
+
+def test_an_argument_without_a_default_that_is_not_a_tensor_is_refused(tmp_path) -> None:
+    path = tmp_path / "required.pt"
+    torch.jit.script(netbuild.seeded(_Required)).save(str(path))
+    with pytest.raises(UserError, match=r"argument 'k' .* has type int; netdim feeds tensors only"):
+        open_model(str(path))

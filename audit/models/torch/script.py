@@ -225,16 +225,27 @@ class ScriptModel(TorchModel):
         given = input_shapes(input_shape, names, str(path)) or _recorded_shapes(extra[SHAPE_FILE], names, path)
         dtype = float_dtype(list(self.module.parameters()) + list(self.module.buffers()))
         super().__init__(path, input_tensors(path, names, given, dtype, lambda: self._infer_shape(path)))
+        if self._default_notice:
+            self.notices.append(self._default_notice)
 
     def _arguments(self, path: Path) -> list[str]:
-        """Names of the forward's tensor arguments; a UserError for any other argument."""
+        """Names of the forward's tensor arguments; trailing arguments with defaults keep them
+        (:attr:`_defaults`, with a notice); a UserError for any other argument."""
         values = list(self.module.graph.inputs())[1:]
         try:
-            names = [argument.name for argument in self.module.forward.schema.arguments[1:]]
+            arguments = list(self.module.forward.schema.arguments[1:])
         except (AttributeError, RuntimeError):
-            names = []
+            arguments = []
+        names = [argument.name for argument in arguments]
         if len(names) != len(values):
-            names = [re.sub(r"\.\d+$", "", value.debugName()) for value in values]
+            names, arguments = [re.sub(r"\.\d+$", "", value.debugName()) for value in values], []
+        kept = len(names)
+        while kept > 1 and arguments and arguments[kept - 1].has_default_value():
+            kept -= 1  # a defaulted argument after the first: fed its default
+        self._defaults = [argument.default_value for argument in arguments[kept:]]
+        shown = ", ".join(f"'{a.name}' = {a.default_value!r}" for a in arguments[kept:])
+        self._default_notice = f"The forward's arguments with defaults keep them: {shown}." if shown else ""
+        names, values = names[:kept], values[:kept]
         if not values:
             raise UserError(
                 f"The TorchScript model '{path}' takes no input; netdim audits models whose forward "
@@ -277,7 +288,7 @@ class ScriptModel(TorchModel):
         if not capture:
             return leaves(self.module(*xs)), []
         function, key = self._function(capture)
-        result = function(self.module._c, *xs)
+        result = function(self.module._c, *xs, *self._defaults)
         captured = dict(zip(key, result[1:], strict=True))
         return leaves(result[0]), [captured[name] for name in capture]
 
