@@ -97,3 +97,36 @@ def test_an_argument_without_a_default_that_is_not_a_tensor_is_refused(tmp_path)
     torch.jit.script(netbuild.seeded(_Required)).save(str(path))
     with pytest.raises(UserError, match=r"argument 'k' .* has type int; netdim feeds tensors only"):
         open_model(str(path))
+
+
+class _Branch(torch.nn.Module):
+    """A submodule called only inside an ``if`` of the forward (a switch left off)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.a, self.b, self.c = torch.nn.Linear(3, 4), torch.nn.Linear(4, 4), torch.nn.Linear(4, 2)
+        self.use_b: bool = False
+
+    def forward(self, x):
+        h = torch.relu(self.a(x))
+        if self.use_b:
+            h = torch.tanh(self.b(h))
+        return self.c(h)
+
+
+def test_modules_inside_a_branch_are_named_in_a_notice(tmp_path) -> None:
+    path = tmp_path / "branch.pt"
+    net = netbuild.seeded(_Branch, seed=3)
+    torch.jit.script(net).save(str(path))
+    model = open_model(str(path))
+    names = [layer.name for layer in model.layers()]
+    assert "a" in names and "b" not in names
+    assert any("inside an `if` or a loop" in n and "'b'" in n for n in model.notices), model.notices
+    x = RNG.normal(size=(6, 3))
+    with torch.no_grad():
+        np.testing.assert_allclose(model.evaluate(x).outputs, net(torch.from_numpy(x.astype(np.float32))).numpy(),
+                                   rtol=1e-5, atol=1e-6)  # fmt: skip
+    plain = netbuild.export_all(netbuild.seeded(netbuild.TinyMLP, seed=1), torch.zeros(4, 3), tmp_path, "mlp")
+    plain_model = open_model(str(plain["torchscript"]))
+    plain_model.layers()
+    assert not any("inside an `if`" in n for n in plain_model.notices)

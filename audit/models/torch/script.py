@@ -197,6 +197,18 @@ def _walk(block: torch._C.Block) -> list[torch._C.Node]:
     return found
 
 
+def _in_branches(graph: torch._C.Graph, paths: ModulePaths) -> set[str]:
+    """Module paths of the tensor ops inside the sub-blocks (``if`` branches, loops) of a graph's nodes."""
+    found = set()
+    for node in graph.block().nodes():
+        for sub in node.blocks():
+            for inner in _walk(sub):
+                stack = _module_path(inner)
+                if stack and inner.kind().startswith("aten::"):
+                    found.add(paths(stack))
+    return found
+
+
 class ScriptModel(TorchModel):
     """A TorchScript archive. Layers are tensors of the inlined graph, named by module path.
 
@@ -296,8 +308,17 @@ class ScriptModel(TorchModel):
         self._functions.pop(tuple(sorted(keys)), None)
 
     def _candidates(self) -> list[Layer]:
-        nodes, returned, _ = script_nodes(self._inlined(), self._paths)
-        return name_layers(fuse(nodes, returned), returned)
+        graph = self._inlined()
+        nodes, returned, _ = script_nodes(graph, self._paths)
+        layers = name_layers(fuse(nodes, returned), returned)
+        inside = _in_branches(graph, self._paths) - {layer.name for layer in layers}
+        if inside:
+            self.notices.append(
+                "Modules called inside an `if` or a loop of the scripted forward are not offered as layers: "
+                + ", ".join(f"'{name}'" for name in sorted(inside)) + ". The branch's result is offered as one "
+                "layer (named after its `if`); trace the model, or export it to ONNX or .pt2, to see them."
+            )
+        return layers
 
     def _infer_shape(self, path: Path) -> tuple[int, ...]:
         graph = self.module.graph.copy()
