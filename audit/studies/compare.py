@@ -59,13 +59,28 @@ def load_baseline(old: Any) -> AuditResult | None:
     return result
 
 
-def _common_layers(old: Any, new: Any, layers: str | Sequence[str]) -> list[tuple[Any, Any]]:
-    """Layers of the old model (as chosen) that the new one has with the same name and unit count."""
+def _common_layers(old: Any, new: Any, layers: str | Sequence[str]) -> tuple[list[tuple[Any, Any]], list[str]]:
+    """Layers of the old model (as chosen) that the new one has with the same name and unit count,
+    and the names of those it has not."""
     if isinstance(layers, str) and layers == "none":
-        return []
+        return [], []
     theirs = {x.name: x for x in new.layers()}
     chosen = select_layers(old, layers)
-    return [(x, theirs[x.name]) for x in chosen if x.name in theirs and theirs[x.name].units == x.units]
+    pairs = [(x, theirs[x.name]) for x in chosen if x.name in theirs and theirs[x.name].units == x.units]
+    return pairs, [x.name for x in chosen if x.name not in {a.name for a, _ in pairs}]
+
+
+def _unmatched_notice(chosen: int, left: Sequence[str]) -> list[str]:
+    """A notice naming the old model's layers left out of the comparison (none: no notice)."""
+    if not left:
+        return []
+    shown = ", ".join(f"'{name}'" for name in left[:6]) + (f" and {len(left) - 6} more" if len(left) > 6 else "")
+    return [
+        f"Layers compared: {chosen - len(left)} of the {chosen} chosen; the new model has no layer of the same "
+        f"name and size for {shown}. Layer names follow the module path, which another format of the same "
+        "network may spell differently (TorchScript names a list's members 0, 1, ...): compare models saved "
+        "in the same format to compare every layer."
+    ]
 
 
 def _floor(setup: Setup) -> float:
@@ -151,7 +166,7 @@ def compare_models(
         raise UserError("A comparison measures one view at a time: set `view` to inputs or groups, not both.")
     spec = inputs_spec(inputs)
     old, new = resolve_model(old, spec), resolve_model(new, spec)
-    pairs = _common_layers(old, new, layers)
+    pairs, left = _common_layers(old, new, layers)
     kw = dict(design=design, block=run.block, memory_limit=run.memory_limit, outputs=outputs)
     so = prepare(old, spec, layers=[a.name for a, _ in pairs], **kw)
     seed = None if paired else independent_seed(design.seed)  # type: ignore[arg-type]
@@ -214,6 +229,7 @@ def compare_models(
     info = design_info(so, seconds)
     info.update(evaluations=so.evaluations + sn.evaluations, paired=paired, **recorded)
     notices = list(dict.fromkeys(so.notices + sn.notices + session.notices))
+    notices += _unmatched_notice(len(pairs) + len(left), left)
     return ComparisonResult(
         model_info(so), model_info(sn), inputs_info(so), info, changes, layer_changes, checks, notices
     )
@@ -244,10 +260,11 @@ def _against_baseline(
     new = resolve_model(new, spec)
     spec = with_output_names(spec, baseline, sum(t.units for t in new.outputs))
     theirs = {x.name: x for x in new.layers()} if not (isinstance(layers, str) and layers == "none") else {}
-    kept = [x for x in baseline.layers if x.name in theirs and theirs[x.name].units == len(x.units)]
+    chosen = [] if isinstance(layers, str) and layers == "none" else list(baseline.layers)
     if not (isinstance(layers, str) and layers in ("activations", "all", "none")):
         wanted = set(layers.split(",") if isinstance(layers, str) else layers)
-        kept = [x for x in kept if x.name in wanted]
+        chosen = [x for x in chosen if x.name in wanted]
+    kept = [x for x in chosen if x.name in theirs and theirs[x.name].units == len(x.units)]
     sn = prepare(new, spec, design=design, layers=[x.name for x in kept], block=run.block,
                  memory_limit=run.memory_limit, outputs=outputs)  # fmt: skip
     if len(baseline.inputs) != sn.design.d:
@@ -277,6 +294,7 @@ def _against_baseline(
     info = dict(result.design)
     info.update(paired=True, baseline=True, evaluations=result.design["evaluations"], **recorded)
     notices = list(dict.fromkeys([*result.notices, "The old side is a saved audit report (the baseline)."]))
+    notices += _unmatched_notice(len(chosen), [x.name for x in chosen if x not in kept])
     return ComparisonResult(
         dict(baseline.model), dict(result.model), list(result.inputs), info, changes, layer_changes, checks, notices
     )

@@ -138,9 +138,27 @@ def test_layers_are_compared_when_both_models_have_them_with_the_same_size():
     assert [x.name for x in same.layers] == ["act"] and same.layers[0].units == 4
     # the same hidden layer: the change of its variance-weighted ν is exactly 0 on the same points
     assert same.layers[0].nu_weighted_change.estimate == 0.0
-    assert compare_models(_Net(), _Net(hidden=5), "normal", **kw).layers == []  # other unit count
-    assert compare_models(_Net(), _Net(name="other"), "normal", **kw).layers == []  # other name
-    assert compare_models(_Net(), _Net(), "normal", layers="none", **kw).layers == []
+    assert not any("Layers compared" in n for n in same.notices)
+    sized = compare_models(_Net(), _Net(hidden=5), "normal", **kw)
+    assert sized.layers == []  # other unit count
+    renamed = compare_models(_Net(), _Net(name="other"), "normal", **kw)
+    assert renamed.layers == []  # other name
+    for r in (sized, renamed):  # the layer left out is named, so that a pass does not hide it
+        assert any("Layers compared: 0 of the 1 chosen" in n and "'act'" in n for n in r.notices), r.notices
+    none = compare_models(_Net(), _Net(), "normal", layers="none", **kw)
+    assert none.layers == [] and not any("Layers compared" in n for n in none.notices)
+
+
+def test_a_baseline_layer_the_new_model_lacks_is_named():
+    from audit.studies import audit_model
+
+    kw = dict(points=64, replicates=4, seed=2)
+    baseline = audit_model(_Net(), "normal", layers="all", **kw)
+    kept = compare_models(baseline, _Net(scale=2.0), "normal", layers="all")
+    assert [x.name for x in kept.layers] == ["act"] and not any("Layers compared" in n for n in kept.notices)
+    renamed = compare_models(baseline, _Net(name="other"), "normal", layers="all")
+    assert renamed.layers == []
+    assert any("Layers compared: 0 of the 1 chosen" in n and "'act'" in n for n in renamed.notices)
 
 
 def test_gates_are_judged_on_the_result():
