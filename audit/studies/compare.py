@@ -67,7 +67,8 @@ def _common_layers(old: Any, new: Any, layers: str | Sequence[str]) -> tuple[lis
     theirs = {x.name: x for x in new.layers()}
     chosen = select_layers(old, layers)
     pairs = [(x, theirs[x.name]) for x in chosen if x.name in theirs and theirs[x.name].units == x.units]
-    return pairs, [x.name for x in chosen if x.name not in {a.name for a, _ in pairs}]
+    paired = {a.name for a, _ in pairs}
+    return pairs, [x.name for x in chosen if x.name not in paired]
 
 
 def _unmatched_notice(chosen: int, left: Sequence[str]) -> list[str]:
@@ -294,7 +295,8 @@ def _against_baseline(
     info = dict(result.design)
     info.update(paired=True, baseline=True, evaluations=result.design["evaluations"], **recorded)
     notices = list(dict.fromkeys([*result.notices, "The old side is a saved audit report (the baseline)."]))
-    notices += _unmatched_notice(len(chosen), [x.name for x in chosen if x not in kept])
+    paired_names = {x.name for x in kept}
+    notices += _unmatched_notice(len(chosen), [x.name for x in chosen if x.name not in paired_names])
     return ComparisonResult(
         dict(baseline.model), dict(result.model), list(result.inputs), info, changes, layer_changes, checks, notices
     )
