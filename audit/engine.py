@@ -32,6 +32,7 @@ from .design import Design
 from .estimators.base import Estimator, Sums
 from .finite import NonFiniteError, check_inputs, check_outputs, fits
 from .memory import IN_FLIGHT, native_outputs, plan_block
+from .streaming import stream
 
 __all__ = [
     "OVERLAP_VALUES",
@@ -297,8 +298,27 @@ def sum_task(job: Job, block: Any, X: np.ndarray, context: Any, out: Mapping[str
 
 
 def run_task(job: Job, task: Task) -> dict[str, Sums]:
-    """Evaluate one task of ``job`` and return one set of sums per group."""
-    return sum_task(job, *evaluate_task(job, task))
+    """Evaluate one task of ``job`` and return one set of sums per group.
+
+    A model that is called a few rows at a time (its evaluator's ``call_rows``) has the
+    sums of its hidden layers formed call by call (:mod:`audit.streaming`), when the
+    estimator's sums take a block in parts; the numbers are the same up to the order of
+    float64 additions. Anything wrong with the values runs the task whole, whose checks
+    give the message.
+    """
+    rows = getattr(job.evaluator, "call_rows", None)
+    if not rows or not native_outputs(job.estimator) or task.n * job.estimator.rows_per_point() <= rows:
+        return sum_task(job, *evaluate_task(job, task))
+    block = job.design.block(task.rep, task.start, task.n)
+    check_inputs(job, block)
+    X, context = job.estimator.layout(block, job.dtype)
+    sums = {g.name: job.estimator.sums(g.units, g.detail, block) for g in job.groups}
+    parts = {name: s for name, s in sums.items() if getattr(s, "streams", False)}
+    rest = stream(job.evaluator, X, rows, parts, {g.name: g.units for g in job.groups}, task.n) if parts else None
+    if rest is None or not all(fits(s) for s in parts.values()):
+        return sum_task(job, block, X, context, job.evaluator(X))
+    others = sum_task(replace(job, groups=[g for g in job.groups if g.name not in parts]), block, X, context, rest)
+    return {g.name: parts[g.name] if g.name in parts else others[g.name] for g in job.groups}
 
 
 def run(

@@ -15,7 +15,10 @@ def differences(
     """Every place where ``new`` differs from ``old`` (numbers beyond ``rtol``; keys of ``old`` only).
 
     ``absolute`` maps keys to an absolute tolerance used for their values instead (for quantities
-    formed by cancellation, whose last bits are those of larger numbers).
+    formed by cancellation, whose last bits are those of larger numbers). A ``std_error`` beside an
+    ``estimate`` is compared to ``rtol`` of the larger of the two: a standard error is the spread of
+    the randomizations' estimates, so rounding each estimate (the order of float64 additions) moves
+    it by ``rtol`` of the estimates, not of itself (common practice, no source).
     """
     out: list[str] = []
     _walk(old, new, where, out, rtol, ignore, absolute or {})
@@ -33,6 +36,11 @@ def _walk(old: Any, new: Any, where: str, out: list[str], rtol: float, ignore, a
             if key not in new:
                 out.append(f"{where}.{key}: missing")
                 continue
+            scale = old.get("estimate") if key == "std_error" else None
+            if isinstance(scale, float) and isinstance(value, float) and key not in absolute:
+                tol = rtol * max(abs(scale), abs(value))
+                if isinstance(new[key], int | float) and abs(value - new[key]) <= tol:
+                    continue
             _walk(value, new[key], f"{where}.{key}", out, rtol, ignore, absolute, key)
     elif isinstance(old, list):
         if not isinstance(new, list) or len(new) != len(old):

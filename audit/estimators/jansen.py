@@ -107,6 +107,7 @@ class JansenSums:
             self.shift: np.ndarray | None = None
         else:
             self.tot_sum = np.zeros(k)
+            self._kept: np.ndarray | None = None
 
     def add(self, y: np.ndarray, context: Any = None) -> None:
         """Add the outputs ``y`` of a block's rows: (n (g + 2), k), laid out as :meth:`Jansen.layout`."""
@@ -124,24 +125,16 @@ class JansenSums:
         (:func:`.kernels.squared_differences`), or, where that loop was not built, as
         :func:`_squares_f32` says.
         """
-        native32 = yA.dtype == np.float32 and yAB.dtype == np.float32
         n = yA.shape[0]
         self.rows += n
         self.moments.add_pair(yA, yB)
-        if not self.detail and native32:
-            squares = squared_differences(yA, yAB)
-            self.tot_sum += _squares_f32(yA, yAB) if squares is None else squares
+        if not self.detail:
+            self._add_squares(yA, yAB)
             return
         yA = np.asarray(yA, dtype=np.float64)
         yB = np.asarray(yB, dtype=np.float64)
         q = _inputs_per_pass(n, yA.shape[1])
         buf = np.empty((q, *yA.shape))
-        if not self.detail:
-            for j in range(0, self.g, q):
-                b = buf[: min(q, self.g - j)]
-                np.subtract(yAB[j : j + q], yA[None], out=b)
-                self.tot_sum += np.einsum("gnk,gnk->k", b, b)
-            return
         if self.shift is None:
             self.shift = yB.mean(axis=0)
         centred = yB - self.shift
@@ -151,6 +144,58 @@ class JansenSums:
             self.tot[j : j + q] += np.einsum("gnk,gnk->gk", b, b)
             self.fo[j : j + q] += np.einsum("nk,gnk->gk", centred, b)
             self.dif[j : j + q] += np.einsum("gnk->gk", b)
+
+    def _add_squares(self, yA: np.ndarray, yAB: np.ndarray) -> None:
+        """Without detail: add ``sum_j sum_i (yAB[j, i] - yA[i])^2`` per unit, in float64."""
+        if yA.dtype == np.float32 and yAB.dtype == np.float32:
+            squares = squared_differences(yA, yAB)
+            self.tot_sum += _squares_f32(yA, yAB) if squares is None else squares
+            return
+        yA = np.asarray(yA, dtype=np.float64)
+        q = _inputs_per_pass(yA.shape[0], yA.shape[1])
+        buf = np.empty((q, *yA.shape))
+        for j in range(0, yAB.shape[0], q):
+            b = buf[: min(q, yAB.shape[0] - j)]
+            np.subtract(yAB[j : j + q], yA[None], out=b)
+            self.tot_sum += np.einsum("gnk,gnk->k", b, b)
+
+    @property
+    def streams(self) -> bool:
+        """Whether :meth:`add_rows` takes a block in parts (without per-input detail)."""
+        return not self.detail
+
+    def add_rows(self, y: np.ndarray, start: int, points: int) -> None:
+        """Add rows ``[start, start + len(y))`` of a block of ``points`` points laid out as
+        :meth:`Jansen.layout`, the block's parts handed over in order.
+
+        A model called on a thousand rows at a time has each call's values summed while
+        they are still in the cache, and no array of the whole block is made. Only without
+        per-input detail (:attr:`streams`). Rows A and B are kept until the block's last
+        row; the sums are those of :meth:`add` on the whole block up to the order of the
+        float64 additions.
+        """
+        if self.detail:
+            raise ValueError("a block in parts is summed only without per-input detail.")
+        n, stop = int(points), start + len(y)
+        if start == 0:
+            self._kept = np.empty((2 * n, *y.shape[1:]), dtype=y.dtype)
+        kept = self._kept
+        if kept is None or stop > n * (self.g + 2):
+            raise ValueError("rows must be handed over in order, from row 0 to the block's last.")
+        if start < 2 * n:  # rows A, then B: kept; their moments once both are complete
+            m = min(stop, 2 * n) - start
+            kept[start : start + m] = y[:m]
+            y, start = y[m:], start + m
+            if start == 2 * n:
+                self.rows += n
+                self.moments.add_pair(kept[:n], kept[n:])
+        while len(y):  # rows A_B^{(j)}, a part of one input's rows at a time
+            i = (start - 2 * n) % n
+            m = min(len(y), n - i)
+            self._add_squares(kept[i : i + m], y[:m].reshape(1, m, -1))
+            y, start = y[m:], start + m
+        if stop == n * (self.g + 2):
+            self._kept = None
 
     def magnitude_bound(self) -> float:
         """An upper bound of every value added: ``|mean| + sqrt(m2)`` bounds y_A and y_B, and the

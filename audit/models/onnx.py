@@ -63,13 +63,11 @@ from .tensors import (
 
 __all__ = ["CALL_ROWS", "TWIN_BYTES", "OnnxModel"]
 
-#: Rows per onnxruntime call (outputs alone, and hidden tensors written in place by
-#: :mod:`.onnx_chunks`). Measured on 2 cores, two one-thread sessions side by side, per row:
-#: a 64-256-256-10 MLP's outputs ran 0.95x the time of one two-thread session in calls of
-#: 1024 rows and 1.27x in calls of 8192 (tensors of 8192 rows leave the cache); the digits
-#: CNN 0.97x and 1.13x; MLPs 784-512-512-10 and 20-1024-1024-1024-5 were within 10 % of
-#: their best at 512-1024 rows, 30-40 % slower at 8192. With every layer returned, two
-#: tasks of 33,792 rows side by side took 32 ms in calls of 1024 against 43 ms in one call.
+#: Rows per onnxruntime call (and per call from the engine, :attr:`OnnxModel.call_rows`).
+#: On 2 cores, two one-thread sessions side by side, per row: a 64-256-256-10 MLP's outputs
+#: ran 0.95x one two-thread session's time in calls of 1024 rows, 1.27x in calls of 8192
+#: (tensors of 8192 rows leave the cache); the digits CNN 0.97x and 1.13x; MLPs 784-512-512-10
+#: and 20-1024-1024-1024-5 were within 10 % of their best at 512-1024 rows, 30-40 % slower at 8192.
 CALL_ROWS = 1024
 
 
@@ -248,6 +246,12 @@ class OnnxModel:
         probe = self._probe
         runs = [self._raw(session, names, x) for x in (probe.small, probe.large, probe.large)]
         return tuple([np.asarray(v) for v in run] for run in runs)  # type: ignore[return-value]
+
+    @property
+    def call_rows(self) -> int:
+        """Rows the engine hands over per call: :data:`CALL_ROWS` (a multiple of a fixed batch size)."""
+        b = self.batch_size
+        return max(1, CALL_ROWS // b) * b if b else CALL_ROWS
 
     # -- names ---------------------------------------------------------------------------
 

@@ -29,6 +29,8 @@ class ModelEvaluator:
 
     def __init__(self, model: Model, capture: Sequence[str], keep: np.ndarray | None = None) -> None:
         self.model, self.capture, self.keep = model, list(capture), keep
+        #: Rows the model takes per call at its best (None: any), for :mod:`audit.streaming`.
+        self.call_rows: int | None = getattr(model, "call_rows", None)
 
     def concurrent(self, calls: int) -> ModelEvaluator | None:
         """This evaluator for ``calls`` blocks at once, or None if its model cannot take them
@@ -67,6 +69,8 @@ class PairedEvaluator:
     ) -> None:
         self.old, self.new, self.layers = old, new, list(layers)
         self.keep_old, self.keep_new = keep_old, keep_new
+        rows = [getattr(m, "call_rows", None) for m in (old, new)]
+        self.call_rows: int | None = min(rows) if None not in rows else None  # type: ignore[type-var]
 
     def concurrent(self, calls: int) -> PairedEvaluator | None:
         """Both models for ``calls`` blocks at once, or None unless both can take them."""

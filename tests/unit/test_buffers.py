@@ -58,7 +58,8 @@ def side_by_side(monkeypatch):
         lent.append(array.ctypes.data)
         return array
 
-    monkeypatch.setattr("audit.models.onnx_chunks.take", spy)
+    monkeypatch.setattr("audit.models.onnx_chunks.take", spy)  # a block evaluated whole
+    monkeypatch.setattr("audit.streaming.take", spy)  # the outputs of a block summed call by call
     return lent
 
 

@@ -41,6 +41,7 @@ LAYERS = {
     "models": 2,
     "finite": 2,
     "memory": 2,
+    "streaming": 2,
     "engine": 3,
     "quadrature": 3,
     "checkpoint": 4,
