@@ -32,7 +32,7 @@ from .design import Design
 from .estimators.base import Estimator, Sums
 from .finite import NonFiniteError, check_inputs, check_outputs, fits
 from .memory import IN_FLIGHT, native_outputs, plan_block
-from .streaming import stream
+from .streaming import call_size, stream
 
 __all__ = [
     "OVERLAP_VALUES",
@@ -300,7 +300,8 @@ def sum_task(job: Job, block: Any, X: np.ndarray, context: Any, out: Mapping[str
 def run_task(job: Job, task: Task) -> dict[str, Sums]:
     """Evaluate one task of ``job`` and return one set of sums per group.
 
-    A model that is called a few rows at a time (its evaluator's ``call_rows``) has the
+    A model that is called a few rows at a time (its evaluator's ``call_rows``, fewer when
+    a call's values would leave the cache: :func:`~audit.streaming.call_size`) has the
     sums of its hidden layers formed call by call (:mod:`audit.streaming`), when the
     estimator's sums take a block in parts; the numbers are the same up to the order of
     float64 additions. Anything wrong with the values runs the task whole, whose checks
@@ -314,6 +315,7 @@ def run_task(job: Job, task: Task) -> dict[str, Sums]:
     X, context = job.estimator.layout(block, job.dtype)
     sums = {g.name: job.estimator.sums(g.units, g.detail, block) for g in job.groups}
     parts = {name: s for name, s in sums.items() if getattr(s, "streams", False)}
+    rows = call_size(rows, job.units * np.dtype(job.dtype).itemsize)
     rest = stream(job.evaluator, X, rows, parts, {g.name: g.units for g in job.groups}, task.n) if parts else None
     if rest is None or not all(fits(s) for s in parts.values()):
         return sum_task(job, block, X, context, job.evaluator(X))

@@ -22,11 +22,13 @@ static int take(PyObject *obj, Py_buffer *view, int flags, const char *format, i
     return 0;
 }
 
-/* Where the toolchain can (GCC or clang, x86-64, glibc's ifunc), the loop is compiled twice, plain and
- * with AVX2, and the loader picks the one the CPU runs (measured 6.6 -> 4.3 ms for 66 x 256 rows of 1034
- * units); elsewhere once, as the compiler's defaults allow. */
+/* Where the toolchain can (GCC or clang, x86-64, glibc's ifunc), the loop is compiled three times, plain,
+ * with AVX2 and with AVX-512, and the loader picks the best one the CPU runs (measured 6.6 -> 4.3 ms for
+ * 66 x 256 rows of 1034 units with AVX2; 0.143 -> 0.093 ns a value with AVX-512 on 512 rows of 512 units
+ * in the cache); elsewhere once, as the compiler's defaults allow. Each unit's sum is formed in the same
+ * order by every variant (the vectors run across units), so all give the same numbers. */
 #if defined(__GNUC__) && defined(__x86_64__) && defined(__GLIBC__)
-#define VARIANTS __attribute__((target_clones("avx2", "default")))
+#define VARIANTS __attribute__((target_clones("avx512f", "avx2", "default")))
 #else
 #define VARIANTS
 #endif

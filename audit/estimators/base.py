@@ -46,6 +46,8 @@ from typing import Any, Protocol
 
 import numpy as np
 
+from ..buffers import take
+
 __all__ = ["Estimator", "Moments", "RepEstimates", "Sums"]
 
 
@@ -74,8 +76,9 @@ class Moments:
     def add_pair(self, a: np.ndarray, b: np.ndarray) -> None:
         """Add the rows of ``a`` and then ``b`` (any float type): the numbers of
         ``add(np.concatenate([a, b]))`` in float64, with one float64 array instead of five
-        (fresh arrays of a block's size cost more in page faults than their arithmetic)."""
-        y = np.empty((len(a) + len(b), *a.shape[1:]))
+        (fresh arrays of a block's size cost more in page faults than their arithmetic), lent
+        by the engine between tasks (:func:`audit.buffers.take`)."""
+        y = take((len(a) + len(b), *a.shape[1:]), np.float64)
         y[: len(a)], y[len(a) :] = a, b
         mean_b = y.mean(axis=0)
         np.subtract(y, mean_b, out=y)

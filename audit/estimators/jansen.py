@@ -29,6 +29,7 @@ from typing import Any
 
 import numpy as np
 
+from ..buffers import take
 from .base import Moments, RepEstimates
 from .kernels import squared_differences
 
@@ -178,7 +179,7 @@ class JansenSums:
             raise ValueError("a block in parts is summed only without per-input detail.")
         n, stop = int(points), start + len(y)
         if start == 0:
-            self._kept = np.empty((2 * n, *y.shape[1:]), dtype=y.dtype)
+            self._kept = take((2 * n, *y.shape[1:]), y.dtype)  # lent by the engine between tasks
         kept = self._kept
         if kept is None or stop > n * (self.g + 2):
             raise ValueError("rows must be handed over in order, from row 0 to the block's last.")

@@ -11,6 +11,7 @@ formed per randomization, then averaged, with Student-t intervals from
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -104,7 +105,7 @@ class GroupStats:
 
     def why_unreliable(self, k: int, nu: Estimate, totals: list[Estimate], d: int) -> str:
         """Why unit ``k``'s ν or a total index cannot be trusted ("" when they can)."""
-        mean, var, eps = float(self.mean[:, k].mean()), float(self.var[:, k].mean()), float(self.eps[k])
+        mean, var, eps = float(self._unit_means[0][k]), float(self._unit_means[1][k]), float(self.eps[k])
         why = unreliable(nu.ci_low, nu.ci_high, d, mean, var, eps)
         if why:
             return f"{why}: the interval of ν [{nu.ci_low:.3g}, {nu.ci_high:.3g}] says nothing within [1, {d}]"
@@ -113,6 +114,11 @@ class GroupStats:
             if why:
                 return f"{why}: a total index's interval [{e.ci_low:.3g}, {e.ci_high:.3g}] says nothing within [0, 1]"
         return ""
+
+    @cached_property
+    def _unit_means(self) -> tuple[np.ndarray, np.ndarray]:
+        """Mean and variance of every unit over the randomizations (once for all units)."""
+        return self.mean.mean(axis=0), self.var.mean(axis=0)
 
     def weighted_nu(self, keep: np.ndarray | None = None) -> np.ndarray:
         """Per randomization, Σ total indices / Σ variances over the units kept (live ones by default)."""

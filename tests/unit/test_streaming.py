@@ -136,3 +136,12 @@ def test_an_onnx_audit_summed_call_by_call_equals_the_audit_of_whole_blocks(tmp_
             nu = ua.get("mean_dimension")
             if isinstance(nu, dict) and not ua["inert"] and not ua.get("unreliable"):
                 assert nu["ci_low"] <= 64 and nu["ci_high"] >= 1, (a["name"], nu)  # 64 inputs
+
+
+def test_calls_are_halved_until_their_values_fit_the_budget() -> None:
+    from audit.streaming import MIN_CALL_ROWS, STREAM_BYTES, call_size
+
+    assert call_size(1024, 4 * 640) == 1024  # the digits CNN's activation layers: 2.5 KiB a row
+    assert call_size(1024, 4 * 1546) == 512  # its every layer and outputs: 6 KiB a row
+    assert call_size(1024, STREAM_BYTES) == MIN_CALL_ROWS  # never below the floor
+    assert call_size(98, 4 * 10**6) == 98  # a model's own smaller size is kept
