@@ -35,6 +35,16 @@ def _placed(f: FeatureEstimate, where: str) -> dict[str, Any]:
     return d
 
 
+def _nu(e: Estimate | None, d: int | None) -> dict[str, Any] | None:
+    """A mean dimension as JSON, with ``outside_range`` when it lies outside [1, d] (``d`` known)."""
+    out = _opt_dict(e)
+    if out is not None and e is not None and d:
+        where = position(e, 1.0, float(d))
+        if where in _OUTSIDE:
+            out["outside_range"] = _OUTSIDE[where]
+    return out
+
+
 @dataclass(frozen=True)
 class PairEstimate:
     """Superset importance of a pair of inputs, Σ_{u ⊇ {j, k}} σ²_u / σ², with its interval."""
@@ -105,14 +115,15 @@ class OutputResult:
         """Total indices, largest first."""
         return sorted(self.total_index, key=lambda f: -f.value.estimate)
 
-    def to_dict(self) -> dict[str, Any]:
+    def to_dict(self, d: int | None = None) -> dict[str, Any]:
+        """JSON; ``d`` (inputs or groups, default: one per total index) bounds ν for ``outside_range``."""
         totals = {f.feature: f.value for f in self.total_index}
         return {
             "name": self.name,
             "inert": self.inert,
             "mean": self.mean.to_dict(),
             "variance": self.variance.to_dict(),
-            "mean_dimension": _opt_dict(self.mean_dimension),
+            "mean_dimension": _nu(self.mean_dimension, d or len(self.total_index)),
             "total_index": [_placed(f, position(f.value, 0.0, 1.0)) for f in self.total_index],
             "first_order": [
                 _placed(f, first_order_position(f.value, totals.get(f.feature))) for f in self.first_order
@@ -151,18 +162,19 @@ class UnitResult:
     total_index: list[FeatureEstimate] = field(default_factory=list)
     unreliable: str = ""
 
-    def to_dict(self) -> dict[str, Any]:
-        d = {
+    def to_dict(self, d: int | None = None) -> dict[str, Any]:
+        """JSON; ``d`` (inputs or groups, default: one per total index, if any) bounds ν for ``outside_range``."""
+        out = {
             "unit": self.unit,
             "inert": self.inert,
             "variance": self.variance.to_dict(),
-            "mean_dimension": _opt_dict(self.mean_dimension),
+            "mean_dimension": _nu(self.mean_dimension, d or len(self.total_index)),
         }
         if self.total_index:
-            d["total_index"] = [f.to_dict() for f in self.total_index]
+            out["total_index"] = [f.to_dict() for f in self.total_index]
         if self.unreliable:
-            d["unreliable"] = self.unreliable
-        return d
+            out["unreliable"] = self.unreliable
+        return out
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> UnitResult:
@@ -192,13 +204,14 @@ class LayerResult:
     summary: dict[str, Any]
     units: list[UnitResult]
 
-    def to_dict(self) -> dict[str, Any]:
+    def to_dict(self, d: int | None = None) -> dict[str, Any]:
+        """JSON; ``d`` (inputs or groups) bounds the units' ν for ``outside_range``."""
         return {
             "name": self.name,
             "op": self.op,
             "shape": list(self.shape),
             "summary": {k: (_num(v) if isinstance(v, float) else v) for k, v in self.summary.items()},
-            "units": [u.to_dict() for u in self.units],
+            "units": [u.to_dict(d) for u in self.units],
         }
 
     @classmethod
@@ -259,6 +272,11 @@ class AuditResult(Displayable):
         """True when the indices of this result are those of groups of inputs."""
         return bool(self.groups)
 
+    @property
+    def dimension(self) -> int:
+        """The most ν can be: the number of groups in a grouped run, else of inputs."""
+        return len(self.groups) if self.groups else len(self.inputs)
+
     def output(self, name: str) -> OutputResult:
         for o in self.outputs:
             if o.name == name:
@@ -273,8 +291,8 @@ class AuditResult(Displayable):
             "model": dict(self.model),
             "inputs": [dict(i) for i in self.inputs],
             "design": dict(self.design),
-            "outputs": [o.to_dict() for o in self.outputs],
-            "layers": [layer.to_dict() for layer in self.layers],
+            "outputs": [o.to_dict(self.dimension) for o in self.outputs],
+            "layers": [layer.to_dict(self.dimension) for layer in self.layers],
             "notices": list(self.notices),
             **({"replicates": self.replicates} if self.replicates else {}),
             **({"groups": [dict(g) for g in self.groups]} if self.groups else {}),

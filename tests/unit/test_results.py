@@ -257,3 +257,30 @@ def test_the_json_says_which_indices_lie_outside_their_range() -> None:
     assert [f.get("outside_range") for f in d["first_order"]] == ["within noise", "beyond noise", "beyond noise"]
     again = OutputResult.from_dict(json.loads(json.dumps(d)))
     assert again == out and again.to_dict() == d
+
+
+def test_the_json_says_which_mean_dimensions_lie_outside_one_to_d() -> None:
+    """ν of a unit with variance lies in [1, d] (a sum of d total indices, each at most 1, at least the sum
+    of first-order indices, which is 1; common practice, no source). Outside it, ν's dict carries the same
+    words as an index: ``within noise`` when its interval reaches back into [1, d], else ``beyond noise``."""
+    totals = [FeatureEstimate(f, Estimate(0.5, 0.4, 0.6, 0.05)) for f in "abc"]  # d = 3
+
+    def nu_of(nu):
+        return OutputResult("y", E, E, nu, totals, []).to_dict()["mean_dimension"].get("outside_range")
+    assert nu_of(Estimate(1.5, 1.2, 1.8, 0.1)) is None
+    assert nu_of(Estimate(0.97, 0.9, 1.04, 0.03)) == "within noise"
+    assert nu_of(Estimate(3.5, 3.2, 3.8, 0.1)) == "beyond noise"
+    unit = UnitResult("h[0]", E, Estimate(0.8, 0.7, 0.9, 0.05))
+    assert "outside_range" not in unit.to_dict()["mean_dimension"]  # no d known: nothing said
+    assert unit.to_dict(3)["mean_dimension"]["outside_range"] == "beyond noise"
+    assert UnitResult.from_dict(json.loads(json.dumps(unit.to_dict(3)))) == unit
+    layer = LayerResult("h", "relu", (1,), {"units": 1}, [unit])
+    base = dict(model={}, design={}, outputs=[], layers=[layer])
+    inputs = [{"name": f} for f in "abcd"]
+    wide = UnitResult("h[0]", E, Estimate(2.5, 2.3, 2.7, 0.1))  # inside [1, 4], beyond 2 groups
+    grouped = AuditResult(**{**base, "layers": [LayerResult("h", "relu", (1,), {}, [wide])]}, inputs=inputs,
+                          groups=[{"name": "g1", "inputs": ["a", "b"]}, {"name": "g2", "inputs": ["c", "d"]}])
+    whole = AuditResult(**base, inputs=inputs).to_dict()
+    assert whole["layers"][0]["units"][0]["mean_dimension"]["outside_range"] == "beyond noise"  # d = 4 inputs
+    assert grouped.dimension == 2
+    assert grouped.to_dict()["layers"][0]["units"][0]["mean_dimension"]["outside_range"] == "beyond noise"

@@ -75,7 +75,7 @@ def outputs_table(result: AuditResult) -> Table:
     """
     units = output_units(result)
     marks = Marks()
-    d = len(result.inputs)
+    d = result.dimension
     columns = [
         Column("output", "name"),
         *([Column("unit", "text")] if units else []),
@@ -193,7 +193,7 @@ def layers_table(result: AuditResult, marks: Marks | None = None) -> Table:
     ν outside [1, d] is marked by ``marks`` (its note explains the mark).
     """
     marks = Marks() if marks is None else marks
-    d = len(result.inputs)
+    d = result.dimension
     columns = (
         Column("layer", "name"),
         Column("op", "text"),
