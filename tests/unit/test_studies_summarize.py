@@ -4,9 +4,13 @@ The reference for every figure is audit.estimators.t_interval applied here to th
 values computed by hand: indices and ν are ratios formed in each randomization, then averaged.
 """
 
+import math
+
 import numpy as np
 import pytest
 from fake_models import Layered
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from audit.estimators import t_interval
 from audit.estimators.base import RepEstimates
@@ -16,6 +20,7 @@ from audit.studies.options import DesignOptions
 from audit.studies.setup import prepare
 from audit.studies.summarize import (
     GroupStats,
+    _quantile,
     design_info,
     estimate,
     estimates,
@@ -171,3 +176,14 @@ def test_the_design_records_what_a_command_must_repeat():
     assert run_choices(prepare(model, "normal", design=DesignOptions(points=64, seed=1), layers="none")) == {
         "input_shape": {"a": [2], "b": [1, 4]}, "trust": True, "layers": "none",
     }  # fmt: skip
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.floats(0.5, 60.0), min_size=0, max_size=300), st.sampled_from([0.0, 0.5, 0.9, 1.0]))
+def test_layer_quantiles_are_numpys_linear_quantiles(values, p) -> None:
+    """The layer summary's ν quantiles: numpy's ``np.quantile`` (method ``linear``) is the reference."""
+    got = _quantile(np.sort(np.array(values)))(p)
+    if not values:
+        assert math.isnan(got)
+    else:
+        assert got == pytest.approx(float(np.quantile(values, p)), rel=1e-15, abs=0)
